@@ -1,0 +1,1 @@
+//! Reading survey files (CSV of our own design). See the README for the format.

@@ -1,0 +1,227 @@
+//! Units at the edges of the program.
+//!
+//! Inside the library every length is in metres and every angle in radians. The
+//! names in this module are the only place where feet, inches and millimetres
+//! appear; input readers convert on the way in and exporters on the way out.
+
+use std::fmt;
+use std::str::FromStr;
+
+/// One international foot in metres (exact by definition, 1959 agreement).
+pub const FOOT: f64 = 0.3048;
+/// One inch in metres (exact by definition).
+pub const INCH: f64 = 0.0254;
+
+/// Unit of chainages and other along-track and plan lengths in a file.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, serde::Serialize, serde::Deserialize)]
+pub enum LengthUnit {
+    /// Metres (`_m` column suffix).
+    Metre,
+    /// International feet (`_ft` column suffix).
+    Foot,
+}
+
+impl LengthUnit {
+    /// Metres per unit.
+    pub fn metres(self) -> f64 {
+        match self {
+            LengthUnit::Metre => 1.0,
+            LengthUnit::Foot => FOOT,
+        }
+    }
+    /// Column-name suffix without the underscore (`m` or `ft`).
+    pub fn suffix(self) -> &'static str {
+        match self {
+            LengthUnit::Metre => "m",
+            LengthUnit::Foot => "ft",
+        }
+    }
+    /// Convert a value in this unit to metres.
+    pub fn to_m(self, v: f64) -> f64 {
+        v * self.metres()
+    }
+    /// Convert metres to this unit.
+    pub fn from_m(self, v: f64) -> f64 {
+        v / self.metres()
+    }
+    /// The versine unit that goes with this length unit in output files
+    /// (millimetres for metric surveys, inches for imperial ones).
+    pub fn versine_unit(self) -> VersineUnit {
+        match self {
+            LengthUnit::Metre => VersineUnit::Millimetre,
+            LengthUnit::Foot => VersineUnit::Inch,
+        }
+    }
+}
+
+/// Unit of versine readings in a file.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, serde::Serialize, serde::Deserialize)]
+pub enum VersineUnit {
+    /// Millimetres (`versine_mm`).
+    Millimetre,
+    /// Metres (`versine_m`).
+    Metre,
+    /// Inches (`versine_in`).
+    Inch,
+    /// Feet (`versine_ft`).
+    Foot,
+}
+
+impl VersineUnit {
+    /// Metres per unit.
+    pub fn metres(self) -> f64 {
+        match self {
+            VersineUnit::Millimetre => 1e-3,
+            VersineUnit::Metre => 1.0,
+            VersineUnit::Inch => INCH,
+            VersineUnit::Foot => FOOT,
+        }
+    }
+    /// Column-name suffix without the underscore (`mm`, `m`, `in`, `ft`).
+    pub fn suffix(self) -> &'static str {
+        match self {
+            VersineUnit::Millimetre => "mm",
+            VersineUnit::Metre => "m",
+            VersineUnit::Inch => "in",
+            VersineUnit::Foot => "ft",
+        }
+    }
+    /// Parse a column suffix (`mm`, `m`, `in`, `ft`).
+    pub fn from_suffix(s: &str) -> Option<Self> {
+        match s {
+            "mm" => Some(VersineUnit::Millimetre),
+            "m" => Some(VersineUnit::Metre),
+            "in" => Some(VersineUnit::Inch),
+            "ft" => Some(VersineUnit::Foot),
+            _ => None,
+        }
+    }
+    /// Convert a value in this unit to metres.
+    pub fn to_m(self, v: f64) -> f64 {
+        v * self.metres()
+    }
+    /// Convert metres to this unit.
+    pub fn from_m(self, v: f64) -> f64 {
+        v / self.metres()
+    }
+}
+
+/// A length typed with its unit on the command line, such as `20m`, `62ft`,
+/// `20 m` or `30.48m`. Stored in metres.
+///
+/// # Examples
+/// ```
+/// use chordline::units::Length;
+/// let c: Length = "62ft".parse().unwrap();
+/// assert!((c.metres() - 18.8976).abs() < 1e-12);
+/// assert_eq!(c.unit(), chordline::units::LengthUnit::Foot);
+/// assert!("20".parse::<Length>().is_err()); // a unit is required
+/// ```
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Length {
+    metres: f64,
+    unit: LengthUnit,
+}
+
+impl Length {
+    /// A length from metres, remembered as metric.
+    pub fn from_metres(metres: f64) -> Self {
+        Length {
+            metres,
+            unit: LengthUnit::Metre,
+        }
+    }
+    /// The value in metres.
+    pub fn metres(&self) -> f64 {
+        self.metres
+    }
+    /// The unit it was written in.
+    pub fn unit(&self) -> LengthUnit {
+        self.unit
+    }
+}
+
+impl fmt::Display for Length {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(f, "{}{}", self.unit.from_m(self.metres), self.unit.suffix())
+    }
+}
+
+/// Why a length such as `--chord 20m` could not be read.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum LengthParseError {
+    /// No unit after the number.
+    #[error("'{0}' has no unit: write it as e.g. 20m or 62ft")]
+    NoUnit(String),
+    /// A unit we do not know.
+    #[error("'{0}' has an unknown unit: use m or ft (e.g. 20m, 62ft)")]
+    UnknownUnit(String),
+    /// The number part is not a number.
+    #[error("'{0}' is not a number followed by m or ft (e.g. 20m, 62ft)")]
+    NotANumber(String),
+    /// Zero, negative or not finite.
+    #[error("'{0}' must be a positive, finite length")]
+    NotPositive(String),
+}
+
+impl FromStr for Length {
+    type Err = LengthParseError;
+    fn from_str(s: &str) -> Result<Self, Self::Err> {
+        let t = s.trim();
+        // The unit is the trailing run of letters.
+        let split = t
+            .trim_end_matches(|c: char| c.is_ascii_alphabetic())
+            .len();
+        if split == t.len() {
+            return Err(LengthParseError::NoUnit(s.to_string()));
+        }
+        let (num, unit) = t.split_at(split);
+        let unit = match unit.trim() {
+            "m" => LengthUnit::Metre,
+            "ft" => LengthUnit::Foot,
+            _ => return Err(LengthParseError::UnknownUnit(s.to_string())),
+        };
+        let v: f64 = num
+            .trim()
+            .parse()
+            .map_err(|_| LengthParseError::NotANumber(s.to_string()))?;
+        if !(v.is_finite() && v > 0.0) {
+            return Err(LengthParseError::NotPositive(s.to_string()));
+        }
+        Ok(Length {
+            metres: unit.to_m(v),
+            unit,
+        })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn parses_lengths_with_units() {
+        let l: Length = "20m".parse().unwrap();
+        assert_eq!(l.metres(), 20.0);
+        let l: Length = " 20 m ".parse().unwrap();
+        assert_eq!(l.metres(), 20.0);
+        let l: Length = "62ft".parse().unwrap();
+        assert!((l.metres() - 62.0 * 0.3048).abs() < 1e-12);
+        assert!(matches!(
+            "-20m".parse::<Length>(),
+            Err(LengthParseError::NotPositive(_))
+        ));
+        assert!(matches!(
+            "0m".parse::<Length>(),
+            Err(LengthParseError::NotPositive(_))
+        ));
+        assert!(matches!(
+            "20yd".parse::<Length>(),
+            Err(LengthParseError::UnknownUnit(_))
+        ));
+        assert!(matches!(
+            "1.2.3m".parse::<Length>(),
+            Err(LengthParseError::NotANumber(_))
+        ));
+    }
+}
