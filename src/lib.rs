@@ -13,10 +13,17 @@
 //!
 //! Supporting modules: [`units`] (the only place units other than SI appear),
 //! [`geometry`] (exact evaluation of alignments), [`simulate`] (exact surveys of
-//! a known design, the test bed for everything else).
+//! a known design, the test bed for everything else), [`diag`] (warnings with
+//! locations).
 //!
 //! The library does no terminal I/O; the `chordline` binary is a thin layer over it.
 
+pub mod diag;
+pub mod export;
+pub mod fit;
 pub mod geometry;
+pub mod georef;
+pub mod integrate;
+pub mod simulate;
 pub mod survey;
 pub mod units;

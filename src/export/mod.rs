@@ -1,0 +1,1 @@
+//! Writing results: the only serialisation layer. Every writer takes `impl Write`.

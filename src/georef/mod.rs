@@ -1,0 +1,1 @@
+//! Putting the plan on the Earth: projections, start point and bearing, control points.

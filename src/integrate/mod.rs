@@ -1,0 +1,1 @@
+//! Versines → curvature, heading and plan coordinates, with standard deviations.

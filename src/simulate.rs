@@ -1,0 +1,1 @@
+//! Exact surveys of a known design: the test bed for everything else.
