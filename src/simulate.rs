@@ -1,1 +1,940 @@
-//! Exact surveys of a known design: the test bed for everything else.
+//! Exact surveys of a known design: the test bed for everything else, and a
+//! way to plan a survey.
+//!
+//! A design (a list of straights, clothoid transitions and arcs) is placed in
+//! the plan, the measured rail is laid half a gauge from its centreline, marks
+//! are set out along that rail, and each versine is **measured geometrically**:
+//! the perpendicular distance from the mark to the straight wire between the
+//! marks at either end of the chord. Nothing here inverts or reuses the
+//! integrator, so a round trip through [`crate::integrate`] is a real check.
+//!
+//! Measuring conventions (the same ones `../shared/tools/reference-survey`
+//! states in code, which the tests compare against):
+//! - [`Marking::Taped`]: marks at equal arc length along the rail; the wire
+//!   runs between the marks half a chord (in arc length) either side.
+//! - [`Marking::Wire`]: a rigid wire (or beam) of the nominal chord length
+//!   whose ends rest on the rail and whose middle sits abreast of the mark; the
+//!   versine is read perpendicular to the wire at its middle.
+//! - The field versine is positive when the rail bows away from the wire.
+//!
+//! Optional imperfections, all seeded and reproducible: a lateral irregularity
+//! of the track itself (a sum of sinusoids with wavelengths of 3–70 m, scaled
+//! to a stated RMS), a constant reading bias, random reading noise, and
+//! rounding of the readings to a resolution.
+
+use crate::geometry::{Alignment, Element, Pose};
+use crate::survey::{Marking, Rail, Reading, Survey};
+use crate::units::{LengthUnit, VersineUnit};
+use rand::{Rng, SeedableRng};
+use rand_chacha::ChaCha8Rng;
+use rand_distr::{Distribution, Normal};
+use std::io::{self, Write};
+
+/// How the simulated survey is taken.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SimSetup {
+    /// Chord length, metres.
+    pub chord: f64,
+    /// Distance between marks along the rail, metres (the half chord for a
+    /// classic survey; it must divide the half chord).
+    pub spacing: f64,
+    /// The rail measured.
+    pub rail: Rail,
+    /// Track gauge between running edges, metres.
+    pub gauge: f64,
+    /// How the marks are set out and the wire is held.
+    pub marking: Marking,
+    /// Standard deviation of the random reading noise, metres.
+    pub noise_sd: f64,
+    /// Constant reading bias (handle or wire offset), metres.
+    pub bias: f64,
+    /// Readings are rounded to this step, metres (0: no rounding).
+    pub resolution: f64,
+    /// RMS of the lateral irregularity of the track, metres (0: perfect track).
+    pub irregularity_rms: f64,
+    /// Seed of the random numbers (noise and irregularity).
+    pub seed: u64,
+    /// Chainage of the first mark, metres.
+    pub start_chainage: f64,
+    /// Unit of chainages in the written survey.
+    pub chainage_unit: LengthUnit,
+    /// Unit of versines in the written survey.
+    pub versine_unit: VersineUnit,
+}
+
+impl SimSetup {
+    /// A classic metric hand survey: `chord` metres read every half chord on
+    /// `rail`, taped marks, standard gauge, no noise, no rounding.
+    pub fn classic(chord: f64, rail: Rail) -> Self {
+        SimSetup {
+            chord,
+            spacing: 0.5 * chord,
+            rail,
+            gauge: crate::survey::Setup::STANDARD_GAUGE,
+            marking: Marking::Taped,
+            noise_sd: 0.0,
+            bias: 0.0,
+            resolution: 0.0,
+            irregularity_rms: 0.0,
+            seed: 1,
+            start_chainage: 0.0,
+            chainage_unit: LengthUnit::Metre,
+            versine_unit: VersineUnit::Millimetre,
+        }
+    }
+
+    /// Number of mark spacings in the half chord, if the spacing divides it.
+    pub fn steps_per_half_chord(&self) -> Option<usize> {
+        let m = 0.5 * self.chord / self.spacing;
+        let r = m.round();
+        (r >= 1.0 && (m - r).abs() < 1e-9).then_some(r as usize)
+    }
+}
+
+/// Why a simulation could not be set up.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum SimulateError {
+    /// Chord, spacing or gauge not positive and finite.
+    #[error("{what} must be a positive, finite number of metres (got {value})")]
+    NotPositive {
+        /// Which quantity.
+        what: &'static str,
+        /// The value given.
+        value: f64,
+    },
+    /// The spacing does not divide the half chord.
+    #[error(
+        "the mark spacing {spacing} m does not divide the half chord {half} m; use e.g. {half} m, {quarter} m or {tenth} m"
+    )]
+    SpacingDoesNotFit {
+        /// Spacing given, metres.
+        spacing: f64,
+        /// Half chord, metres.
+        half: f64,
+        /// Half of the half chord, for the message.
+        quarter: f64,
+        /// A tenth of the half chord, for the message.
+        tenth: f64,
+    },
+    /// The design is too short for a single chord.
+    #[error(
+        "the design is {length:.3} m long along the rail, shorter than one chord ({chord} m): add elements or shorten the chord"
+    )]
+    TooShort {
+        /// Rail length of the design, metres.
+        length: f64,
+        /// Chord, metres.
+        chord: f64,
+    },
+    /// Noise, bias, resolution or irregularity not finite or negative.
+    #[error("{what} must be a finite number not below zero (got {value})")]
+    BadImperfection {
+        /// Which quantity.
+        what: &'static str,
+        /// The value given.
+        value: f64,
+    },
+    /// A fixed-length wire could not be placed (curve too sharp for the chord).
+    #[error(
+        "a {chord} m wire cannot rest on the rail at chainage {chainage:.3} m: the curve is too sharp for this chord"
+    )]
+    WireDoesNotFit {
+        /// Chord, metres.
+        chord: f64,
+        /// Chainage of the mark, metres.
+        chainage: f64,
+    },
+}
+
+/// The exact state of the track at one mark.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Truth {
+    /// Survey chainage of the mark (along the rail), metres.
+    pub chainage: f64,
+    /// Distance along the design centreline abreast of the mark, metres.
+    pub centre_s: f64,
+    /// Design centreline pose abreast of the mark.
+    pub centre: Pose,
+    /// Design curvature of the centreline, 1/m.
+    pub centre_curvature: f64,
+    /// Running edge of the measured rail at the mark, as built (with
+    /// irregularity), easting, metres.
+    pub rail_x: f64,
+    /// Same, northing, metres.
+    pub rail_y: f64,
+    /// Lateral irregularity at the mark, metres, positive to the left.
+    pub irregularity: f64,
+    /// The exact field versine before noise, bias and rounding, metres
+    /// (`None` where the chord runs off the design).
+    pub versine: Option<f64>,
+}
+
+/// A simulated survey and the truth behind it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Simulated {
+    /// The readings as a surveyor would write them down.
+    pub survey: Survey,
+    /// The exact geometry at every mark.
+    pub truth: Vec<Truth>,
+}
+
+/// Simulate a survey of `design` (the track centreline) taken with `setup`.
+///
+/// Marks run from the start of the design to its end along the measured
+/// rail; marks within half a chord of either end have no reading, as in the
+/// field where the wire would run off the surveyed length.
+///
+/// # Examples
+/// ```
+/// use chordline::geometry::{Alignment, Element, Pose};
+/// use chordline::simulate::{simulate, SimSetup};
+/// use chordline::survey::Rail;
+/// // A right-hand 500 m curve measured on the left (outer) rail with a 20 m chord.
+/// let design = Alignment::new(Pose::default(), 0.0, vec![Element::arc(300.0, -500.0)]);
+/// let sim = simulate(&design, &SimSetup::classic(20.0, Rail::Left)).unwrap();
+/// let v = sim.survey.readings[10].versine.unwrap();
+/// // Outer rail radius 500.7175 m; taped marks: v = R(1 − cos(a/R)) (METHODS §1).
+/// let r = 500.7175_f64;
+/// assert!((v - r * (1.0 - (10.0 / r).cos())).abs() < 1e-9);
+/// ```
+///
+/// # Errors
+/// [`SimulateError`] when the set-up is inconsistent or the design too short.
+pub fn simulate(design: &Alignment, setup: &SimSetup) -> Result<Simulated, SimulateError> {
+    check_setup(setup)?;
+    let m = setup.steps_per_half_chord().ok_or_else(|| {
+        let half = 0.5 * setup.chord;
+        SimulateError::SpacingDoesNotFit {
+            spacing: setup.spacing,
+            half,
+            quarter: 0.5 * half,
+            tenth: 0.1 * half,
+        }
+    })?;
+    let d = setup.rail.offset_left(setup.gauge);
+    let rail_len = design.offset_length(design.length(), d);
+    if rail_len < setup.chord {
+        return Err(SimulateError::TooShort {
+            length: rail_len,
+            chord: setup.chord,
+        });
+    }
+    let n = (rail_len / setup.spacing + 1e-9).floor() as usize + 1;
+    let irr = Irregularity::new(setup.irregularity_rms, setup.seed);
+
+    // Rail point at rail arc length r (as built).
+    let rail_point = |r: f64| -> (f64, f64, f64, Pose) {
+        let s = design.centreline_distance(r, d);
+        let p = design.pose_at(s);
+        let y = irr.at(r);
+        let (x, yy) = p.offset_left(d + y);
+        (x, yy, s, p)
+    };
+
+    let mut truth = Vec::with_capacity(n);
+    let pts: Vec<(f64, f64, f64, Pose)> = (0..n)
+        .map(|j| rail_point(j as f64 * setup.spacing))
+        .collect();
+    for (j, &(x, y, s, p)) in pts.iter().enumerate() {
+        let r = j as f64 * setup.spacing;
+        let versine = match setup.marking {
+            Marking::Taped => (j >= m && j + m < n).then(|| {
+                let (ax, ay, ..) = pts[j - m];
+                let (bx, by, ..) = pts[j + m];
+                field_versine((ax, ay), (x, y), (bx, by), setup.rail)
+            }),
+            Marking::Wire => {
+                if r - 0.5 * setup.chord < -1e-9 || r + 0.5 * setup.chord > rail_len + 1e-9 {
+                    None
+                } else {
+                    wire_versine(&rail_point, r, (x, y), setup, rail_len)?
+                }
+            }
+        };
+        truth.push(Truth {
+            chainage: setup.start_chainage + r,
+            centre_s: s,
+            centre: p,
+            centre_curvature: design.curvature_at(s),
+            rail_x: x,
+            rail_y: y,
+            irregularity: irr.at(r),
+            versine,
+        });
+    }
+
+    // Readings: bias, noise, rounding.
+    let mut rng = ChaCha8Rng::seed_from_u64(setup.seed);
+    let normal =
+        Normal::new(0.0, setup.noise_sd.max(0.0)).map_err(|_| SimulateError::BadImperfection {
+            what: "noise",
+            value: setup.noise_sd,
+        })?;
+    let readings = truth
+        .iter()
+        .enumerate()
+        .map(|(j, t)| {
+            let versine = t.versine.map(|v| {
+                let mut r = v + setup.bias;
+                if setup.noise_sd > 0.0 {
+                    r += normal.sample(&mut rng);
+                }
+                round_reading(r, setup.resolution, setup.versine_unit)
+            });
+            Reading {
+                chainage: t.chainage,
+                versine,
+                rail: setup.rail,
+                note: None,
+                line: j + 2,
+            }
+        })
+        .collect();
+    Ok(Simulated {
+        survey: Survey {
+            source: "simulated survey".to_string(),
+            chainage_unit: setup.chainage_unit,
+            versine_unit: setup.versine_unit,
+            readings,
+            has_side_column: false,
+        },
+        truth,
+    })
+}
+
+fn check_setup(s: &SimSetup) -> Result<(), SimulateError> {
+    for (what, value) in [
+        ("the chord", s.chord),
+        ("the mark spacing", s.spacing),
+        ("the gauge", s.gauge),
+    ] {
+        if !(value.is_finite() && value > 0.0) {
+            return Err(SimulateError::NotPositive { what, value });
+        }
+    }
+    for (what, value) in [
+        ("the reading noise", s.noise_sd),
+        ("the resolution", s.resolution),
+        ("the irregularity", s.irregularity_rms),
+    ] {
+        if !(value.is_finite() && value >= 0.0) {
+            return Err(SimulateError::BadImperfection { what, value });
+        }
+    }
+    if !s.bias.is_finite() {
+        return Err(SimulateError::BadImperfection {
+            what: "the bias",
+            value: s.bias,
+        });
+    }
+    Ok(())
+}
+
+/// Round a reading (metres) to `resolution` metres, in the file's unit so that
+/// e.g. 1/8 in steps stay exact. Rounds half away from zero.
+fn round_reading(v: f64, resolution: f64, _unit: VersineUnit) -> f64 {
+    if resolution > 0.0 {
+        (v / resolution).round() * resolution
+    } else {
+        v
+    }
+}
+
+/// Perpendicular distance of `p` from the wire `a`→`b`, as a field versine
+/// (positive when the rail bows away from the wire) for a reading on `rail`.
+pub fn field_versine(a: (f64, f64), p: (f64, f64), b: (f64, f64), rail: Rail) -> f64 {
+    let (wx, wy) = (b.0 - a.0, b.1 - a.1);
+    // Positive when p lies to the left of the wire a→b.
+    let left = (wx * (p.1 - a.1) - wy * (p.0 - a.0)) / wx.hypot(wy);
+    // On the left rail, bowing away from the wire is bowing to the left.
+    match rail {
+        Rail::Left => left,
+        Rail::Right => -left,
+    }
+}
+
+/// Versine read by a rigid wire of the chord length whose middle is abreast
+/// of the mark at rail arc length `r`; `None` when an end of the wire would
+/// rest beyond the surveyed length.
+fn wire_versine(
+    rail_point: &dyn Fn(f64) -> (f64, f64, f64, Pose),
+    r: f64,
+    p: (f64, f64),
+    setup: &SimSetup,
+    rail_len: f64,
+) -> Result<Option<f64>, SimulateError> {
+    let c = setup.chord;
+    let fail = || SimulateError::WireDoesNotFit {
+        chord: c,
+        chainage: setup.start_chainage + r,
+    };
+    // Unknowns: arc lengths of the two ends. Equations: |AB| = c, and the
+    // perpendicular to AB through its middle passes through p.
+    let f = |ra: f64, rb: f64| {
+        let (ax, ay, ..) = rail_point(ra);
+        let (bx, by, ..) = rail_point(rb);
+        let (mx, my) = (0.5 * (ax + bx), 0.5 * (ay + by));
+        let len = (bx - ax).hypot(by - ay);
+        let along = ((p.0 - mx) * (bx - ax) + (p.1 - my) * (by - ay)) / len;
+        (len - c, along, (ax, ay), (bx, by))
+    };
+    let (mut ra, mut rb) = (r - 0.5 * c, r + 0.5 * c);
+    for _ in 0..60 {
+        let (f1, f2, ..) = f(ra, rb);
+        if f1.abs() < 1e-13 && f2.abs() < 1e-13 {
+            break;
+        }
+        let h = 1e-6;
+        let (g1a, g2a, ..) = f(ra + h, rb);
+        let (g1b, g2b, ..) = f(ra, rb + h);
+        let (j11, j21) = ((g1a - f1) / h, (g2a - f2) / h);
+        let (j12, j22) = ((g1b - f1) / h, (g2b - f2) / h);
+        let det = j11 * j22 - j12 * j21;
+        if !det.is_finite() || det.abs() < 1e-300 {
+            return Err(fail());
+        }
+        ra -= (f1 * j22 - f2 * j12) / det;
+        rb -= (j11 * f2 - j21 * f1) / det;
+        if !(ra.is_finite() && rb.is_finite()) || rb <= ra {
+            return Err(fail());
+        }
+    }
+    let (f1, f2, a, b) = f(ra, rb);
+    if f1.abs() > 1e-9 || f2.abs() > 1e-9 {
+        return Err(fail());
+    }
+    if ra < -1e-9 || rb > rail_len + 1e-9 {
+        return Ok(None);
+    }
+    Ok(Some(field_versine(a, p, b, setup.rail)))
+}
+
+/// Lateral irregularity of the track: a sum of sinusoids with wavelengths
+/// log-uniform in 3–70 m and amplitudes growing with wavelength, scaled to the
+/// stated RMS over a long stretch. The band follows the EN 13848-1 D1/D2
+/// alignment wavebands (from memory).
+#[derive(Debug, Clone)]
+struct Irregularity {
+    waves: Vec<(f64, f64, f64)>, // (wavenumber rad/m, amplitude m, phase)
+}
+
+impl Irregularity {
+    fn new(rms: f64, seed: u64) -> Self {
+        if rms <= 0.0 {
+            return Irregularity { waves: Vec::new() };
+        }
+        let mut rng = ChaCha8Rng::seed_from_u64(seed ^ 0x5eed_1e55_0ff5_e7ab);
+        let mut waves: Vec<(f64, f64, f64)> = (0..200)
+            .map(|_| {
+                let lam = (rng.random_range(3f64.ln()..70f64.ln())).exp();
+                // Rayleigh-distributed amplitude proportional to wavelength.
+                let u: f64 = rng.random_range(f64::EPSILON..1.0);
+                let amp = lam * (-2.0 * u.ln()).sqrt();
+                let ph = rng.random_range(0.0..std::f64::consts::TAU);
+                (std::f64::consts::TAU / lam, amp, ph)
+            })
+            .collect();
+        // RMS of a sum of sinusoids with random phases: sqrt(sum a²/2).
+        let ms: f64 = waves.iter().map(|w| 0.5 * w.1 * w.1).sum();
+        let scale = rms / ms.sqrt();
+        for w in &mut waves {
+            w.1 *= scale;
+        }
+        Irregularity { waves }
+    }
+    fn at(&self, r: f64) -> f64 {
+        self.waves
+            .iter()
+            .map(|&(k, a, ph)| a * (k * r + ph).sin())
+            .sum()
+    }
+}
+
+/// Why a design file could not be read.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum DesignError {
+    /// Not valid JSON.
+    #[error(
+        "{file}: line {line}, column {column}: not valid JSON ({msg}); check brackets, commas and quotes"
+    )]
+    Json {
+        /// File name.
+        file: String,
+        /// 1-based line.
+        line: usize,
+        /// 1-based column.
+        column: usize,
+        /// The parser's message.
+        msg: String,
+    },
+    /// A value is missing or of the wrong kind.
+    #[error("{file}: {place}: {msg}")]
+    Bad {
+        /// File name.
+        file: String,
+        /// Where in the design (e.g. "element 3").
+        place: String,
+        /// What is wrong and what to do.
+        msg: String,
+    },
+}
+
+/// A design read from a JSON file: the elements and, optionally, the survey
+/// set-up. All lengths in metres.
+///
+/// The file is an object with an `elements` array; each element has `kind`
+/// (`straight`, `transition`, `arc`) and `length`; an arc has a signed
+/// `radius` (positive curving left); a transition joins its neighbours'
+/// curvatures unless it gives `r_start`/`r_end` (null for a straight end).
+/// Optional set-up keys: `chord_m`, `spacing_m`, `rail` (`left`/`right`),
+/// `gauge_m`, `noise_mm`, `bias_mm`, `resolution_mm`, `irregularity_mm`,
+/// `seed`, `units` (`metric`/`imperial`), `marking` (`taped`/`wire`),
+/// `start_chainage_m`. These are the keys of the team's reference generator,
+/// so one design file drives both.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Design {
+    /// The centreline elements.
+    pub elements: Vec<Element>,
+    /// The set-up, with defaults (20 m chord, half-chord spacing, left rail,
+    /// standard gauge, taped, no noise) for keys the file leaves out.
+    pub setup: SimSetup,
+}
+
+impl Design {
+    /// The design centreline placed at the origin heading north.
+    pub fn alignment(&self) -> Alignment {
+        Alignment::new(
+            Pose {
+                x: 0.0,
+                y: 0.0,
+                heading: std::f64::consts::FRAC_PI_2,
+            },
+            self.setup.start_chainage,
+            self.elements.clone(),
+        )
+    }
+
+    /// Parse a design from JSON text; `file` names it in messages.
+    ///
+    /// # Errors
+    /// [`DesignError`] naming the line and column of a JSON error, or the
+    /// element and key that is missing or wrong.
+    pub fn from_json(file: &str, text: &str) -> Result<Design, DesignError> {
+        let v: serde_json::Value = serde_json::from_str(text).map_err(|e| DesignError::Json {
+            file: file.to_string(),
+            line: e.line(),
+            column: e.column(),
+            msg: e.to_string(),
+        })?;
+        let bad = |place: &str, msg: String| DesignError::Bad {
+            file: file.to_string(),
+            place: place.to_string(),
+            msg,
+        };
+        let obj = v.as_object().ok_or_else(|| {
+            bad(
+                "top level",
+                "expected an object with an \"elements\" array".into(),
+            )
+        })?;
+        let num = |key: &str, default: f64| -> Result<f64, DesignError> {
+            match obj.get(key) {
+                None | Some(serde_json::Value::Null) => Ok(default),
+                Some(x) => x
+                    .as_f64()
+                    .filter(|f| f.is_finite())
+                    .ok_or_else(|| bad(key, format!("expected a number, found {x}"))),
+            }
+        };
+        let chord = num("chord_m", 20.0)?;
+        let imperial = match obj.get("units").and_then(|u| u.as_str()) {
+            None | Some("metric") => false,
+            Some("imperial") => true,
+            Some(other) => {
+                return Err(bad(
+                    "units",
+                    format!("'{other}' is not a unit system; use \"metric\" or \"imperial\""),
+                ));
+            }
+        };
+        let rail = match obj.get("rail").and_then(|u| u.as_str()) {
+            None | Some("left") => Rail::Left,
+            Some("right") => Rail::Right,
+            Some(other) => {
+                return Err(bad(
+                    "rail",
+                    format!("'{other}' is not a rail; use \"left\" or \"right\""),
+                ));
+            }
+        };
+        let marking = match obj.get("marking").and_then(|u| u.as_str()) {
+            None | Some("taped") => Marking::Taped,
+            Some("wire") => Marking::Wire,
+            Some(other) => {
+                return Err(bad(
+                    "marking",
+                    format!("'{other}' is not a marking; use \"taped\" or \"wire\""),
+                ));
+            }
+        };
+        let setup = SimSetup {
+            chord,
+            spacing: num("spacing_m", 0.5 * chord)?,
+            rail,
+            gauge: num("gauge_m", crate::survey::Setup::STANDARD_GAUGE)?,
+            marking,
+            noise_sd: num("noise_mm", 0.0)? * 1e-3,
+            bias: num("bias_mm", 0.0)? * 1e-3,
+            resolution: num("resolution_mm", 0.0)? * 1e-3,
+            irregularity_rms: num("irregularity_mm", 0.0)? * 1e-3,
+            seed: num("seed", 1.0)?.max(0.0) as u64,
+            start_chainage: num("start_chainage_m", 0.0)?,
+            chainage_unit: if imperial {
+                LengthUnit::Foot
+            } else {
+                LengthUnit::Metre
+            },
+            versine_unit: if imperial {
+                VersineUnit::Inch
+            } else {
+                VersineUnit::Millimetre
+            },
+        };
+        let els = obj
+            .get("elements")
+            .and_then(|e| e.as_array())
+            .ok_or_else(|| {
+                bad(
+                    "top level",
+                    "no \"elements\" array; list the straights, transitions and arcs in order"
+                        .into(),
+                )
+            })?;
+        if els.is_empty() {
+            return Err(bad(
+                "elements",
+                "the list is empty; give at least one element".into(),
+            ));
+        }
+        // First pass: kinds, lengths, arc curvatures.
+        struct Raw {
+            kind: String,
+            length: f64,
+            k: Option<(f64, f64)>,
+            k_start: Option<f64>,
+            k_end: Option<f64>,
+        }
+        let mut raw = Vec::with_capacity(els.len());
+        for (i, e) in els.iter().enumerate() {
+            let place = format!("element {}", i + 1);
+            let kind = e.get("kind").and_then(|k| k.as_str()).ok_or_else(|| {
+                bad(
+                    &place,
+                    "no \"kind\"; use \"straight\", \"transition\" or \"arc\"".into(),
+                )
+            })?;
+            let length = e
+                .get("length")
+                .and_then(|l| l.as_f64())
+                .filter(|l| l.is_finite() && *l > 0.0)
+                .ok_or_else(|| {
+                    bad(
+                        &place,
+                        "\"length\" must be a positive number of metres".into(),
+                    )
+                })?;
+            let radius_key = |key: &str| -> Result<Option<Option<f64>>, DesignError> {
+                match e.get(key) {
+                    None => Ok(None),
+                    Some(serde_json::Value::Null) => Ok(Some(None)),
+                    Some(x) => {
+                        let r = x.as_f64().filter(|r| r.is_finite() && *r != 0.0).ok_or_else(|| {
+                            bad(&place, format!("\"{key}\" must be a non-zero signed radius in metres (positive curving left), or null for a straight end"))
+                        })?;
+                        Ok(Some(Some(r)))
+                    }
+                }
+            };
+            let (k, ks, ke) = match kind {
+                "straight" => (Some((0.0, 0.0)), None, None),
+                "arc" => {
+                    let r = radius_key("radius")?.flatten().ok_or_else(|| {
+                        bad(
+                            &place,
+                            "an arc needs a signed \"radius\" in metres (positive curving left)"
+                                .into(),
+                        )
+                    })?;
+                    (Some((1.0 / r, 1.0 / r)), None, None)
+                }
+                "transition" => (
+                    None,
+                    radius_key("r_start")?.map(|r| r.map_or(0.0, |r| 1.0 / r)),
+                    radius_key("r_end")?.map(|r| r.map_or(0.0, |r| 1.0 / r)),
+                ),
+                other => {
+                    return Err(bad(
+                        &place,
+                        format!(
+                            "kind '{other}' is not known; use \"straight\", \"transition\" or \"arc\""
+                        ),
+                    ));
+                }
+            };
+            raw.push(Raw {
+                kind: kind.to_string(),
+                length,
+                k,
+                k_start: ks,
+                k_end: ke,
+            });
+        }
+        let mut elements = Vec::with_capacity(raw.len());
+        for i in 0..raw.len() {
+            let r = &raw[i];
+            let e = match r.kind.as_str() {
+                "straight" => Element::straight(r.length),
+                "arc" => {
+                    let (k, _) = r.k.unwrap_or((0.0, 0.0));
+                    Element::arc(r.length, 1.0 / k)
+                }
+                _ => {
+                    let prev = if i > 0 {
+                        raw[i - 1].k.map(|k| k.1)
+                    } else {
+                        Some(0.0)
+                    };
+                    let next = raw.get(i + 1).map_or(Some(0.0), |n| n.k.map(|k| k.0));
+                    let k0 = r.k_start.or(prev).unwrap_or(0.0);
+                    let k1 = r.k_end.or(next).unwrap_or(0.0);
+                    Element::transition(r.length, k0, k1)
+                }
+            };
+            elements.push(e);
+        }
+        Ok(Design { elements, setup })
+    }
+}
+
+/// Write a survey in the project's survey-file format (see the README):
+/// a comment header, then `chainage_<unit>,versine_<unit>`; gaps are empty cells.
+/// Versines are written with enough decimals for `resolution` (metres; 0 means
+/// exact, written to 0.0001 mm or 0.00001 in).
+///
+/// # Errors
+/// Only I/O errors of `w`.
+pub fn write_survey_csv(
+    mut w: impl Write,
+    survey: &Survey,
+    resolution: f64,
+    comment: &str,
+) -> io::Result<()> {
+    for line in comment.lines() {
+        writeln!(w, "# {line}")?;
+    }
+    let cu = survey.chainage_unit;
+    let vu = survey.versine_unit;
+    writeln!(w, "chainage_{},versine_{}", cu.suffix(), vu.suffix())?;
+    // Decimals: enough to show the resolution step exactly, else fine.
+    let res_in_unit = vu.from_m(resolution);
+    let vdec = if resolution > 0.0 {
+        decimals_for(res_in_unit)
+    } else {
+        match vu {
+            VersineUnit::Millimetre => 4,
+            VersineUnit::Inch => 5,
+            VersineUnit::Metre | VersineUnit::Foot => 7,
+        }
+    };
+    for r in &survey.readings {
+        let c = cu.from_m(r.chainage);
+        match r.versine {
+            Some(v) => writeln!(w, "{c:.4},{:.*}", vdec, vu.from_m(v))?,
+            None => writeln!(w, "{c:.4},")?,
+        }
+    }
+    Ok(())
+}
+
+/// Smallest number of decimals that writes multiples of `step` exactly
+/// (up to 6; 0.125 → 3, 1 → 0, 0.5 → 1).
+fn decimals_for(step: f64) -> usize {
+    for d in 0..=6 {
+        let scaled = step * 10f64.powi(d as i32);
+        if (scaled - scaled.round()).abs() < 1e-9 * scaled.abs().max(1.0) {
+            return d;
+        }
+    }
+    6
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_relative_eq;
+
+    fn simple_curve() -> Alignment {
+        Alignment::new(
+            Pose::default(),
+            0.0,
+            vec![
+                Element::straight(200.0),
+                Element::transition(60.0, 0.0, -1.0 / 450.0),
+                Element::arc(300.0, -450.0),
+                Element::transition(60.0, -1.0 / 450.0, 0.0),
+                Element::straight(200.0),
+            ],
+        )
+    }
+
+    #[test]
+    fn circle_versines_match_closed_forms() {
+        // METHODS.md §1 / CHECKS.md 1.4: on a circle of rail radius R, taped marks
+        // give v = R(1 − cos(a/R)); a straight wire of length c gives R − √(R² − c²/4).
+        let rc = 150.0;
+        let design = Alignment::new(Pose::default(), 0.0, vec![Element::arc(400.0, rc)]);
+        for (rail, rr) in [(Rail::Left, rc - 0.7175), (Rail::Right, rc + 0.7175)] {
+            let mut s = SimSetup::classic(20.0, rail);
+            let sim = simulate(&design, &s).unwrap();
+            let v = sim.survey.readings[5].versine.unwrap();
+            // Left-hand curve: the right rail is the outer rail (positive).
+            let expect = rr * (1.0 - (10.0 / rr).cos());
+            let sign = if rail == Rail::Right { 1.0 } else { -1.0 };
+            assert_relative_eq!(v, sign * expect, epsilon = 1e-9);
+            s.marking = Marking::Wire;
+            let sim = simulate(&design, &s).unwrap();
+            let v = sim.survey.readings[5].versine.unwrap();
+            let expect = rr - (rr * rr - 100.0).sqrt();
+            assert_relative_eq!(v, sign * expect, epsilon = 1e-9);
+        }
+    }
+
+    #[test]
+    fn checks_table_worked_values_on_the_centreline_radius() {
+        // CHECKS.md 1.4 (computed): R = 500 m, c = 20 m: wire 100.0100 mm,
+        // marks along the arc 99.9967 mm. Gauge 0 puts the rail on the centreline.
+        let design = Alignment::new(Pose::default(), 0.0, vec![Element::arc(200.0, -500.0)]);
+        let mut s = SimSetup::classic(20.0, Rail::Left);
+        s.gauge = 1e-12;
+        let v = simulate(&design, &s).unwrap().survey.readings[8]
+            .versine
+            .unwrap();
+        assert!((v * 1e3 - 99.9967).abs() < 1e-4, "{}", v * 1e3);
+        s.marking = Marking::Wire;
+        let v = simulate(&design, &s).unwrap().survey.readings[8]
+            .versine
+            .unwrap();
+        assert!((v * 1e3 - 100.0100).abs() < 1e-4, "{}", v * 1e3);
+    }
+
+    #[test]
+    fn clothoid_versines_follow_the_kernel_signature() {
+        // CHECKS.md 1.11 (computed): along a clothoid R = 450, L = 60, c = 20 m,
+        // away from its ends v = c²s/(8RL): s = 30 m → 55.5556 mm (exact geometry
+        // within 0.003 mm; we measure the centreline with a tiny gauge).
+        let design = Alignment::new(
+            Pose::default(),
+            0.0,
+            vec![
+                Element::straight(100.0),
+                Element::transition(60.0, 0.0, 1.0 / 450.0),
+                Element::arc(100.0, 450.0),
+            ],
+        );
+        let mut s = SimSetup::classic(20.0, Rail::Right);
+        s.gauge = 1e-12;
+        s.spacing = 5.0;
+        let sim = simulate(&design, &s).unwrap();
+        let at = |c: f64| {
+            sim.survey
+                .readings
+                .iter()
+                .find(|r| (r.chainage - c).abs() < 1e-9)
+                .and_then(|r| r.versine)
+                .unwrap()
+                * 1e3
+        };
+        assert!((at(130.0) - 55.5556).abs() < 0.003, "{}", at(130.0));
+        // CHECKS.md 1.12: v(TS) = a³/(12RL) = 3.0864 mm, v(SC) ≈ 108.0206 mm (exact geometry).
+        assert!((at(100.0) - 3.0864).abs() < 0.005, "{}", at(100.0));
+        assert!((at(160.0) - 108.0206).abs() < 0.005, "{}", at(160.0));
+    }
+
+    #[test]
+    fn noise_rounding_and_seed_are_reproducible() {
+        let mut s = SimSetup::classic(20.0, Rail::Left);
+        s.noise_sd = 1e-3;
+        s.resolution = 1e-3;
+        s.irregularity_rms = 1.5e-3;
+        s.seed = 7;
+        let a = simulate(&simple_curve(), &s).unwrap();
+        let b = simulate(&simple_curve(), &s).unwrap();
+        assert_eq!(a, b);
+        for r in &a.survey.readings {
+            if let Some(v) = r.versine {
+                let mm = v * 1e3;
+                assert!((mm - mm.round()).abs() < 1e-9, "not rounded: {mm}");
+            }
+        }
+        s.seed = 8;
+        let c = simulate(&simple_curve(), &s).unwrap();
+        assert_ne!(a.survey, c.survey);
+    }
+
+    #[test]
+    fn irregularity_has_the_stated_rms() {
+        let irr = Irregularity::new(1.5e-3, 3);
+        let n = 200_000;
+        let ms: f64 = (0..n).map(|i| irr.at(i as f64 * 0.1).powi(2)).sum::<f64>() / n as f64;
+        assert!((ms.sqrt() - 1.5e-3).abs() < 0.25e-3, "rms {}", ms.sqrt());
+    }
+
+    #[test]
+    fn bad_setups_are_refused() {
+        let mut s = SimSetup::classic(20.0, Rail::Left);
+        s.spacing = 3.0;
+        assert!(matches!(
+            simulate(&simple_curve(), &s),
+            Err(SimulateError::SpacingDoesNotFit { .. })
+        ));
+        let short = Alignment::new(Pose::default(), 0.0, vec![Element::straight(5.0)]);
+        assert!(matches!(
+            simulate(&short, &SimSetup::classic(20.0, Rail::Left)),
+            Err(SimulateError::TooShort { .. })
+        ));
+        let mut s = SimSetup::classic(20.0, Rail::Left);
+        s.noise_sd = f64::NAN;
+        assert!(simulate(&simple_curve(), &s).is_err());
+    }
+
+    #[test]
+    fn design_json_builds_transitions_from_neighbours() {
+        let text = r#"{"chord_m": 20, "rail": "right", "elements": [
+            {"kind": "straight", "length": 100},
+            {"kind": "transition", "length": 60},
+            {"kind": "arc", "length": 100, "radius": -450},
+            {"kind": "transition", "length": 40, "r_end": 900}
+        ]}"#;
+        let d = Design::from_json("d.json", text).unwrap();
+        assert_eq!(d.setup.rail, Rail::Right);
+        assert_relative_eq!(d.elements[1].k_end, -1.0 / 450.0);
+        assert_relative_eq!(d.elements[3].k_start, -1.0 / 450.0);
+        assert_relative_eq!(d.elements[3].k_end, 1.0 / 900.0);
+        let e = Design::from_json(
+            "d.json",
+            "{\"elements\": [{\"kind\": \"arc\", \"length\": 5}]}",
+        )
+        .unwrap_err();
+        assert!(e.to_string().contains("element 1"), "{e}");
+        let e = Design::from_json("d.json", "{\n \"elements\": [,]}").unwrap_err();
+        assert!(e.to_string().starts_with("d.json: line 2"), "{e}");
+    }
+
+    #[test]
+    fn decimals_cover_common_resolutions() {
+        assert_eq!(decimals_for(1.0), 0);
+        assert_eq!(decimals_for(0.5), 1);
+        assert_eq!(decimals_for(0.125), 3);
+        assert_eq!(decimals_for(0.1), 1);
+    }
+}

@@ -169,9 +169,7 @@ impl FromStr for Length {
     fn from_str(s: &str) -> Result<Self, Self::Err> {
         let t = s.trim();
         // The unit is the trailing run of letters.
-        let split = t
-            .trim_end_matches(|c: char| c.is_ascii_alphabetic())
-            .len();
+        let split = t.trim_end_matches(|c: char| c.is_ascii_alphabetic()).len();
         if split == t.len() {
             return Err(LengthParseError::NoUnit(s.to_string()));
         }

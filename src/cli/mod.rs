@@ -1,13 +1,16 @@
 //! Command-line interface: argument parsing, terminal output and exit codes.
 //! Only this module (and `main.rs`) knows about clap, stderr and exit codes.
 
+mod simulate;
+mod util;
+
 use clap::{Parser, Subcommand};
 use std::process::ExitCode;
 
 /// Turn railway versine surveys into the as-built horizontal alignment.
 #[derive(Debug, Parser)]
 #[command(name = "chordline", version, about, long_about = None,
-    after_help = "Exit status: 0 success, 1 input or usage error (the message says what to fix), 2 internal error.")]
+    after_help = "Exit status: 0 success; 1 input or usage error (the message names the file, line and column and says what to fix); 2 internal error (please report it).")]
 pub struct Cli {
     #[command(subcommand)]
     command: Command,
@@ -15,8 +18,23 @@ pub struct Cli {
 
 #[derive(Debug, Subcommand)]
 enum Command {
-    /// Reconstruct the alignment from a versine survey file.
-    Run,
+    /// Write the survey a chord would measure on a known design (exact geometry, optional noise).
+    Simulate(simulate::SimulateArgs),
+}
+
+/// Outcome of a command that failed, with the exit code it maps to.
+#[derive(Debug)]
+pub enum Failure {
+    /// Bad input or usage: exit 1.
+    Input(anyhow::Error),
+    /// A bug or an environment failure: exit 2.
+    Internal(anyhow::Error),
+}
+
+impl<E: Into<anyhow::Error>> From<E> for Failure {
+    fn from(e: E) -> Self {
+        Failure::Input(e.into())
+    }
 }
 
 /// Parse the command line, run, and map the outcome to an exit code.
@@ -32,7 +50,31 @@ pub fn main() -> ExitCode {
             };
         }
     };
-    match cli.command {
-        Command::Run => ExitCode::SUCCESS,
+    let result = match cli.command {
+        Command::Simulate(a) => simulate::run(a),
+    };
+    match result {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(Failure::Input(e)) => {
+            eprintln!("error: {e:#}");
+            ExitCode::from(1)
+        }
+        Err(Failure::Internal(e)) => {
+            eprintln!(
+                "internal error: {e:#}\nThis is a bug in chordline; please report it with the input that caused it."
+            );
+            ExitCode::from(2)
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use clap::CommandFactory;
+
+    #[test]
+    fn command_line_definition_is_consistent() {
+        Cli::command().debug_assert();
     }
 }

@@ -135,7 +135,10 @@ pub struct Pose {
 impl Pose {
     /// The point `d` metres to the left of this pose (negative `d`: to the right).
     pub fn offset_left(&self, d: f64) -> (f64, f64) {
-        (self.x - d * self.heading.sin(), self.y + d * self.heading.cos())
+        (
+            self.x - d * self.heading.sin(),
+            self.y + d * self.heading.cos(),
+        )
     }
 }
 
@@ -294,11 +297,7 @@ mod tests {
     #[test]
     fn arc_closes_a_full_circle() {
         let r = 300.0;
-        let a = Alignment::new(
-            Pose::default(),
-            0.0,
-            vec![Element::arc(TAU * r, r)],
-        );
+        let a = Alignment::new(Pose::default(), 0.0, vec![Element::arc(TAU * r, r)]);
         let p = a.pose_at(TAU * r);
         assert!(p.x.abs() < 1e-9 && p.y.abs() < 1e-9, "{p:?}");
         let q = a.pose_at(0.5 * TAU * r);

@@ -1,0 +1,104 @@
+//! Cross-check of `chordline simulate` against the team's independent
+//! reference generator (`../shared/tools/reference-survey`, Python + numpy),
+//! which states the trade's measuring conventions in code: marks taped along
+//! the rail, versine = perpendicular distance from the mark to the wire.
+//!
+//! Skips (passing, with a message) when ../shared, python3 or numpy is absent.
+
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+fn reference_tool() -> Option<PathBuf> {
+    let tool = Path::new(env!("CARGO_MANIFEST_DIR")).join("../shared/tools/reference-survey");
+    if !tool.exists() {
+        eprintln!(
+            "skipped: {} is absent (a user's clone has no ../shared)",
+            tool.display()
+        );
+        return None;
+    }
+    let ok = Command::new("python3")
+        .args(["-c", "import numpy"])
+        .status()
+        .map(|s| s.success())
+        .unwrap_or(false);
+    if !ok {
+        eprintln!("skipped: python3 with numpy is not available to run the reference generator");
+        return None;
+    }
+    Some(tool)
+}
+
+fn read_pairs(path: &Path) -> Vec<(f64, f64)> {
+    std::fs::read_to_string(path)
+        .unwrap()
+        .lines()
+        .filter(|l| !l.starts_with('#') && !l.starts_with("chainage"))
+        .filter_map(|l| {
+            let mut it = l.split(',');
+            let c = it.next()?.parse().ok()?;
+            let v = it.next()?.parse().ok()?;
+            Some((c, v))
+        })
+        .collect()
+}
+
+fn compare(design: &str, tol: f64) {
+    let Some(tool) = reference_tool() else { return };
+    let dir = tempfile::tempdir().unwrap();
+    let design = Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/designs")
+        .join(design);
+    let theirs = dir.path().join("reference.csv");
+    let ours = dir.path().join("ours.csv");
+    let st = Command::new("python3")
+        .arg(&tool)
+        .arg(&design)
+        .arg(&theirs)
+        .status()
+        .unwrap();
+    assert!(st.success(), "reference generator failed");
+    let st = Command::new(env!("CARGO_BIN_EXE_chordline"))
+        .arg("simulate")
+        .arg(&design)
+        .arg("--out")
+        .arg(&ours)
+        .status()
+        .unwrap();
+    assert!(st.success(), "chordline simulate failed");
+    let (a, b) = (read_pairs(&theirs), read_pairs(&ours));
+    assert!(a.len() > 20, "reference wrote only {} readings", a.len());
+    // Both write only the readings that have a full chord on the design.
+    assert_eq!(a.len(), b.len(), "number of readings differs");
+    let mut worst: f64 = 0.0;
+    for (x, y) in a.iter().zip(&b) {
+        assert!((x.0 - y.0).abs() < 1e-3, "chainage {} vs {}", x.0, y.0);
+        worst = worst.max((x.1 - y.1).abs());
+    }
+    assert!(
+        worst <= tol,
+        "worst versine difference {worst} exceeds {tol}"
+    );
+    eprintln!(
+        "{}: {} readings, worst difference {worst:.2e}",
+        design.display(),
+        a.len()
+    );
+}
+
+#[test]
+fn simple_curve_on_the_outer_rail_matches_reference() {
+    // Both print 0.0001 mm; allow one unit of the last place.
+    compare("simple_curve.json", 1.5e-4);
+}
+
+#[test]
+fn tight_reverse_curve_read_every_quarter_chord_matches_reference() {
+    compare("reverse_tight.json", 1.5e-4);
+}
+
+#[test]
+fn imperial_compound_curve_matches_reference() {
+    // Inches to 6 (reference) and 5 (ours) decimals.
+    compare("imperial_compound.json", 1.5e-5);
+}
