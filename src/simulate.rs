@@ -717,7 +717,8 @@ impl Design {
 }
 
 /// Write a survey in the project's survey-file format (see the README):
-/// a comment header, then `chainage_<unit>,versine_<unit>`; gaps are empty cells.
+/// a comment header, then `chainage_<unit>,versine_<unit>`; gaps are empty cells;
+/// marks at either end without a full chord are left out.
 /// Versines are written with enough decimals for `resolution` (metres; 0 means
 /// exact, written to 0.0001 mm or 0.00001 in).
 ///
@@ -746,11 +747,18 @@ pub fn write_survey_csv(
             VersineUnit::Metre | VersineUnit::Foot => 7,
         }
     };
-    for r in &survey.readings {
+    // Marks at either end without a full chord are not written (a surveyor
+    // starts at the first mark that has one); gaps inside are empty cells.
+    let first = survey.readings.iter().position(|r| r.versine.is_some());
+    let last = survey.readings.iter().rposition(|r| r.versine.is_some());
+    let (Some(first), Some(last)) = (first, last) else {
+        return Ok(());
+    };
+    for r in &survey.readings[first..=last] {
         let c = cu.from_m(r.chainage);
         match r.versine {
-            Some(v) => writeln!(w, "{c:.4},{:.*}", vdec, vu.from_m(v))?,
-            None => writeln!(w, "{c:.4},")?,
+            Some(v) => writeln!(w, "{c:.3},{:.*}", vdec, vu.from_m(v))?,
+            None => writeln!(w, "{c:.3},")?,
         }
     }
     Ok(())
