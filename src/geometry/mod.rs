@@ -172,6 +172,8 @@ pub struct Alignment {
     starts: Vec<f64>,
     /// Pose at the start of each element.
     poses: Vec<Pose>,
+    /// Heading change from the start to the start of each element.
+    turns: Vec<f64>,
 }
 
 impl Alignment {
@@ -180,12 +182,15 @@ impl Alignment {
     pub fn new(start: Pose, start_chainage: f64, elements: Vec<Element>) -> Self {
         let mut starts = Vec::with_capacity(elements.len());
         let mut poses = Vec::with_capacity(elements.len());
-        let (mut s, mut p) = (0.0, start);
+        let mut turns = Vec::with_capacity(elements.len());
+        let (mut s, mut p, mut t) = (0.0, start, 0.0);
         for e in &elements {
             starts.push(s);
             poses.push(p);
+            turns.push(t);
             p = e.advance(p, e.length);
             s += e.length;
+            t += e.turn();
         }
         Alignment {
             start,
@@ -193,6 +198,7 @@ impl Alignment {
             elements,
             starts,
             poses,
+            turns,
         }
     }
     /// The elements in order.
@@ -255,21 +261,15 @@ impl Alignment {
     /// Length along a line offset `d` metres to the left of the centreline,
     /// from the start to centreline distance `s` (`∫(1 − k d) ds`, exact).
     pub fn offset_length(&self, s: f64, d: f64) -> f64 {
-        let mut acc = 0.0;
-        for (e, &s0) in self.elements.iter().zip(&self.starts) {
-            let u = (s - s0).clamp(0.0, e.length);
-            acc += (1.0 - e.k_start * d) * u - 0.5 * e.curvature_rate() * d * u * u;
-            if s < s0 + e.length {
-                break;
-            }
+        // ∫(1 − k d) ds = s − d·(heading change from the start to s).
+        if s <= 0.0 || self.elements.is_empty() {
+            return s;
         }
-        if s > self.length() {
-            acc += s - self.length();
-        }
-        if s < 0.0 {
-            acc = s;
-        }
-        acc
+        let i = self.locate(s);
+        let e = &self.elements[i];
+        let u = (s - self.starts[i]).min(e.length);
+        let turn = self.turns[i] + e.k_start * u + 0.5 * e.curvature_rate() * u * u;
+        s - d * turn
     }
     /// Centreline distance `s` at which the line offset `d` to the left has
     /// run `r` metres from the start (inverse of [`Alignment::offset_length`],
