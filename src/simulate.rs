@@ -450,6 +450,73 @@ impl Irregularity {
     }
 }
 
+/// A synthetic route of about `length` metres for benchmarks and studies:
+/// straights of 150–800 m alternating with curves (clothoid, arc, clothoid)
+/// of random hand, radius 350–5000 m, transitions 30–150 m and arcs 60–600 m,
+/// from a seeded generator (the same `seed` always gives the same route).
+pub fn synthetic_route(length: f64, seed: u64) -> Vec<Element> {
+    let mut rng = ChaCha8Rng::seed_from_u64(seed);
+    let mut out = Vec::new();
+    let mut total = 0.0;
+    while total < length {
+        let st = rng.random_range(150.0..800.0);
+        out.push(Element::straight(st));
+        total += st;
+        if total >= length {
+            break;
+        }
+        let r: f64 = (rng.random_range(350f64.ln()..5000f64.ln())).exp();
+        let k = if rng.random_bool(0.5) {
+            1.0 / r
+        } else {
+            -1.0 / r
+        };
+        let l1 = rng.random_range(30.0..150.0);
+        let l2 = rng.random_range(30.0..150.0);
+        let la = rng.random_range(60.0..600.0);
+        out.push(Element::transition(l1, 0.0, k));
+        out.push(Element::arc(la, 1.0 / k));
+        out.push(Element::transition(l2, k, 0.0));
+        total += l1 + la + l2;
+    }
+    out.push(Element::straight(200.0));
+    out
+}
+
+/// The design as JSON text in the format [`Design::from_json`] reads
+/// (elements only; the set-up is left to the command line).
+pub fn design_json(elements: &[Element]) -> String {
+    let items: Vec<String> = elements
+        .iter()
+        .map(|e| match e.kind {
+            crate::geometry::ElementKind::Straight => {
+                format!("{{\"kind\": \"straight\", \"length\": {}}}", e.length)
+            }
+            crate::geometry::ElementKind::Arc => format!(
+                "{{\"kind\": \"arc\", \"length\": {}, \"radius\": {}}}",
+                e.length,
+                1.0 / e.k_start
+            ),
+            crate::geometry::ElementKind::Transition => {
+                let r = |k: f64| {
+                    if k == 0.0 {
+                        "null".to_string()
+                    } else {
+                        format!("{}", 1.0 / k)
+                    }
+                };
+                format!(
+                    "{{\"kind\": \"transition\", \"length\": {}, \"r_start\": {}, \"r_end\": {}}}",
+                    e.length,
+                    r(e.k_start),
+                    r(e.k_end)
+                )
+            }
+        })
+        .collect();
+    format!("{{\"elements\": [\n  {}\n]}}\n", items.join(",\n  "))
+}
+
 /// Why a design file could not be read.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum DesignError {
@@ -936,6 +1003,19 @@ mod tests {
         assert!(e.to_string().contains("element 1"), "{e}");
         let e = Design::from_json("d.json", "{\n \"elements\": [,]}").unwrap_err();
         assert!(e.to_string().starts_with("d.json: line 2"), "{e}");
+    }
+
+    #[test]
+    fn synthetic_route_round_trips_through_json() {
+        let els = synthetic_route(20_000.0, 5);
+        assert!(els.iter().map(|e| e.length).sum::<f64>() >= 20_000.0);
+        let d = Design::from_json("route", &design_json(&els)).unwrap();
+        assert_eq!(d.elements.len(), els.len());
+        for (a, b) in d.elements.iter().zip(&els) {
+            assert_eq!(a.kind, b.kind);
+            assert_relative_eq!(a.k_end, b.k_end, epsilon = 1e-15);
+        }
+        assert_eq!(synthetic_route(5000.0, 9), synthetic_route(5000.0, 9));
     }
 
     #[test]
