@@ -232,6 +232,8 @@ pub fn simulate(design: &Alignment, setup: &SimSetup) -> Result<Simulated, Simul
     };
 
     let mut truth = Vec::with_capacity(n);
+    // Wire ends relative to the mark, carried from mark to mark as a start.
+    let mut wire_hint = (-0.5 * setup.chord, 0.5 * setup.chord);
     let pts: Vec<(f64, f64, f64, Pose)> = (0..n)
         .map(|j| rail_point(j as f64 * setup.spacing))
         .collect();
@@ -247,7 +249,7 @@ pub fn simulate(design: &Alignment, setup: &SimSetup) -> Result<Simulated, Simul
                 if r - 0.5 * setup.chord < -1e-9 || r + 0.5 * setup.chord > rail_len + 1e-9 {
                     None
                 } else {
-                    wire_versine(&rail_point, r, (x, y), setup, rail_len)?
+                    wire_versine(&rail_point, r, (x, y), setup, rail_len, &mut wire_hint)?
                 }
             }
         };
@@ -362,6 +364,7 @@ fn wire_versine(
     p: (f64, f64),
     setup: &SimSetup,
     rail_len: f64,
+    hint: &mut (f64, f64),
 ) -> Result<Option<f64>, SimulateError> {
     let c = setup.chord;
     let fail = || SimulateError::WireDoesNotFit {
@@ -378,7 +381,7 @@ fn wire_versine(
         let along = ((p.0 - mx) * (bx - ax) + (p.1 - my) * (by - ay)) / len;
         (len - c, along, (ax, ay), (bx, by))
     };
-    let (mut ra, mut rb) = (r - 0.5 * c, r + 0.5 * c);
+    let (mut ra, mut rb) = (r + hint.0, r + hint.1);
     for _ in 0..60 {
         let (f1, f2, ..) = f(ra, rb);
         if f1.abs() < 1e-13 && f2.abs() < 1e-13 {
@@ -393,8 +396,12 @@ fn wire_versine(
         if !det.is_finite() || det.abs() < 1e-300 {
             return Err(fail());
         }
-        ra -= (f1 * j22 - f2 * j12) / det;
-        rb -= (j11 * f2 - j21 * f1) / det;
+        let (da, db) = ((f1 * j22 - f2 * j12) / det, (j11 * f2 - j21 * f1) / det);
+        ra -= da;
+        rb -= db;
+        if da.abs() + db.abs() < 1e-11 {
+            break;
+        }
         if !(ra.is_finite() && rb.is_finite()) || rb <= ra {
             return Err(fail());
         }
@@ -403,6 +410,7 @@ fn wire_versine(
     if f1.abs() > 1e-9 || f2.abs() > 1e-9 {
         return Err(fail());
     }
+    *hint = (ra - r, rb - r);
     if ra < -1e-9 || rb > rail_len + 1e-9 {
         return Ok(None);
     }
