@@ -1,0 +1,411 @@
+//! Checks on the whole survey once it is read: spacing against the chord,
+//! the size of the versines against their unit, isolated outliers.
+
+use super::error::{ColumnRef, SurveyError, SurveyErrorKind};
+use super::header::Columns;
+use super::{fmt_num, versine_word};
+use crate::diag::{Diagnostic, Location};
+use crate::survey::{Marking, Reading};
+use crate::units::VersineUnit;
+
+/// Smallest curve radius that any railway has, metres. Tramways go down to
+/// about 15–20 m and main lines rarely below 150 m (common practice, from
+/// memory); a versine implying less than this is not a railway reading.
+pub(crate) const MIN_RADIUS: f64 = 15.0;
+
+/// A step within this fraction of the spacing counts as regular (rounding of
+/// the chainages written).
+const REGULAR_TOL: f64 = 0.01;
+/// A step within this fraction of a whole number of spacings is accepted
+/// (with a warning if not regular); beyond it the chord pattern is broken.
+const PATTERN_TOL: f64 = 0.25;
+/// The median spacing may differ from half the chord over a whole number by
+/// this fraction before the spacing is said not to fit the chord.
+const FIT_TOL: f64 = 0.02;
+/// Mean spacing off the nominal by more than this fraction gets a warning.
+const SCALE_TOL: f64 = 0.002;
+/// An outlier is a second difference beyond this many robust sigmas.
+const OUTLIER_SIGMAS: f64 = 6.0;
+/// Floor of the robust sigma of second differences, metres, so that exact
+/// (noise-free) surveys do not flag rounding as outliers.
+const SIGMA_FLOOR: f64 = 1e-4;
+/// At most this many warnings of one kind are listed line by line.
+const MAX_LISTED: usize = 20;
+
+pub(crate) struct Context<'a> {
+    pub file: &'a str,
+    pub cols: &'a Columns,
+    pub chord: f64,
+    pub marking: Marking,
+}
+
+impl Context<'_> {
+    fn loc(&self, line: usize, field: Option<usize>) -> Location {
+        Location {
+            file: self.file.to_string(),
+            line,
+            column: field.map(|i| self.cols.name(i).to_string()),
+        }
+    }
+    /// A length in the file's chainage unit, with the unit.
+    fn len(&self, metres: f64) -> String {
+        let u = self.cols.chainage_unit;
+        format!("{} {}", fmt_num(u.from_m(metres)), u.suffix())
+    }
+    /// A chainage as a number in the file's unit (no unit).
+    fn ch(&self, metres: f64) -> String {
+        fmt_num(self.cols.chainage_unit.from_m(metres))
+    }
+    fn chord_text(&self) -> String {
+        self.len(self.chord)
+    }
+}
+
+fn median(v: &mut [f64]) -> f64 {
+    if v.is_empty() {
+        return 0.0;
+    }
+    let mid = v.len() / 2;
+    let (_, m, _) = v.select_nth_unstable_by(mid, f64::total_cmp);
+    *m
+}
+
+/// Check the spacing of the chainages against the chord. Returns, for each
+/// reading, whether the step from the previous one is one regular spacing
+/// (within the pattern tolerance); `false` for the first reading.
+pub(crate) fn spacing(
+    ctx: &Context<'_>,
+    r: &[Reading],
+    diags: &mut Vec<Diagnostic>,
+) -> Result<Vec<bool>, SurveyError> {
+    let mut steps: Vec<f64> = r
+        .windows(2)
+        .map(|w| w[1].chainage - w[0].chainage)
+        .collect();
+    let s_med = median(&mut steps);
+    let half = 0.5 * ctx.chord;
+    let ratio = half / s_med;
+    let m = ratio.round().max(1.0);
+    let s_nom = half / m;
+    let misfit = |what: String| {
+        let todo = format!(
+            "readings must be every half chord or a whole fraction of it ({}, {}, {}, ...); check --chord (a chord of {} fits this spacing)",
+            ctx.len(half),
+            ctx.len(half / 2.0),
+            ctx.len(half / 4.0),
+            ctx.len(2.0 * s_med)
+        );
+        SurveyError::file(ctx.file, SurveyErrorKind::SpacingMisfit { what, todo })
+    };
+    if ratio < 1.0 - FIT_TOL {
+        return Err(misfit(format!(
+            "the readings are {} apart, more than half the {} chord",
+            ctx.len(s_med),
+            ctx.chord_text()
+        )));
+    }
+    if (s_med - s_nom).abs() > FIT_TOL * s_nom {
+        return Err(misfit(format!(
+            "the readings are {} apart, and half the {} chord is not a whole number of such spacings ({} of them)",
+            ctx.len(s_med),
+            ctx.chord_text(),
+            fmt_num((ratio * 100.0).round() / 100.0)
+        )));
+    }
+
+    let mut regular = vec![false; r.len()];
+    let mut irregular = 0usize;
+    let mut worst: Option<(f64, usize, f64)> = None; // (deviation, index, step)
+    let mut gaps = 0usize;
+    let mut sum_regular = 0.0;
+    let mut n_regular = 0usize;
+    let ch_col = Some(ctx.cols.chainage);
+    for i in 1..r.len() {
+        let d = r[i].chainage - r[i - 1].chainage;
+        let x = d / s_nom;
+        let k = x.round();
+        let dev = (x - k).abs();
+        if k >= 1.0 && dev <= PATTERN_TOL {
+            if k == 1.0 {
+                regular[i] = true;
+                sum_regular += d;
+                n_regular += 1;
+            } else {
+                gaps += 1;
+                if gaps <= MAX_LISTED {
+                    diags.push(
+                        Diagnostic::warning(format!(
+                            "gap: no readings between chainage {} (line {}) and {}, {} station(s) missing",
+                            ctx.ch(r[i - 1].chainage),
+                            r[i - 1].line,
+                            ctx.ch(r[i].chainage),
+                            k as u64 - 1
+                        ))
+                        .at(ctx.loc(r[i].line, ch_col))
+                        .hint("the alignment is bridged across the gap, less certainly; check that no lines were lost"),
+                    );
+                }
+            }
+            if dev > REGULAR_TOL {
+                irregular += 1;
+                if worst.is_none_or(|(w, _, _)| dev > w) {
+                    worst = Some((dev, i, d));
+                }
+            }
+        } else {
+            let todo = match ctx.marking {
+                Marking::Taped => "check the chainages around it (a typing error or a mis-taped mark?); if the survey restarts on a new pattern, split the file there".to_string(),
+                Marking::Wire => "check the chainages around it; if the recording restarts on a new pattern, split the file there".to_string(),
+            };
+            return Err(SurveyError::cell(
+                ctx.file,
+                r[i].line,
+                ctx.cols.name(ctx.cols.chainage),
+                ctx.cols.chainage + 1,
+                SurveyErrorKind::SpacingBreak {
+                    from: ctx.ch(r[i - 1].chainage),
+                    from_line: r[i - 1].line,
+                    to: ctx.ch(r[i].chainage),
+                    steps: fmt_num((x * 100.0).round() / 100.0),
+                    spacing: ctx.len(s_nom),
+                    todo,
+                },
+            ));
+        }
+    }
+    if gaps > MAX_LISTED {
+        diags.push(Diagnostic::warning(format!(
+            "{} more gaps in the chainages are not listed",
+            gaps - MAX_LISTED
+        )));
+    }
+    if let Some((dev, i, d)) = worst {
+        diags.push(
+            Diagnostic::warning(format!(
+                "the spacing is irregular at {irregular} place(s), by up to {}% of the {} spacing ({} from line {} to line {})",
+                fmt_num((dev * 1000.0).round() / 10.0),
+                ctx.len(s_nom),
+                ctx.len(d),
+                r[i - 1].line,
+                r[i].line
+            ))
+            .at(ctx.loc(r[i].line, ch_col))
+            .hint(format!(
+                "within the {}% tolerance, so the readings are used as if on the regular pattern; check the chainages",
+                fmt_num(PATTERN_TOL * 100.0)
+            )),
+        );
+    }
+    if n_regular > 0 {
+        let mean = sum_regular / n_regular as f64;
+        if (mean - s_nom).abs() > SCALE_TOL * s_nom {
+            diags.push(
+                Diagnostic::warning(format!(
+                    "the readings are on average {} apart rather than {} (the {} chord over {}): the chainages run {}% {}",
+                    ctx.len(mean),
+                    ctx.len(s_nom),
+                    ctx.chord_text(),
+                    fmt_num(2.0 * m),
+                    fmt_num(((mean / s_nom - 1.0).abs() * 1000.0).round() / 10.0),
+                    if mean > s_nom { "long" } else { "short" }
+                ))
+                .hint("check the chord length and how the chainages were measured (tape or odometer scale)"),
+            );
+        }
+    }
+    Ok(regular)
+}
+
+/// Curve radius implied by a versine `v` (metres) on a chord `c`:
+/// `R ≈ c²/8v` (METHODS §1, small-angle form).
+fn implied_radius(c: f64, v: f64) -> f64 {
+    c * c / (8.0 * v.abs())
+}
+
+/// Check the size of the versines against their unit and the chord.
+pub(crate) fn units(
+    ctx: &Context<'_>,
+    r: &[Reading],
+    fine_decimals: usize,
+    nonzero: usize,
+    diags: &mut Vec<Diagnostic>,
+) -> Result<(), SurveyError> {
+    let u = ctx.cols.versine_unit;
+    let col = ctx.cols.versine;
+    let col_name = ctx.cols.name(col).to_string();
+    let mut abs: Vec<f64> = r.iter().filter_map(|x| x.versine).map(f64::abs).collect();
+    if abs.is_empty() {
+        return Ok(());
+    }
+    let k = ((abs.len() - 1) as f64 * 0.9).round() as usize;
+    let (_, p90, _) = abs.select_nth_unstable_by(k, f64::total_cmp);
+    let p90 = *p90;
+    let c = ctx.chord;
+    let in_file = |v: f64| format!("{} {}", fmt_num(u.from_m(v)), u.suffix());
+
+    // The column as a whole: a tenth of the readings or more are too large.
+    if p90 > 0.0 && implied_radius(c, p90) < MIN_RADIUS {
+        let alternatives: &[VersineUnit] = match u {
+            VersineUnit::Metre => &[VersineUnit::Millimetre],
+            VersineUnit::Foot => &[VersineUnit::Inch, VersineUnit::Millimetre],
+            VersineUnit::Inch => &[VersineUnit::Millimetre],
+            VersineUnit::Millimetre => &[],
+        };
+        let alt = alternatives.iter().find_map(|&a| {
+            let v = u.from_m(p90) * a.metres();
+            let radius = implied_radius(c, v);
+            (radius >= MIN_RADIUS).then_some((a, radius))
+        });
+        let what = format!(
+            "a tenth of the versines are {} or more, which on a {} chord would mean curves of radius {} m or less; no railway has such curves",
+            in_file(p90),
+            ctx.chord_text(),
+            fmt_num(implied_radius(c, p90).round().max(0.0))
+        );
+        let todo = match alt {
+            Some((a, radius)) => format!(
+                "the values look like {} (radius about {} m): rename the column versine_{}",
+                versine_word(a),
+                fmt_num(radius.round()),
+                a.suffix()
+            ),
+            None => "check the unit in the column name and the chord length (--chord)".to_string(),
+        };
+        return Err(SurveyError {
+            file: ctx.file.to_string(),
+            line: None,
+            column: Some(ColumnRef {
+                name: col_name,
+                field: col + 1,
+            }),
+            kind: SurveyErrorKind::UnitImplausible { what, todo },
+        });
+    }
+    // Single readings too large for any railway.
+    for x in r {
+        if let Some(v) = x.versine
+            && v != 0.0
+            && implied_radius(c, v) < MIN_RADIUS
+        {
+            return Err(SurveyError::cell(
+                ctx.file,
+                x.line,
+                &col_name,
+                col + 1,
+                SurveyErrorKind::VersineImpossible {
+                    what: format!(
+                        "the versine {} would mean a curve of radius {} m on a {} chord, which no railway has",
+                        in_file(v),
+                        fmt_num((implied_radius(c, v) * 10.0).round() / 10.0),
+                        ctx.chord_text()
+                    ),
+                    todo: "check the value for a typing error, or leave the cell empty for a missing reading".to_string(),
+                },
+            ));
+        }
+    }
+    // Millimetre column holding metres: every value under 1 mm, written to
+    // three or more decimals, finer than any tape or gauge reads.
+    let max = abs.iter().copied().fold(0.0, f64::max);
+    if u == VersineUnit::Millimetre
+        && nonzero >= 5
+        && max < 1e-3
+        && fine_decimals as f64 >= 0.8 * nonzero as f64
+    {
+        let as_metres = max * 1000.0;
+        diags.push(
+            Diagnostic::warning(format!(
+                "every versine in {col_name} is under 1 mm and most are written to {} or more decimals, finer than a tape or gauge reads: these look like metres (as metres the largest, {} m, means a radius of {} m on the {} chord)",
+                super::FINE_DECIMALS,
+                fmt_num(as_metres),
+                fmt_num(implied_radius(c, as_metres).round()),
+                ctx.chord_text()
+            ))
+            .at(Location {
+                file: ctx.file.to_string(),
+                line: r[0].line,
+                column: Some(col_name.clone()),
+            })
+            .hint("if the values are metres, rename the column versine_m; if they are millimetres on straight track, ignore this"),
+        );
+    }
+    Ok(())
+}
+
+/// Warn about isolated outliers: a reading whose second difference is beyond
+/// [`OUTLIER_SIGMAS`] robust sigmas with the spike signature (neighbours'
+/// second differences of the opposite sign, about half as large).
+pub(crate) fn outliers(
+    ctx: &Context<'_>,
+    r: &[Reading],
+    regular: &[bool],
+    diags: &mut Vec<Diagnostic>,
+) {
+    let n = r.len();
+    // Second differences where both steps are regular and all three present.
+    let mut d2 = vec![f64::NAN; n];
+    for i in 1..n.saturating_sub(1) {
+        if regular[i]
+            && regular[i + 1]
+            && let (Some(a), Some(b), Some(c)) = (r[i - 1].versine, r[i].versine, r[i + 1].versine)
+        {
+            d2[i] = a - 2.0 * b + c;
+        }
+    }
+    let mut vals: Vec<f64> = d2.iter().copied().filter(|x| x.is_finite()).collect();
+    if vals.len() < 5 {
+        return;
+    }
+    let med = median(&mut vals);
+    for v in vals.iter_mut() {
+        *v = (*v - med).abs();
+    }
+    let sigma = (1.4826 * median(&mut vals)).max(SIGMA_FLOOR);
+    let limit = OUTLIER_SIGMAS * sigma;
+    let u = ctx.cols.versine_unit;
+    let mut found = 0usize;
+    for i in 2..n.saturating_sub(2) {
+        let (l, c, rr) = (d2[i - 1], d2[i], d2[i + 1]);
+        if !(l.is_finite() && c.is_finite() && rr.is_finite()) {
+            continue;
+        }
+        let c0 = c - med;
+        if c0.abs() <= limit {
+            continue;
+        }
+        let spike = (l - med) * c0 < 0.0
+            && (rr - med) * c0 < 0.0
+            && [(l - med).abs(), (rr - med).abs()]
+                .iter()
+                .all(|x| *x >= 0.25 * c0.abs() && *x <= 0.75 * c0.abs());
+        if !spike {
+            continue;
+        }
+        found += 1;
+        if found > MAX_LISTED {
+            continue;
+        }
+        let (Some(a), Some(v), Some(b)) = (r[i - 1].versine, r[i].versine, r[i + 1].versine) else {
+            continue;
+        };
+        let expected = 0.5 * (a + b);
+        diags.push(
+            Diagnostic::warning(format!(
+                "the versine {} {} is far from what its neighbours imply (about {} {}): an outlier of {} robust sigmas",
+                fmt_num(u.from_m(v)),
+                u.suffix(),
+                fmt_num((u.from_m(expected) * 10.0).round() / 10.0),
+                u.suffix(),
+                fmt_num((c0.abs() / sigma).round())
+            ))
+            .at(ctx.loc(r[i].line, Some(ctx.cols.versine)))
+            .hint("check it for a reading or typing error; if it is wrong, correct it or leave the cell empty"),
+        );
+    }
+    if found > MAX_LISTED {
+        diags.push(Diagnostic::warning(format!(
+            "{} more outliers are not listed",
+            found - MAX_LISTED
+        )));
+    }
+}

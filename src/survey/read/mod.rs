@@ -1,0 +1,665 @@
+//! Reading survey files: CSV of our own design, one reading per line.
+//!
+//! # The format
+//! ```text
+//! # Hand survey, Up line, 20 m chord, stations every 10 m on the left rail
+//! chainage_m,versine_mm,side,note
+//! 0,0.0,L,
+//! 10,1.5,L,tangent point?
+//! 20,,L,reading missed
+//! 30,12.5,L,
+//! ```
+//! - Fields are separated by commas, semicolons or tabs: the delimiter is
+//!   detected from the header line. In semicolon- or tab-separated files a
+//!   decimal comma is accepted (`12,5`), as spreadsheets in much of Europe
+//!   write it.
+//! - Lines starting with `#` are comments; blank lines are skipped; a
+//!   byte-order mark and CRLF line ends are accepted.
+//! - Units live in the column names: `chainage_m` or `chainage_ft`;
+//!   `versine_mm`, `versine_m`, `versine_in` or `versine_ft`
+//!   (`Chainage (m)` and `versine [mm]` are read too, case does not matter).
+//! - `side` (optional): `L`/`R` or `left`/`right`, the rail the reading was
+//!   taken on facing increasing chainage. Without it the rail comes from
+//!   [`ReadOptions::rail`] (`--rail`).
+//! - `note` (optional): free text. Other columns are ignored with a warning.
+//! - An empty versine cell is a missing reading (a gap), not a zero.
+//! - Versines are field versines: positive when the rail bows away from the
+//!   wire (the outer rail of a curve).
+//!
+//! # Checks
+//! Errors ([`SurveyError`]) stop the run and name the file, line and column,
+//! and say what to do. Warnings ([`Diagnostic`]) do not stop it: irregular
+//! spacing within tolerance, gaps, isolated outliers, unused columns,
+//! versines whose size suggests another unit.
+
+use std::borrow::Cow;
+use std::path::Path;
+
+use super::{Marking, Rail, Reading, Survey};
+use crate::diag::{Diagnostic, Location};
+use crate::units::{LengthUnit, VersineUnit};
+
+mod checks;
+mod error;
+mod header;
+mod text;
+
+pub use error::{ColumnRef, SurveyError, SurveyErrorKind};
+
+use header::Columns;
+use text::{LineKind, NumProblem};
+
+/// What the reader needs to know that the file does not say.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ReadOptions {
+    /// The rail measured (`--rail`), used when the file has no `side` column.
+    /// When it has one, a `--rail` that disagrees with it is an error.
+    pub rail: Option<Rail>,
+    /// Nominal chord length, metres: used to check the reading spacing and
+    /// the plausibility of the versines.
+    pub chord: f64,
+    /// How the stations were marked (changes the advice in some messages).
+    pub marking: Marking,
+}
+
+impl ReadOptions {
+    /// Options for a chord of `chord` metres, taped marks, rail from the file.
+    pub fn new(chord: f64) -> Self {
+        ReadOptions {
+            rail: None,
+            chord,
+            marking: Marking::Taped,
+        }
+    }
+}
+
+/// Read a survey file.
+///
+/// The path is used as written in messages. See the [module docs](self) for
+/// the format.
+///
+/// # Errors
+/// A [`SurveyError`] naming the file (and line and column where one applies)
+/// when the file cannot be read or does not make a usable survey.
+pub fn read_survey_file(
+    path: &Path,
+    opts: &ReadOptions,
+) -> Result<(Survey, Vec<Diagnostic>), SurveyError> {
+    let name = path.display().to_string();
+    let bytes = std::fs::read(path)
+        .map_err(|source| SurveyError::file(&name, SurveyErrorKind::Io { source }))?;
+    read_survey_bytes(&name, &bytes, opts)
+}
+
+/// Read a survey from bytes; `name` stands for the file in messages.
+///
+/// Never panics, whatever the bytes.
+///
+/// # Examples
+/// ```
+/// use chordline::survey::read::{read_survey_bytes, ReadOptions};
+/// use chordline::survey::Rail;
+/// let csv = b"chainage_m,versine_mm\n0,0\n10,2.5\n20,5\n30,\n40,10\n";
+/// let opts = ReadOptions { rail: Some(Rail::Left), ..ReadOptions::new(20.0) };
+/// let (survey, warnings) = read_survey_bytes("s.csv", csv, &opts).unwrap();
+/// assert_eq!(survey.readings.len(), 5);
+/// assert_eq!(survey.readings[1].versine, Some(0.0025)); // metres inside
+/// assert_eq!(survey.readings[3].versine, None); // an empty cell is a gap
+/// assert_eq!(survey.readings[4].line, 6);
+/// # let _ = warnings;
+///
+/// let err = read_survey_bytes("s.csv", b"chainage_m,versine_mm\n0,l2.5\n", &opts).unwrap_err();
+/// assert!(err.to_string().starts_with("s.csv:2, column versine_mm (field 2): 'l2.5' is not a number"));
+/// ```
+///
+/// # Errors
+/// See [`read_survey_file`].
+pub fn read_survey_bytes(
+    name: &str,
+    bytes: &[u8],
+    opts: &ReadOptions,
+) -> Result<(Survey, Vec<Diagnostic>), SurveyError> {
+    if !(opts.chord.is_finite() && opts.chord > 0.0) {
+        return Err(SurveyError::file(
+            name,
+            SurveyErrorKind::ChordNotPositive { chord: opts.chord },
+        ));
+    }
+    let text = text::decode(bytes).map_err(|(line, kind)| match line {
+        Some(l) => SurveyError::line(name, l, kind),
+        None => SurveyError::file(name, kind),
+    })?;
+    if text.trim().is_empty() {
+        return Err(SurveyError::file(name, SurveyErrorKind::Empty));
+    }
+    Reader::new(name, text, opts).run()
+}
+
+/// Digits after the decimal separator from which a millimetre reading is
+/// finer than a tape or gauge reads (common practice: hand readings are
+/// taken to 0.5 or 1 mm, recording vehicles report 0.1 mm or so).
+const FINE_DECIMALS: u32 = 3;
+
+struct Reader<'a> {
+    name: &'a str,
+    text: &'a str,
+    opts: &'a ReadOptions,
+    diags: Vec<Diagnostic>,
+}
+
+/// Running figures gathered while reading rows.
+#[derive(Default)]
+struct RowStats {
+    missing: usize,
+    first_missing_line: usize,
+    fine_decimals: usize,
+    nonzero: usize,
+}
+
+impl<'a> Reader<'a> {
+    fn new(name: &'a str, text: &'a str, opts: &'a ReadOptions) -> Self {
+        Reader {
+            name,
+            text,
+            opts,
+            diags: Vec::new(),
+        }
+    }
+
+    fn loc(&self, line: usize, column: Option<&str>) -> Location {
+        Location {
+            file: self.name.to_string(),
+            line,
+            column: column.map(str::to_string),
+        }
+    }
+
+    fn run(mut self) -> Result<(Survey, Vec<Diagnostic>), SurveyError> {
+        let name = self.name;
+        let total_lines = self.text.trim_end_matches('\n').matches('\n').count() + 1;
+        let ends_with_newline = self.text.ends_with('\n');
+        let mut lines = text::lines(self.text);
+
+        // Header: the first line that is neither blank nor a comment.
+        let mut header = None;
+        for (no, line) in lines.by_ref() {
+            match text::classify(line).map_err(|k| SurveyError::line(name, no, k))? {
+                LineKind::Content => {
+                    header = Some((no, line));
+                    break;
+                }
+                LineKind::Blank | LineKind::Comment => {}
+            }
+        }
+        let Some((header_line, header_text)) = header else {
+            return Err(SurveyError::file(name, SurveyErrorKind::NoHeader));
+        };
+        let delim = text::detect_delimiter(header_text);
+        let decimal_comma = delim != ',';
+        let mut cells: Vec<Cow<'_, str>> = Vec::new();
+        text::split_into(header_text, delim, &mut cells)
+            .map_err(|k| SurveyError::line(name, header_line, k))?;
+        let cols = header::parse_header(&cells).map_err(|(field, kind)| match field {
+            Some(i) => SurveyError::cell(name, header_line, &cells[i], i + 1, kind),
+            None => SurveyError::line(name, header_line, kind),
+        })?;
+        for &i in &cols.unknown {
+            let what = if cols.names[i].is_empty() {
+                format!(
+                    "field {} of the header has no name; its values are not used",
+                    i + 1
+                )
+            } else {
+                format!("column '{}' (field {}) is not used", cols.names[i], i + 1)
+            };
+            let d = Diagnostic::warning(what)
+                .at(self.loc(header_line, Some(&cols.names[i])))
+                .hint("the columns read are chainage_m|chainage_ft, versine_mm|versine_m|versine_in|versine_ft, side and note");
+            self.diags.push(d);
+        }
+        if cols.side.is_none() && self.opts.rail.is_none() {
+            return Err(SurveyError::file(name, SurveyErrorKind::NoRail));
+        }
+
+        let mut readings: Vec<Reading> = Vec::new();
+        let mut stats = RowStats::default();
+        // Previous reading: chainage text, line.
+        let mut prev: Option<(Cow<'_, str>, usize)> = None;
+        let mut prev_prev_chainage: Option<f64> = None;
+        let required_max = cols.chainage.max(cols.versine).max(cols.side.unwrap_or(0));
+        let ncols = cols.names.len();
+
+        for (no, line) in lines {
+            match text::classify(line).map_err(|k| SurveyError::line(name, no, k))? {
+                LineKind::Blank | LineKind::Comment => continue,
+                LineKind::Content => {}
+            }
+            text::split_into(line, delim, &mut cells)
+                .map_err(|k| SurveyError::line(name, no, k))?;
+            if cells.iter().all(|c| c.is_empty()) {
+                // Padding rows that spreadsheets write (",,,").
+                continue;
+            }
+            let is_last = no == total_lines;
+            if cells.len() < ncols && is_last && !ends_with_newline {
+                if cells.len() <= required_max {
+                    return Err(SurveyError::line(
+                        name,
+                        no,
+                        SurveyErrorKind::Truncated {
+                            found: cells.len(),
+                            expected: ncols,
+                        },
+                    ));
+                }
+                self.diags.push(
+                    Diagnostic::warning(format!(
+                        "the last line has {} of {} fields and the file ends in the middle of it: the file may have been cut off",
+                        cells.len(),
+                        ncols
+                    ))
+                    .at(self.loc(no, None))
+                    .hint("compare the end of the file with its source"),
+                );
+            }
+            if cells.len() <= required_max {
+                let missing = [
+                    (cols.chainage, "chainage"),
+                    (cols.versine, "versine"),
+                    (cols.side.unwrap_or(0), "side"),
+                ]
+                .into_iter()
+                .filter(|(i, _)| *i >= cells.len())
+                .min_by_key(|(i, _)| *i)
+                .map_or("versine", |(_, w)| w);
+                let other = [',', ';', '\t']
+                    .into_iter()
+                    .find(|&d| d != delim && line.contains(d));
+                let todo = match other {
+                    Some(d) => format!(
+                        "this line seems to separate fields with {} while the header uses {}; use one delimiter throughout",
+                        delim_name(d),
+                        delim_name(delim)
+                    ),
+                    None if missing == "versine" => format!(
+                        "if the reading is missing, keep its field and leave it empty (e.g. '{}{}')",
+                        cells.first().map_or("", |c| c.as_ref()),
+                        delim
+                    ),
+                    None => "complete the line or delete it".to_string(),
+                };
+                return Err(SurveyError::line(
+                    name,
+                    no,
+                    SurveyErrorKind::MissingField {
+                        found: cells.len(),
+                        expected: ncols,
+                        what: missing,
+                        todo,
+                    },
+                ));
+            }
+            if cells.len() > ncols && cells[ncols..].iter().any(|c| !c.is_empty()) {
+                let todo = if delim == ',' {
+                    "if you wrote decimal commas (12,5), write decimal points (12.5) or separate the fields with semicolons; put a note that contains commas in quotes (\"near bridge, left\")".to_string()
+                } else {
+                    format!(
+                        "put a note that contains the {} in quotes, or delete the extra cells",
+                        delim_name(delim)
+                    )
+                };
+                return Err(SurveyError::line(
+                    name,
+                    no,
+                    SurveyErrorKind::TooManyFields {
+                        found: cells.len(),
+                        expected: ncols,
+                        todo,
+                    },
+                ));
+            }
+
+            // Chainage.
+            let ch_text = &cells[cols.chainage];
+            if ch_text.is_empty() {
+                return Err(self.cell_err(
+                    &cols,
+                    no,
+                    cols.chainage,
+                    SurveyErrorKind::EmptyChainage,
+                ));
+            }
+            let chainage_file = match text::parse_number(ch_text, decimal_comma) {
+                Ok((v, _)) => v,
+                Err(p) => {
+                    let kind =
+                        number_error(p, ch_text, Quantity::Chainage(cols.chainage_unit), delim);
+                    return Err(self.cell_err(&cols, no, cols.chainage, kind));
+                }
+            };
+            let chainage = cols.chainage_unit.to_m(chainage_file);
+            if let (Some((prev_text, prev_line)), Some(last)) = (&prev, readings.last()) {
+                if chainage == last.chainage {
+                    return Err(self.cell_err(
+                        &cols,
+                        no,
+                        cols.chainage,
+                        SurveyErrorKind::Repeated {
+                            value: ch_text.to_string(),
+                            previous_line: *prev_line,
+                        },
+                    ));
+                }
+                if chainage < last.chainage {
+                    let todo = if readings.len() == 1 {
+                        "readings must be in increasing chainage; if the survey ran the other way, sort the lines into increasing chainage (and check the side column, which names rails facing increasing chainage)".to_string()
+                    } else if prev_prev_chainage.is_some_and(|pp| chainage > pp) {
+                        format!(
+                            "readings must be in increasing chainage; the chainage on line {prev_line} ({prev_text}) looks like the typing error"
+                        )
+                    } else {
+                        "readings must be in increasing chainage; sort the lines by chainage, or correct a typing error".to_string()
+                    };
+                    return Err(self.cell_err(
+                        &cols,
+                        no,
+                        cols.chainage,
+                        SurveyErrorKind::Backwards {
+                            value: ch_text.to_string(),
+                            previous: prev_text.to_string(),
+                            previous_line: *prev_line,
+                            todo,
+                        },
+                    ));
+                }
+            }
+
+            // Versine.
+            let v_text = &cells[cols.versine];
+            let versine = if v_text.is_empty() {
+                if stats.missing == 0 {
+                    stats.first_missing_line = no;
+                }
+                stats.missing += 1;
+                None
+            } else {
+                match text::parse_number(v_text, decimal_comma) {
+                    Ok((v, decimals)) => {
+                        if v != 0.0 {
+                            stats.nonzero += 1;
+                            if decimals >= FINE_DECIMALS {
+                                stats.fine_decimals += 1;
+                            }
+                        }
+                        Some(cols.versine_unit.to_m(v))
+                    }
+                    Err(p) => {
+                        let kind =
+                            number_error(p, v_text, Quantity::Versine(cols.versine_unit), delim);
+                        return Err(self.cell_err(&cols, no, cols.versine, kind));
+                    }
+                }
+            };
+
+            // Rail.
+            let rail = match cols.side {
+                None => self.opts.rail.unwrap_or(Rail::Left),
+                Some(i) => {
+                    let s = cells.get(i).map_or("", |c| c.as_ref());
+                    let rail = parse_side(s).map_err(|k| self.cell_err(&cols, no, i, k))?;
+                    if let Some(given) = self.opts.rail
+                        && given != rail
+                    {
+                        return Err(self.cell_err(
+                            &cols,
+                            no,
+                            i,
+                            SurveyErrorKind::RailContradicts {
+                                given: given.name(),
+                                text: s.to_string(),
+                            },
+                        ));
+                    }
+                    if let Some(last) = readings.last()
+                        && last.rail != rail
+                    {
+                        self.diags.push(
+                            Diagnostic::note(format!(
+                                "the readings change from the {} rail to the {} rail here",
+                                last.rail.name(),
+                                rail.name()
+                            ))
+                            .at(self.loc(no, Some(&cols.names[i]))),
+                        );
+                    }
+                    rail
+                }
+            };
+            let note = cols
+                .note
+                .and_then(|i| cells.get(i))
+                .filter(|c| !c.is_empty())
+                .map(|c| c.to_string());
+
+            prev_prev_chainage = readings.last().map(|r| r.chainage);
+            readings.push(Reading {
+                chainage,
+                versine,
+                rail,
+                note,
+                line: no,
+            });
+            prev = Some((Cow::Owned(ch_text.to_string()), no));
+        }
+
+        if readings.is_empty() {
+            return Err(SurveyError::line(
+                name,
+                header_line,
+                SurveyErrorKind::HeaderOnly,
+            ));
+        }
+        if readings.len() < 3 {
+            let line = readings.last().map_or(header_line, |r| r.line);
+            return Err(SurveyError::line(
+                name,
+                line,
+                SurveyErrorKind::TooFewReadings {
+                    count: readings.len(),
+                },
+            ));
+        }
+        if stats.missing == readings.len() {
+            return Err(SurveyError {
+                file: name.to_string(),
+                line: None,
+                column: Some(ColumnRef {
+                    name: cols.names[cols.versine].clone(),
+                    field: cols.versine + 1,
+                }),
+                kind: SurveyErrorKind::AllMissing {
+                    count: readings.len(),
+                },
+            });
+        }
+        if stats.missing > 0 {
+            self.diags.push(
+                Diagnostic::note(format!(
+                    "{} of {} versine cells are empty (missing readings, first on line {}); the alignment is bridged across them, less certainly",
+                    stats.missing,
+                    readings.len(),
+                    stats.first_missing_line
+                ))
+                .at(self.loc(stats.first_missing_line, Some(&cols.names[cols.versine]))),
+            );
+        }
+
+        let ctx = checks::Context {
+            file: name,
+            cols: &cols,
+            chord: self.opts.chord,
+            marking: self.opts.marking,
+        };
+        let regular = checks::spacing(&ctx, &readings, &mut self.diags)?;
+        checks::units(
+            &ctx,
+            &readings,
+            stats.fine_decimals,
+            stats.nonzero,
+            &mut self.diags,
+        )?;
+        checks::outliers(&ctx, &readings, &regular, &mut self.diags);
+
+        Ok((
+            Survey {
+                source: name.to_string(),
+                chainage_unit: cols.chainage_unit,
+                versine_unit: cols.versine_unit,
+                readings,
+                has_side_column: cols.side.is_some(),
+            },
+            self.diags,
+        ))
+    }
+
+    fn cell_err(
+        &self,
+        cols: &Columns,
+        line: usize,
+        i: usize,
+        kind: SurveyErrorKind,
+    ) -> SurveyError {
+        SurveyError::cell(self.name, line, cols.name(i), i + 1, kind)
+    }
+}
+
+fn delim_name(d: char) -> &'static str {
+    match d {
+        ',' => "commas",
+        ';' => "semicolons",
+        '\t' => "tabs",
+        _ => "another character",
+    }
+}
+
+fn parse_side(s: &str) -> Result<Rail, SurveyErrorKind> {
+    match s.to_ascii_lowercase().as_str() {
+        "l" | "left" => Ok(Rail::Left),
+        "r" | "right" => Ok(Rail::Right),
+        "" => Err(SurveyErrorKind::EmptySide),
+        other => Err(SurveyErrorKind::BadSide {
+            text: s.to_string(),
+            extra: if matches!(
+                other,
+                "inner" | "outer" | "in" | "out" | "i" | "o" | "high" | "low"
+            ) {
+                " (inner and outer, high and low depend on the curve, so they do not name a rail)"
+            } else {
+                ""
+            },
+        }),
+    }
+}
+
+/// Which column a number came from, for the advice.
+#[derive(Clone, Copy)]
+enum Quantity {
+    Chainage(LengthUnit),
+    Versine(VersineUnit),
+}
+
+fn length_word(u: LengthUnit) -> &'static str {
+    match u {
+        LengthUnit::Metre => "metres",
+        LengthUnit::Foot => "feet",
+    }
+}
+
+pub(crate) fn versine_word(u: VersineUnit) -> &'static str {
+    match u {
+        VersineUnit::Millimetre => "millimetres",
+        VersineUnit::Metre => "metres",
+        VersineUnit::Inch => "inches",
+        VersineUnit::Foot => "feet",
+    }
+}
+
+fn number_error(p: NumProblem, text: &str, q: Quantity, delim: char) -> SurveyErrorKind {
+    let comma = |s: &str| {
+        if delim == ';' {
+            s.replace('.', ",")
+        } else {
+            s.to_string()
+        }
+    };
+    let (word, example) = match q {
+        Quantity::Chainage(u) => (
+            length_word(u),
+            comma(if u == LengthUnit::Metre {
+                "1234.5"
+            } else {
+                "4050.5"
+            }),
+        ),
+        Quantity::Versine(u) => (
+            versine_word(u),
+            comma(match u {
+                VersineUnit::Millimetre => "12.5",
+                VersineUnit::Metre => "0.0125",
+                VersineUnit::Inch => "0.5",
+                VersineUnit::Foot => "0.04",
+            }),
+        ),
+    };
+    let base = match q {
+        Quantity::Chainage(_) => format!("write the chainage in {word}, e.g. {example}"),
+        Quantity::Versine(_) => format!(
+            "write the versine in {word}, e.g. {example}, or leave the cell empty for a missing reading"
+        ),
+    };
+    let text = text.to_string();
+    let todo = match p {
+        NumProblem::NotFinite => return SurveyErrorKind::NotFinite { text, todo: base },
+        NumProblem::Garbage => base,
+        NumProblem::HasUnit(u) => format!(
+            "write the number alone, e.g. {example}: the unit ({word}) comes from the column name, not '{u}'"
+        ),
+        NumProblem::SheetError => match q {
+            Quantity::Chainage(_) => "this is a spreadsheet error value; fix the formula in the spreadsheet and export again, or delete the line".to_string(),
+            Quantity::Versine(_) => "this is a spreadsheet error value; fix the formula in the spreadsheet and export again, or leave the cell empty for a missing reading".to_string(),
+        },
+        NumProblem::Separators => format!(
+            "write numbers without thousands separators and with one decimal separator, e.g. {example}"
+        ),
+        NumProblem::DecimalCommaInCommaFile => format!(
+            "this file separates fields with commas, so write a decimal point ({})",
+            text.replace(',', ".")
+        ),
+        NumProblem::StationPlus => match q {
+            Quantity::Chainage(_) => format!(
+                "write the chainage as one number of {word} ({} is {})",
+                text,
+                text.replace('+', "")
+            ),
+            Quantity::Versine(_) => base,
+        },
+    };
+    SurveyErrorKind::NotANumber { text, todo }
+}
+
+/// A number for a message: integers without decimals, others to at most six.
+pub(crate) fn fmt_num(v: f64) -> String {
+    if !v.is_finite() {
+        return format!("{v}");
+    }
+    let s = format!("{v:.6}");
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    if s == "-0" {
+        "0".to_string()
+    } else {
+        s.to_string()
+    }
+}
+
+#[cfg(test)]
+mod tests;
