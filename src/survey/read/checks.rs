@@ -47,17 +47,26 @@ impl Context<'_> {
             column: field.map(|i| self.cols.name(i).to_string()),
         }
     }
-    /// A length in the file's chainage unit, with the unit.
+    /// A length in the file's chainage unit, with the unit, to 3 decimals.
     fn len(&self, metres: f64) -> String {
         let u = self.cols.chainage_unit;
-        format!("{} {}", fmt_num(u.from_m(metres)), u.suffix())
+        format!(
+            "{} {}",
+            fmt_num((u.from_m(metres) * 1e3).round() / 1e3),
+            u.suffix()
+        )
     }
     /// A chainage as a number in the file's unit (no unit).
     fn ch(&self, metres: f64) -> String {
         fmt_num(self.cols.chainage_unit.from_m(metres))
     }
+    /// The chord in metres, and in feet too for an imperial file.
     fn chord_text(&self) -> String {
-        self.len(self.chord)
+        let m = format!("{} m", fmt_num((self.chord * 1e4).round() / 1e4));
+        match self.cols.chainage_unit {
+            crate::units::LengthUnit::Metre => m,
+            crate::units::LengthUnit::Foot => format!("{m} ({})", self.len(self.chord)),
+        }
     }
 }
 
@@ -99,14 +108,14 @@ pub(crate) fn spacing(
     };
     if ratio < 1.0 - FIT_TOL {
         return Err(misfit(format!(
-            "the readings are {} apart, more than half the {} chord",
+            "the readings are {} apart, more than half the chord of {}",
             ctx.len(s_med),
             ctx.chord_text()
         )));
     }
     if (s_med - s_nom).abs() > FIT_TOL * s_nom {
         return Err(misfit(format!(
-            "the readings are {} apart, and half the {} chord is not a whole number of such spacings ({} of them)",
+            "the readings are {} apart, and half the chord of {} is not a whole number of such spacings ({} of them)",
             ctx.len(s_med),
             ctx.chord_text(),
             fmt_num((ratio * 100.0).round() / 100.0)
@@ -201,7 +210,7 @@ pub(crate) fn spacing(
         if (mean - s_nom).abs() > SCALE_TOL * s_nom {
             diags.push(
                 Diagnostic::warning(format!(
-                    "the readings are on average {} apart rather than {} (the {} chord over {}): the chainages run {}% {}",
+                    "the readings are on average {} apart rather than {} (the chord of {} over {}): the chainages run {}% {}",
                     ctx.len(mean),
                     ctx.len(s_nom),
                     ctx.chord_text(),
@@ -209,7 +218,7 @@ pub(crate) fn spacing(
                     fmt_num(((mean / s_nom - 1.0).abs() * 1000.0).round() / 10.0),
                     if mean > s_nom { "long" } else { "short" }
                 ))
-                .hint("check the chord length and how the chainages were measured (tape or odometer scale)"),
+                .hint("check the chord length and how the chainages were measured: tape or odometer scale"),
             );
         }
     }
@@ -257,7 +266,7 @@ pub(crate) fn units(
             (radius >= MIN_RADIUS).then_some((a, radius))
         });
         let what = format!(
-            "a tenth of the versines are {} or more, which on a {} chord would mean curves of radius {} m or less; no railway has such curves",
+            "a tenth of the versines are {} or more, which on a chord of {} would mean curves of radius {} m or less; no railway has such curves",
             in_file(p90),
             ctx.chord_text(),
             fmt_num(implied_radius(c, p90).round().max(0.0))
@@ -294,7 +303,7 @@ pub(crate) fn units(
                 col + 1,
                 SurveyErrorKind::VersineImpossible {
                     what: format!(
-                        "the versine {} would mean a curve of radius {} m on a {} chord, which no railway has",
+                        "the versine {} would mean a curve of radius {} m on a chord of {}, which no railway has",
                         in_file(v),
                         fmt_num((implied_radius(c, v) * 10.0).round() / 10.0),
                         ctx.chord_text()
@@ -315,7 +324,7 @@ pub(crate) fn units(
         let as_metres = max * 1000.0;
         diags.push(
             Diagnostic::warning(format!(
-                "every versine in {col_name} is under 1 mm and most are written to {} or more decimals, finer than a tape or gauge reads: these look like metres (as metres the largest, {} m, means a radius of {} m on the {} chord)",
+                "every versine in {col_name} is under 1 mm and most are written to {} or more decimals, finer than a tape or gauge reads: these look like metres (as metres the largest, {} m, means a radius of {} m on the chord of {})",
                 super::FINE_DECIMALS,
                 fmt_num(as_metres),
                 fmt_num(implied_radius(c, as_metres).round()),

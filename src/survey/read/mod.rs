@@ -203,15 +203,15 @@ impl<'a> Reader<'a> {
             Some(i) => SurveyError::cell(name, header_line, &cells[i], i + 1, kind),
             None => SurveyError::line(name, header_line, kind),
         })?;
+        // Unnamed columns (often trailing empty cells of a spreadsheet) get a
+        // warning only when a line has something in them.
+        let mut unnamed: Vec<usize> = Vec::new();
         for &i in &cols.unknown {
-            let what = if cols.names[i].is_empty() {
-                format!(
-                    "field {} of the header has no name; its values are not used",
-                    i + 1
-                )
-            } else {
-                format!("column '{}' (field {}) is not used", cols.names[i], i + 1)
-            };
+            if cols.names[i].is_empty() {
+                unnamed.push(i);
+                continue;
+            }
+            let what = format!("column '{}' (field {}) is not used", cols.names[i], i + 1);
             let d = Diagnostic::warning(what)
                 .at(self.loc(header_line, Some(&cols.names[i])))
                 .hint("the columns read are chainage_m|chainage_ft, versine_mm|versine_m|versine_in|versine_ft, side and note");
@@ -319,6 +319,23 @@ impl<'a> Reader<'a> {
                 ));
             }
 
+            if !unnamed.is_empty() {
+                let filled = unnamed
+                    .iter()
+                    .position(|&i| cells.get(i).is_some_and(|c| !c.is_empty()));
+                if let Some(k) = filled {
+                    let i = unnamed.swap_remove(k);
+                    self.diags.push(
+                        Diagnostic::warning(format!(
+                            "field {} has values but no name in the header; they are not used",
+                            i + 1
+                        ))
+                        .at(self.loc(no, None))
+                        .hint("name the column in the header if it matters, e.g. side or note, or delete it"),
+                    );
+                }
+            }
+
             // Chainage.
             let ch_text = &cells[cols.chainage];
             if ch_text.is_empty() {
@@ -353,7 +370,9 @@ impl<'a> Reader<'a> {
                 if chainage < last.chainage {
                     let todo = if readings.len() == 1 {
                         "readings must be in increasing chainage; if the survey ran the other way, sort the lines into increasing chainage (and check the side column, which names rails facing increasing chainage)".to_string()
-                    } else if prev_prev_chainage.is_some_and(|pp| chainage > pp) {
+                    } else if prev_prev_chainage.is_some_and(|pp| {
+                        chainage > pp && last.chainage - pp > 3.0 * (chainage - pp)
+                    }) {
                         format!(
                             "readings must be in increasing chainage; the chainage on line {prev_line} ({prev_text}) looks like the typing error"
                         )
