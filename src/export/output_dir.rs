@@ -339,7 +339,7 @@ fn check_target(target: &Path, force: bool, inputs: &[PathBuf]) -> Result<(), Ou
         }
     }
     match fs::symlink_metadata(target) {
-        Ok(m) if !m.is_dir() && !(m.file_type().is_symlink() && target.is_dir()) => {
+        Ok(m) if !(m.is_dir() || m.file_type().is_symlink() && target.is_dir()) => {
             Err(OutputError::NotAFolder {
                 path: target.to_path_buf(),
             })

@@ -172,11 +172,14 @@ pub(crate) fn spacing(
                 ctx.cols.name(ctx.cols.chainage),
                 ctx.cols.chainage + 1,
                 SurveyErrorKind::SpacingBreak {
-                    from: ctx.ch(r[i - 1].chainage),
-                    from_line: r[i - 1].line,
-                    to: ctx.ch(r[i].chainage),
-                    steps: fmt_num((x * 100.0).round() / 100.0),
-                    spacing: ctx.len(s_nom),
+                    what: format!(
+                        "chainage jumps from {} (line {}) to {}, {} spacings of {}",
+                        ctx.ch(r[i - 1].chainage),
+                        r[i - 1].line,
+                        ctx.ch(r[i].chainage),
+                        fmt_num((x * 100.0).round() / 100.0),
+                        ctx.len(s_nom)
+                    ),
                     todo,
                 },
             ));
@@ -287,7 +290,7 @@ pub(crate) fn units(
                 name: col_name,
                 field: col + 1,
             }),
-            kind: SurveyErrorKind::UnitImplausible { what, todo },
+            kind: Box::new(SurveyErrorKind::UnitImplausible { what, todo }),
         });
     }
     // Single readings too large for any railway.

@@ -27,8 +27,8 @@ pub struct SurveyError {
     pub line: Option<usize>,
     /// The column, when the problem is in one cell or column.
     pub column: Option<ColumnRef>,
-    /// What is wrong.
-    pub kind: SurveyErrorKind,
+    /// What is wrong (boxed to keep `Result`s small).
+    pub kind: Box<SurveyErrorKind>,
 }
 
 impl SurveyError {
@@ -37,7 +37,7 @@ impl SurveyError {
             file: file.to_string(),
             line: None,
             column: None,
-            kind,
+            kind: Box::new(kind),
         }
     }
     pub(crate) fn line(file: &str, line: usize, kind: SurveyErrorKind) -> Self {
@@ -45,7 +45,7 @@ impl SurveyError {
             file: file.to_string(),
             line: Some(line),
             column: None,
-            kind,
+            kind: Box::new(kind),
         }
     }
     pub(crate) fn cell(
@@ -62,7 +62,7 @@ impl SurveyError {
                 name: name.to_string(),
                 field,
             }),
-            kind,
+            kind: Box::new(kind),
         }
     }
 }
@@ -326,20 +326,10 @@ pub enum SurveyErrorKind {
         todo: String,
     },
     /// A jump in chainage that is not a whole number of spacings.
-    #[error(
-        "chainage jumps from {from} (line {from_line}) to {to}, {steps} spacings of {spacing}: the readings after it are off the chord pattern; {todo}"
-    )]
+    #[error("{what}: the readings after it are off the chord pattern; {todo}")]
     SpacingBreak {
-        /// Chainage before the jump, as written.
-        from: String,
-        /// Line of the reading before the jump.
-        from_line: usize,
-        /// Chainage after the jump, as written.
-        to: String,
-        /// The jump in spacings, e.g. "2.6".
-        steps: String,
-        /// The nominal spacing with unit.
-        spacing: String,
+        /// The jump, with chainages, lines and spacing.
+        what: String,
         /// What to do.
         todo: String,
     },

@@ -496,9 +496,9 @@ impl<'a> Reader<'a> {
                     name: cols.names[cols.versine].clone(),
                     field: cols.versine + 1,
                 }),
-                kind: SurveyErrorKind::AllMissing {
+                kind: Box::new(SurveyErrorKind::AllMissing {
                     count: readings.len(),
-                },
+                }),
             });
         }
         if stats.missing > 0 {
