@@ -412,6 +412,12 @@ const CASES: &[(&str, &str, Option<Rail>, &str)] = &[
     ),
     ("ok/spreadsheet_padding.csv", "20m", L, ""),
     ("ok/tab_separated.csv", "20m", None, ""),
+    (
+        "ok/thousands_like_chainage.csv",
+        "20m",
+        L,
+        "ok/thousands_like_chainage.csv:3, column chainage_m: warning: every chainage has three digits after a point, like 1.010 on line 3, in a semicolon-separated file where '.' may separate thousands; they are read with '.' as the decimal point (1.01 m) (if the '.' separates thousands, write the chainages without it, e.g. 1010 rather than 1.010)",
+    ),
 ];
 
 #[test]

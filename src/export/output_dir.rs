@@ -126,6 +126,19 @@ pub enum OutputError {
     },
 }
 
+impl OutputError {
+    /// Whether this is a bug in the program (a bad or repeated file name)
+    /// rather than a problem with the user's folders or disk. A CLI would exit
+    /// with its internal-error code for these and its input/usage code for
+    /// the rest.
+    pub fn is_internal(&self) -> bool {
+        matches!(
+            self,
+            OutputError::BadName { .. } | OutputError::Duplicate { .. }
+        )
+    }
+}
+
 /// An output folder being written. See the [module docs](self).
 #[derive(Debug)]
 pub struct OutputDir {
@@ -524,9 +537,9 @@ mod tests {
             );
         }
         out.write_file("a.csv", |_| Ok(())).unwrap();
-        assert!(matches!(
-            out.write_file("a.csv", |_| Ok(())),
-            Err(OutputError::Duplicate { .. })
-        ));
+        let e = out.write_file("a.csv", |_| Ok(())).unwrap_err();
+        assert!(matches!(e, OutputError::Duplicate { .. }) && e.is_internal());
+        let e = OutputDir::create(tmp.path(), false).unwrap_err();
+        assert!(!e.is_internal());
     }
 }

@@ -154,6 +154,23 @@ struct RowStats {
     first_missing_line: usize,
     fine_decimals: usize,
     nonzero: usize,
+    /// Chainages written like `1.010` (1–3 digits, a point, 3 digits).
+    thousands_like: usize,
+    /// The second chainage as written (the first may be a round number).
+    second_chainage: String,
+}
+
+/// `1.010`, `12.345`: what a thousands separator would look like.
+fn looks_like_thousands(s: &str) -> bool {
+    match s.split_once('.') {
+        Some((a, b)) => {
+            (1..=3).contains(&a.len())
+                && b.len() == 3
+                && a.bytes().all(|c| c.is_ascii_digit())
+                && b.bytes().all(|c| c.is_ascii_digit())
+        }
+        None => false,
+    }
 }
 
 impl<'a> Reader<'a> {
@@ -355,6 +372,12 @@ impl<'a> Reader<'a> {
                 }
             };
             let chainage = cols.chainage_unit.to_m(chainage_file);
+            if decimal_comma && looks_like_thousands(ch_text) {
+                stats.thousands_like += 1;
+            }
+            if readings.len() == 1 {
+                stats.second_chainage = ch_text.to_string();
+            }
             if let (Some((prev_text, prev_line)), Some(last)) = (&prev, readings.last()) {
                 if chainage == last.chainage {
                     return Err(self.cell_err(
@@ -500,6 +523,20 @@ impl<'a> Reader<'a> {
                     count: readings.len(),
                 }),
             });
+        }
+        if decimal_comma && stats.thousands_like == readings.len() {
+            self.diags.push(
+                Diagnostic::warning(format!(
+                    "every chainage has three digits after a point, like {} on line {}, in a {}-separated file where '.' may separate thousands; they are read with '.' as the decimal point ({} {})",
+                    stats.second_chainage,
+                    readings[1].line,
+                    if delim == ';' { "semicolon" } else { "tab" },
+                    fmt_num(cols.chainage_unit.from_m(readings[1].chainage)),
+                    cols.chainage_unit.suffix()
+                ))
+                .at(self.loc(readings[1].line, Some(&cols.names[cols.chainage])))
+                .hint("if the '.' separates thousands, write the chainages without it, e.g. 1010 rather than 1.010"),
+            );
         }
         if stats.missing > 0 {
             self.diags.push(
