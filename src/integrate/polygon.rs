@@ -165,18 +165,20 @@ pub(crate) fn polygon_run(
         k_rail.push(delta / (0.5 * (back(i) + spacing[i])));
         gain.push(1.0 / (sb * sb - vp[i] * vp[i]).sqrt() + 1.0 / (sa * sa - vp[i] * vp[i]).sqrt());
     }
-    // Tangent at a vertex: the chord of an arc runs at the arc's mean
-    // heading, so from side i−1 the tangent at station i is φ_{i−1} plus the
-    // turn over the last half of that arc, `Δ/2·(k_{i−1}/4 + 3k_i/4)` for
-    // curvature linear along the arc; likewise back from side i. The mean of
-    // the two is exact on circles and to O(k'') on clothoids.
+    // Tangent at a vertex. A chord runs at the mean heading of its arc, and
+    // (small angles) θ(s_i) − mean_back θ = ∫ ramp-up·k over the side before,
+    // mean_fwd θ − θ(s_i) = ∫ ramp-down·k over the side after. Their sum is the
+    // deflection; their difference is −Δ²k'/3 for linear curvature, with k'
+    // from the neighbouring stations. Exact on circles (k' = 0).
     let kk = |i: isize| k_rail[i.clamp(0, n as isize - 1) as usize];
     let mut theta = Vec::with_capacity(n);
     for i in 0..n {
         let ii = i as isize;
-        let from_back = phi[i] + 0.5 * back(i) * (0.25 * kk(ii - 1) + 0.75 * kk(ii));
-        let from_fwd = phi[i + 1] - 0.5 * spacing[i] * (0.75 * kk(ii) + 0.25 * kk(ii + 1));
-        theta.push(0.5 * (from_back + from_fwd));
+        let db = back(i);
+        let df = spacing[i];
+        let slope = (kk(ii + 1) - kk(ii - 1)) / (db + df);
+        let diff = -(db * df) * slope / 3.0;
+        theta.push(0.5 * (phi[i] + phi[i + 1]) + 0.5 * diff);
     }
     // Local frame: station 0 at the origin with tangent heading 0.
     let rot = -theta[0];
