@@ -1,0 +1,186 @@
+//! `stations.csv`: one row per survey station with the reconstructed plan.
+//!
+//! Columns, in this order (metric surveys; imperial surveys use `_ft` for
+//! lengths, `_in` for versines):
+//!
+//! | column | unit | decimals | meaning |
+//! |---|---|---|---|
+//! | `chainage_m` | m | 3 | survey chainage along the measured rail |
+//! | `versine_mm` | mm | 2 (in: 3) | field versine as read; empty for a missing reading |
+//! | `curvature_1_per_km` | 1/km | 6 | centreline curvature, positive curving left |
+//! | `bearing_deg` | ° | 6 | centreline bearing, clockwise from north |
+//! | `easting_m`, `northing_m` | m | 4 | centreline position |
+//! | `position_sd_m` | m | 4 | standard deviation of the lateral position |
+//! | `heading_sd_deg` | ° | 6 | standard deviation of the bearing |
+//! | `side` | | | `left` or `right`: the rail measured |
+//! | `rail_easting_m`, `rail_northing_m` | m | 4 | running edge of the measured rail |
+//! | `degree_of_curve` | ° | 4 | imperial surveys only: chord definition (100 ft), signed like the curvature |
+//! | `design_versine_mm`, `residual_mm` | mm | 2 (in: 3) | with a design: its versine and measured − design |
+//! | `design_easting_m`, `design_northing_m` | m | 4 | with a design: its centreline position |
+//!
+//! Numbers have fixed decimals, so the same plan always gives the same bytes.
+//! A value that is not finite is refused (an error), never written as NaN.
+
+use crate::integrate::Plan;
+use crate::units::{LengthUnit, VersineUnit};
+use std::io::{self, Write};
+
+/// The design (fitted alignment) at one station, all SI, for the last four columns.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct DesignAtStation {
+    /// Design versine (field convention, like the reading), metres.
+    pub design_versine: f64,
+    /// Measured minus design versine, metres.
+    pub residual: f64,
+    /// Design centreline easting, metres.
+    pub x: f64,
+    /// Design centreline northing, metres.
+    pub y: f64,
+}
+
+fn num(out: &mut String, v: f64, dp: usize, col: &str, chainage: f64) -> io::Result<()> {
+    if !v.is_finite() {
+        return Err(io::Error::new(
+            io::ErrorKind::InvalidData,
+            format!("stations.csv: {col} at chainage {chainage:.3} m is not a finite number"),
+        ));
+    }
+    let s = format!("{v:.dp$}");
+    // No "-0.000": a value that rounds to zero is written as zero.
+    if s.starts_with('-') && s[1..].bytes().all(|b| b == b'0' || b == b'.') {
+        out.push_str(&s[1..]);
+    } else {
+        out.push_str(&s);
+    }
+    Ok(())
+}
+
+/// Write `stations.csv` for `plan` in `unit` (metres or feet; versines in mm
+/// or inches to match), with the design columns when `design` is given (one
+/// entry per station).
+///
+/// # Errors
+/// An I/O error from `w`; `InvalidInput` when `design` has the wrong length;
+/// `InvalidData` when a value is not finite.
+///
+/// # Examples
+/// ```
+/// use chordline::export::stations::write_stations;
+/// use chordline::integrate::{NoiseSource, Plan, Station};
+/// use chordline::survey::Rail;
+/// use chordline::units::LengthUnit;
+/// let st = Station { chainage: 10.0, versine: Some(0.0125), rail: Rail::Left, curvature: 0.002,
+///     heading: std::f64::consts::FRAC_PI_2, x: 1.0, y: 2.0, rail_x: 0.2825, rail_y: 2.0,
+///     position_sd: 0.001, heading_sd: 1e-4 };
+/// let plan = Plan { stations: vec![st], reading_sd: 1e-3, noise_source: NoiseSource::Stated, position_residuals: vec![] };
+/// let mut out = Vec::new();
+/// write_stations(&mut out, &plan, LengthUnit::Metre, None).unwrap();
+/// let text = String::from_utf8(out).unwrap();
+/// assert!(text.starts_with("chainage_m,versine_mm,curvature_1_per_km,bearing_deg,easting_m,northing_m,position_sd_m"));
+/// assert!(text.lines().nth(1).unwrap().starts_with("10.000,12.50,2.000000,0.000000,1.0000,2.0000,0.0010"));
+/// ```
+pub fn write_stations(
+    w: impl Write,
+    plan: &Plan,
+    unit: LengthUnit,
+    design: Option<&[DesignAtStation]>,
+) -> io::Result<()> {
+    if let Some(d) = design
+        && d.len() != plan.stations.len()
+    {
+        return Err(io::Error::new(
+            io::ErrorKind::InvalidInput,
+            format!(
+                "stations.csv: the design has {} stations but the plan {}",
+                d.len(),
+                plan.stations.len()
+            ),
+        ));
+    }
+    let mut w = io::BufWriter::new(w);
+    let l = unit.suffix();
+    let vu = unit.versine_unit();
+    let v_dp = if vu == VersineUnit::Inch { 3 } else { 2 };
+    let imperial = unit == LengthUnit::Foot;
+    let mut head = format!(
+        "chainage_{l},versine_{v},curvature_1_per_km,bearing_deg,easting_{l},northing_{l},position_sd_{l},heading_sd_deg,side,rail_easting_{l},rail_northing_{l}",
+        v = vu.suffix()
+    );
+    if imperial {
+        head.push_str(",degree_of_curve");
+    }
+    if design.is_some() {
+        head.push_str(&format!(
+            ",design_versine_{v},residual_{v},design_easting_{l},design_northing_{l}",
+            v = vu.suffix()
+        ));
+    }
+    head.push('\n');
+    w.write_all(head.as_bytes())?;
+    let mut row = String::with_capacity(256);
+    for (i, s) in plan.stations.iter().enumerate() {
+        row.clear();
+        let c = s.chainage;
+        num(&mut row, unit.from_m(c), 3, "chainage", c)?;
+        row.push(',');
+        if let Some(v) = s.versine {
+            num(&mut row, vu.from_m(v), v_dp, "versine", c)?;
+        }
+        row.push(',');
+        num(&mut row, s.curvature * 1e3, 6, "curvature", c)?;
+        row.push(',');
+        let b = crate::geometry::heading_to_bearing(s.heading);
+        // 359.9999996 would print as 360.000000: keep bearings in [0, 360).
+        let b = if format!("{b:.6}") == "360.000000" {
+            0.0
+        } else {
+            b
+        };
+        num(&mut row, b, 6, "bearing", c)?;
+        for (val, col, dp) in [
+            (unit.from_m(s.x), "easting", 4),
+            (unit.from_m(s.y), "northing", 4),
+            (unit.from_m(s.position_sd), "position_sd", 4),
+            (s.heading_sd.to_degrees(), "heading_sd", 6),
+        ] {
+            row.push(',');
+            num(&mut row, val, dp, col, c)?;
+        }
+        row.push(',');
+        row.push_str(s.rail.name());
+        for (val, col) in [
+            (unit.from_m(s.rail_x), "rail_easting"),
+            (unit.from_m(s.rail_y), "rail_northing"),
+        ] {
+            row.push(',');
+            num(&mut row, val, 4, col, c)?;
+        }
+        if imperial {
+            row.push(',');
+            let d = if s.curvature == 0.0 {
+                Some(0.0)
+            } else {
+                crate::integrate::degree_of_curve(1.0 / s.curvature)
+                    .map(|d| d * s.curvature.signum())
+            };
+            if let Some(d) = d {
+                num(&mut row, d, 4, "degree_of_curve", c)?;
+            }
+        }
+        if let Some(d) = design {
+            let d = d[i];
+            for (val, col, dp) in [
+                (vu.from_m(d.design_versine), "design_versine", v_dp),
+                (vu.from_m(d.residual), "residual", v_dp),
+                (unit.from_m(d.x), "design_easting", 4),
+                (unit.from_m(d.y), "design_northing", 4),
+            ] {
+                row.push(',');
+                num(&mut row, val, dp, col, c)?;
+            }
+        }
+        row.push('\n');
+        w.write_all(row.as_bytes())?;
+    }
+    w.flush()
+}
