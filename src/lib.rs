@@ -11,6 +11,8 @@
 //! 4. [`georef`]: putting the plan on the Earth; control points.
 //! 5. [`export`]: writing CSV, GeoJSON and LandXML.
 //!
+//! [`pipeline`] runs the stages in order (and [`report`] summarises a run).
+//!
 //! Supporting modules: [`units`] (the only place units other than SI appear),
 //! [`geometry`] (exact evaluation of alignments), [`simulate`] (exact surveys of
 //! a known design, the test bed for everything else), [`diag`] (warnings with
@@ -24,6 +26,8 @@ pub mod fit;
 pub mod geometry;
 pub mod georef;
 pub mod integrate;
+pub mod pipeline;
+pub mod report;
 pub mod simulate;
 pub mod survey;
 pub mod units;

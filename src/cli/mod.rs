@@ -1,6 +1,8 @@
 //! Command-line interface: argument parsing, terminal output and exit codes.
 //! Only this module (and `main.rs`) knows about clap, stderr and exit codes.
 
+mod demo;
+mod run;
 mod simulate;
 mod util;
 
@@ -18,6 +20,10 @@ pub struct Cli {
 
 #[derive(Debug, Subcommand)]
 enum Command {
+    /// Reconstruct the alignment from a versine survey file and write an output folder.
+    Run(run::RunArgs),
+    /// Run the whole job on the bundled demo survey and say where it wrote.
+    Demo(demo::DemoArgs),
     /// Write the survey a chord would measure on a known design (exact geometry, optional noise).
     Simulate(simulate::SimulateArgs),
 }
@@ -51,6 +57,8 @@ pub fn main() -> ExitCode {
         }
     };
     let result = match cli.command {
+        Command::Run(a) => run::run(a),
+        Command::Demo(a) => demo::run(a),
         Command::Simulate(a) => simulate::run(a),
     };
     match result {

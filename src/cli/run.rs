@@ -1,0 +1,95 @@
+//! `chordline run`: reconstruct the alignment from a versine survey file.
+
+use super::Failure;
+use super::simulate::{MarkingArg, RailArg};
+use super::util::small_length;
+use chordline::diag::Diagnostic;
+use chordline::pipeline::{self, Options, Outcome};
+use chordline::survey::{Rail, Setup};
+use chordline::units::Length;
+use clap::Args;
+use std::path::{Path, PathBuf};
+
+/// Options of `chordline run`.
+#[derive(Debug, Args)]
+pub struct RunArgs {
+    /// Survey file (CSV): chainage and versine columns with units in their names.
+    pub survey: PathBuf,
+    /// Chord length with unit, e.g. 20m or 62ft.
+    #[arg(long)]
+    pub chord: Length,
+    /// Rail measured, facing increasing chainage (needed when the file has no side column).
+    #[arg(long, value_enum)]
+    pub rail: Option<RailArg>,
+    /// Output folder (written all at once; an existing one is replaced only with --force).
+    #[arg(long)]
+    pub out: PathBuf,
+    /// Track gauge between running edges.
+    #[arg(long, value_parser = small_length, default_value = "1435mm")]
+    pub gauge: f64,
+    /// How stations were marked: taped along the rail (hand survey) or a rigid wire or beam (trolley, vehicle).
+    #[arg(long, value_enum, default_value = "taped")]
+    pub marking: MarkingArg,
+    /// Standard deviation of one reading, e.g. 1mm (default: estimated from the readings).
+    #[arg(long, value_parser = small_length)]
+    pub reading_sd: Option<f64>,
+    /// Bearing of the track at the first station, degrees clockwise from north.
+    #[arg(long, default_value_t = 0.0, allow_negative_numbers = true)]
+    pub start_bearing: f64,
+    /// Replace the output folder if it exists.
+    #[arg(long)]
+    pub force: bool,
+    /// Do not print warnings (the summary still counts them).
+    #[arg(long, short)]
+    pub quiet: bool,
+}
+
+impl RunArgs {
+    fn options(&self) -> Options {
+        let mut setup = Setup::new(
+            self.chord.metres(),
+            self.rail.map_or(Rail::Left, Rail::from),
+        );
+        setup.gauge = self.gauge;
+        setup.marking = self.marking.into();
+        setup.reading_sd = self.reading_sd;
+        Options {
+            setup,
+            rail_stated: self.rail.is_some(),
+            start_bearing_deg: self.start_bearing,
+        }
+    }
+}
+
+/// Run `chordline run`.
+pub fn run(a: RunArgs) -> Result<(), Failure> {
+    let outcome = execute(&a.survey, &a.options(), &a.out, a.force)?;
+    print_outcome(&outcome, a.quiet);
+    Ok(())
+}
+
+/// Run the pipeline, mapping its error to an exit class.
+pub fn execute(survey: &Path, opts: &Options, out: &Path, force: bool) -> Result<Outcome, Failure> {
+    pipeline::run(survey, opts, out, force).map_err(|e| {
+        if e.is_internal() {
+            Failure::Internal(e.into())
+        } else {
+            Failure::Input(e.into())
+        }
+    })
+}
+
+/// Print the warnings and the summary to stderr.
+pub fn print_outcome(o: &Outcome, quiet: bool) {
+    if !quiet {
+        for d in &o.results.diagnostics {
+            eprintln!("{}", fmt_diag(d));
+        }
+    }
+    eprint!("{}", chordline::report::summary(&o.results));
+    eprintln!("wrote    {} in {}", o.files.join(", "), o.folder.display());
+}
+
+fn fmt_diag(d: &Diagnostic) -> String {
+    d.to_string()
+}

@@ -1,0 +1,154 @@
+//! The whole job, stage after stage: read the survey, integrate, fit, place,
+//! and write the output folder.
+//!
+//! [`process`] is the pure part (no file system): a [`Survey`] in, every
+//! result out. [`run`] adds the edges: it reads the survey file and writes the
+//! output folder through [`OutputDir`], so that nothing is half-written and an
+//! earlier folder survives a failed run.
+
+use crate::diag::Diagnostic;
+use crate::export::output_dir::{OutputDir, OutputError};
+use crate::export::stations::write_stations;
+use crate::geometry::{Pose, bearing_to_heading};
+use crate::integrate::{IntegrateError, IntegrateOptions, Plan, integrate};
+use crate::survey::read::{ReadOptions, SurveyError, read_survey_file};
+use crate::survey::{Rail, Setup, Survey};
+use std::path::{Path, PathBuf};
+
+/// Everything a run needs besides the survey itself.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Options {
+    /// Chord, gauge, marking, reading noise. `setup.rail` is the rail used
+    /// when the file has no `side` column.
+    pub setup: Setup,
+    /// Whether the rail was stated by the user (`--rail`); the reader then
+    /// checks it against a `side` column.
+    pub rail_stated: bool,
+    /// Bearing of the track at the first station, degrees clockwise from north.
+    pub start_bearing_deg: f64,
+}
+
+impl Options {
+    /// Options for a chord of `chord` metres read on `rail`.
+    pub fn new(chord: f64, rail: Rail) -> Self {
+        Options {
+            setup: Setup::new(chord, rail),
+            rail_stated: true,
+            start_bearing_deg: 0.0,
+        }
+    }
+}
+
+/// Why a run failed.
+#[derive(Debug, thiserror::Error)]
+pub enum RunError {
+    /// The survey file could not be read or is not a usable survey.
+    #[error(transparent)]
+    Survey(#[from] SurveyError),
+    /// The integration could not run.
+    #[error(transparent)]
+    Integrate(#[from] IntegrateError),
+    /// The output folder could not be written.
+    #[error(transparent)]
+    Output(#[from] OutputError),
+}
+
+impl RunError {
+    /// Whether this is a fault of the program or its environment rather than
+    /// of the input or the options (exit code 2 rather than 1).
+    pub fn is_internal(&self) -> bool {
+        match self {
+            RunError::Output(e) => e.is_internal(),
+            RunError::Survey(_) | RunError::Integrate(_) => false,
+        }
+    }
+}
+
+/// All results of a run, before anything is written.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Results {
+    /// The survey as read.
+    pub survey: Survey,
+    /// The set-up used.
+    pub setup: Setup,
+    /// The reconstructed plan.
+    pub plan: Plan,
+    /// Warnings and notes of every stage, in stage order.
+    pub diagnostics: Vec<Diagnostic>,
+}
+
+/// Run every stage on a survey already in memory (no file system).
+///
+/// # Errors
+/// [`RunError`] from the stage that failed.
+pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
+    let mut setup = opts.setup.clone();
+    if let Some(r) = survey.readings.first() {
+        if !opts.rail_stated || survey.has_side_column {
+            setup.rail = r.rail;
+        }
+    }
+    let iopts = IntegrateOptions {
+        start: Pose {
+            x: 0.0,
+            y: 0.0,
+            heading: bearing_to_heading(opts.start_bearing_deg),
+        },
+        position_obs: Vec::new(),
+    };
+    let (plan, diagnostics) = integrate(&survey, &setup, &iopts)?;
+    Ok(Results {
+        survey,
+        setup,
+        plan,
+        diagnostics,
+    })
+}
+
+/// What [`run`] produced.
+#[derive(Debug)]
+pub struct Outcome {
+    /// The results, for a summary.
+    pub results: Results,
+    /// The output folder, now in place.
+    pub folder: PathBuf,
+    /// Names of the files in it.
+    pub files: Vec<String>,
+}
+
+/// Read `survey_path`, run every stage and write the output folder `out`.
+///
+/// Warnings from reading come first in the diagnostics. Nothing is written
+/// unless every stage succeeded; an existing `out` is replaced only with `force`.
+///
+/// # Errors
+/// [`RunError`] from the stage that failed; the earlier folder, if any, is intact.
+pub fn run(
+    survey_path: &Path,
+    opts: &Options,
+    out: &Path,
+    force: bool,
+) -> Result<Outcome, RunError> {
+    // Refuse an unusable output folder before doing any work.
+    let mut dir = OutputDir::create_for_inputs(out, force, &[survey_path])?;
+    let ropts = ReadOptions {
+        rail: opts.rail_stated.then_some(opts.setup.rail),
+        chord: opts.setup.chord,
+        marking: opts.setup.marking,
+    };
+    let (survey, mut diags) = read_survey_file(survey_path, &ropts)?;
+    let mut results = process(survey, opts)?;
+    diags.append(&mut results.diagnostics);
+    results.diagnostics = diags;
+    let unit = results.survey.chainage_unit;
+    dir.write_file("stations.csv", |w| {
+        write_stations(w, &results.plan, unit, None)
+    })?;
+    let files = dir.files().to_vec();
+    let folder = dir.commit()?;
+    Ok(Outcome {
+        results,
+        folder,
+        files,
+    })
+}

@@ -1,0 +1,176 @@
+//! `chordline run` and `chordline demo` end to end: the output contract, exit
+//! codes, never losing earlier results, determinism.
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+fn chordline(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_chordline"))
+        .args(args)
+        .output()
+        .expect("run chordline")
+}
+
+fn demo_survey() -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/eastvale-survey.csv")
+}
+
+fn stderr(o: &Output) -> String {
+    String::from_utf8_lossy(&o.stderr).into_owned()
+}
+
+#[test]
+fn run_on_the_demo_follows_the_output_contract() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("out");
+    let o = chordline(&[
+        "run",
+        demo_survey().to_str().unwrap(),
+        "--chord",
+        "20m",
+        "--rail",
+        "left",
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let stations = std::fs::read_to_string(out.join("stations.csv")).unwrap();
+    assert!(stations.starts_with(
+        "chainage_m,versine_mm,curvature_1_per_km,bearing_deg,easting_m,northing_m,position_sd_m"
+    ));
+    // The team's contract checker (Python, standard library): skip where absent.
+    let checker = Path::new(env!("CARGO_MANIFEST_DIR")).join("../shared/tools/check-outputs");
+    if !checker.exists() {
+        eprintln!(
+            "skipped the contract checker: {} is absent (no ../shared in this clone)",
+            checker.display()
+        );
+        return;
+    }
+    let c = Command::new("python3")
+        .arg(&checker)
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert!(
+        c.status.success(),
+        "check-outputs: {}{}",
+        String::from_utf8_lossy(&c.stdout),
+        String::from_utf8_lossy(&c.stderr)
+    );
+}
+
+#[test]
+fn an_existing_folder_is_kept_without_force_and_after_a_failed_run() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("out");
+    let out_s = out.to_str().unwrap();
+    let survey = demo_survey();
+    let survey_s = survey.to_str().unwrap();
+    let ok = chordline(&[
+        "run", survey_s, "--chord", "20m", "--rail", "left", "--out", out_s,
+    ]);
+    assert!(ok.status.success(), "{}", stderr(&ok));
+    let before = std::fs::read(out.join("stations.csv")).unwrap();
+
+    // Without --force: refused, exit 1, folder untouched.
+    let again = chordline(&[
+        "run", survey_s, "--chord", "20m", "--rail", "left", "--out", out_s,
+    ]);
+    assert_eq!(again.status.code(), Some(1), "{}", stderr(&again));
+    assert!(stderr(&again).contains("--force"), "{}", stderr(&again));
+    assert_eq!(std::fs::read(out.join("stations.csv")).unwrap(), before);
+
+    // A failing run with --force (bad survey): exit 1, message names file and line, folder untouched.
+    let bad = dir.path().join("bad.csv");
+    std::fs::write(&bad, "chainage_m,versine_mm\n0,1\n10,x2\n20,3\n").unwrap();
+    let fail = chordline(&[
+        "run",
+        bad.to_str().unwrap(),
+        "--chord",
+        "20m",
+        "--rail",
+        "left",
+        "--out",
+        out_s,
+        "--force",
+    ]);
+    assert_eq!(fail.status.code(), Some(1), "{}", stderr(&fail));
+    assert!(stderr(&fail).contains("bad.csv:3"), "{}", stderr(&fail));
+    assert_eq!(std::fs::read(out.join("stations.csv")).unwrap(), before);
+    // No staging folders left behind.
+    let leftovers: Vec<_> = std::fs::read_dir(dir.path())
+        .unwrap()
+        .filter_map(|e| e.ok())
+        .map(|e| e.file_name().to_string_lossy().into_owned())
+        .filter(|n| n != "out" && n != "bad.csv")
+        .collect();
+    assert!(leftovers.is_empty(), "left behind: {leftovers:?}");
+}
+
+#[test]
+fn the_same_input_gives_byte_identical_outputs() {
+    let dir = tempfile::tempdir().unwrap();
+    let survey = demo_survey();
+    let mut outputs = Vec::new();
+    for (i, threads) in ["1", "2"].iter().enumerate() {
+        let out = dir.path().join(format!("out{i}"));
+        let o = Command::new(env!("CARGO_BIN_EXE_chordline"))
+            .env("RAYON_NUM_THREADS", threads)
+            .args([
+                "run",
+                survey.to_str().unwrap(),
+                "--chord",
+                "20m",
+                "--rail",
+                "left",
+                "--out",
+            ])
+            .arg(&out)
+            .output()
+            .unwrap();
+        assert!(o.status.success(), "{}", stderr(&o));
+        let mut files: Vec<_> = std::fs::read_dir(&out)
+            .unwrap()
+            .map(|e| e.unwrap().path())
+            .collect();
+        files.sort();
+        outputs.push(
+            files
+                .iter()
+                .map(|p| (p.file_name().unwrap().to_owned(), std::fs::read(p).unwrap()))
+                .collect::<Vec<_>>(),
+        );
+    }
+    assert_eq!(outputs[0], outputs[1]);
+}
+
+#[test]
+fn usage_errors_exit_1_and_help_documents_exit_codes() {
+    let o = chordline(&["run", "x.csv", "--chord", "-20m", "--out", "o"]);
+    assert_eq!(o.status.code(), Some(1));
+    let o = chordline(&["run", "x.csv", "--chord", "20", "--out", "o"]);
+    assert_eq!(o.status.code(), Some(1));
+    assert!(stderr(&o).contains("no unit"), "{}", stderr(&o));
+    let h = chordline(&["--help"]);
+    assert!(h.status.success());
+    let text = String::from_utf8_lossy(&h.stdout);
+    assert!(
+        text.contains("Exit status: 0 success; 1 input or usage error"),
+        "{text}"
+    );
+}
+
+#[test]
+fn demo_says_where_it_wrote() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("demo");
+    let o = chordline(&["demo", "--out", out.to_str().unwrap()]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains(&format!("in {}", out.display())),
+        "{}",
+        stderr(&o)
+    );
+    assert!(out.join("stations.csv").exists());
+}
