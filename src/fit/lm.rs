@@ -43,14 +43,14 @@ pub struct Data<'a> {
     pub hi: f64,
 }
 
-/// The parameter list for a chain with the given held ramp lengths.
-pub fn params(chain: &Chain, hold_len: &[bool]) -> Vec<Param> {
+/// Every parameter of a chain: each ramp's mid-point and length, each free
+/// level. Holds (see [`Chain::held`], [`Chain::joined`]) are applied through
+/// [`reduce_map`].
+pub fn full_params(chain: &Chain) -> Vec<Param> {
     let mut p = Vec::new();
     for j in 0..chain.ramps() {
         p.push(Param::Mid(j));
-        if !hold_len.get(j).copied().unwrap_or(false) {
-            p.push(Param::Len(j));
-        }
+        p.push(Param::Len(j));
     }
     for (i, l) in chain.levels.iter().enumerate() {
         if l.is_free() {
@@ -58,6 +58,60 @@ pub fn params(chain: &Chain, hold_len: &[bool]) -> Vec<Param> {
         }
     }
     p
+}
+
+/// Linear map `T` from the free (reduced) parameters to the full ones:
+/// `δθ_full = T δθ_free`. A held length has no column; a joined plateau `i`
+/// makes ramp `i`'s mid-point follow `mid_{i−1} + (L_{i−1} + L_i)/2`.
+pub fn reduce_map(chain: &Chain) -> DMatrix<f64> {
+    let full = full_params(chain);
+    let m = chain.ramps();
+    let idx = |p: Param| full.iter().position(|q| *q == p).unwrap_or(usize::MAX);
+    // Rows of T per full parameter, built ramp by ramp from the left.
+    let mut free: Vec<Param> = Vec::new();
+    for j in 0..m {
+        let joined = j > 0 && chain.joined.get(j).copied().unwrap_or(false);
+        if !joined {
+            free.push(Param::Mid(j));
+        }
+        if !chain.held.get(j).copied().unwrap_or(false) {
+            free.push(Param::Len(j));
+        }
+    }
+    for (i, l) in chain.levels.iter().enumerate() {
+        if l.is_free() {
+            free.push(Param::Level(i));
+        }
+    }
+    let fidx = |p: Param| free.iter().position(|q| *q == p);
+    let mut tm = DMatrix::zeros(full.len(), free.len());
+    for j in 0..m {
+        // Length row.
+        if let Some(c) = fidx(Param::Len(j)) {
+            tm[(idx(Param::Len(j)), c)] = 1.0;
+        }
+        // Mid row.
+        let r = idx(Param::Mid(j));
+        if let Some(c) = fidx(Param::Mid(j)) {
+            tm[(r, c)] = 1.0;
+        } else {
+            // mid_j = mid_{j-1} + L_{j-1}/2 + L_j/2.
+            let prev = tm.row(idx(Param::Mid(j - 1))).clone_owned();
+            let mut row = prev;
+            let lp = tm.row(idx(Param::Len(j - 1))).clone_owned();
+            let lc = tm.row(idx(Param::Len(j))).clone_owned();
+            row += lp * 0.5 + lc * 0.5;
+            tm.set_row(r, &row);
+        }
+    }
+    for (i, l) in chain.levels.iter().enumerate() {
+        if l.is_free()
+            && let Some(c) = fidx(Param::Level(i))
+        {
+            tm[(idx(Param::Level(i)), c)] = 1.0;
+        }
+    }
+    tm
 }
 
 /// Model versines (chord side) at every reading.
@@ -144,15 +198,14 @@ fn apply(chain: &Chain, par: &[Param], delta: &DVector<f64>, d: &Data) -> Chain 
             }
         }
     }
-    let held: Vec<bool> = (0..c.ramps())
-        .map(|j| !par.contains(&Param::Len(j)))
-        .collect();
-    project(&mut c, &held, d.lo, d.hi);
+    project(&mut c, d.lo, d.hi);
     c
 }
 
-/// Make the chain feasible: lengths ≥ 0, knots ordered and within `[lo, hi]`.
-pub fn project(c: &mut Chain, held: &[bool], lo: f64, hi: f64) {
+/// Make the chain feasible: lengths ≥ 0, knots ordered and within `[lo, hi]`,
+/// held lengths kept, joined plateaus of zero length.
+pub fn project(c: &mut Chain, lo: f64, hi: f64) {
+    let held = c.held.clone();
     let m = c.ramps();
     for l in c.lens.iter_mut() {
         if *l < 0.0 || !l.is_finite() {
@@ -193,6 +246,11 @@ pub fn project(c: &mut Chain, held: &[bool], lo: f64, hi: f64) {
             c.lens[j] = (b1 - b0).max(0.0);
         }
     }
+    for j in 1..m {
+        if c.joined.get(j).copied().unwrap_or(false) {
+            c.mids[j] = c.mids[j - 1] + 0.5 * (c.lens[j - 1] + c.lens[j]);
+        }
+    }
 }
 
 /// How a fit ended.
@@ -206,14 +264,16 @@ pub struct Outcome {
     pub converged: bool,
 }
 
-/// Fit `chain` to the data in place. Ramp `j`'s length is held when
-/// `hold_len[j]`.
-pub fn fit(chain: &mut Chain, hold_len: &[bool], d: &Data, max_iter: usize) -> Outcome {
-    let par = params(chain, hold_len);
-    project(chain, hold_len, d.lo, d.hi);
-    let (mut r, mut j) = jacobian(chain, &par, d);
+/// Fit `chain` to the data in place, respecting its holds.
+pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
+    let par = full_params(chain);
+    let tm = reduce_map(chain);
+    project(chain, d.lo, d.hi);
+    let (mut r, jf) = jacobian(chain, &par, d);
+    let mut j = &jf * &tm;
     let mut rss = r.norm_squared();
-    if par.is_empty() {
+    let np = tm.ncols();
+    if np == 0 {
         return Outcome {
             rss,
             iterations: 0,
@@ -228,7 +288,7 @@ pub fn fit(chain: &mut Chain, hold_len: &[bool], d: &Data, max_iter: usize) -> O
         let jt = j.transpose();
         let jtj = &jt * &j;
         let g = &jt * &r;
-        let maxd = (0..par.len()).map(|i| jtj[(i, i)]).fold(0.0, f64::max);
+        let maxd = (0..np).map(|i| jtj[(i, i)]).fold(0.0, f64::max);
         if maxd <= 0.0 {
             converged = true;
             break;
@@ -236,14 +296,14 @@ pub fn fit(chain: &mut Chain, hold_len: &[bool], d: &Data, max_iter: usize) -> O
         let mut improved = false;
         for _ in 0..12 {
             let mut a = jtj.clone();
-            for i in 0..par.len() {
+            for i in 0..np {
                 a[(i, i)] += lambda * jtj[(i, i)].max(1e-9 * maxd);
             }
             let Some(ch) = a.cholesky() else {
                 lambda *= 10.0;
                 continue;
             };
-            let delta = ch.solve(&g);
+            let delta = &tm * ch.solve(&g);
             let trial = apply(chain, &par, &delta, d);
             let (r2, j2) = jacobian(&trial, &par, d);
             let rss2 = r2.norm_squared();
@@ -251,11 +311,11 @@ pub fn fit(chain: &mut Chain, hold_len: &[bool], d: &Data, max_iter: usize) -> O
                 let rel = (rss - rss2) / rss.max(1e-300);
                 *chain = trial;
                 r = r2;
-                j = j2;
+                j = &j2 * &tm;
                 rss = rss2;
                 lambda = (lambda * 0.3).max(1e-12);
                 improved = true;
-                if rel < 1e-12 {
+                if rel < 1e-10 {
                     converged = true;
                 }
                 break;

@@ -284,13 +284,21 @@ pub struct FitResult {
 /// What a move in the simplification does.
 #[derive(Debug, Clone, Copy)]
 enum Move {
+    /// Hold an arc's curvature at zero: it becomes a straight.
     ZeroLevel(usize),
+    /// Remove an interior plateau: its two ramps become one.
     DropPlateau(usize),
+    /// Remove a ramp between two equal plateaus: they become one.
     MergeRamp(usize),
+    /// Hold a ramp at zero length: a curvature step.
+    CollapseRamp(usize),
+    /// Hold an interior plateau at zero length: the ramps either side meet.
+    JoinPlateau(usize),
 }
 
 fn apply_move(c: &Chain, mv: Move) -> Option<Chain> {
     let mut c = c.clone();
+    let last = c.levels.len() - 1;
     match mv {
         Move::ZeroLevel(i) => {
             if !c.levels[i].is_free() {
@@ -299,16 +307,19 @@ fn apply_move(c: &Chain, mv: Move) -> Option<Chain> {
             c.levels[i] = Level::Zero;
         }
         Move::DropPlateau(i) => {
-            if i == 0 || i >= c.levels.len() - 1 {
+            if i == 0 || i >= last {
                 return None;
             }
             let b0 = c.ramp_start(i - 1);
             let b1 = c.ramp_end(i);
             c.levels.remove(i);
+            c.joined.remove(i);
             c.mids.remove(i);
             c.lens.remove(i);
+            c.held.remove(i);
             c.mids[i - 1] = 0.5 * (b0 + b1);
             c.lens[i - 1] = b1 - b0;
+            c.held[i - 1] = false;
         }
         Move::MergeRamp(j) => {
             let (l0, l1) = (c.levels[j], c.levels[j + 1]);
@@ -319,15 +330,35 @@ fn apply_move(c: &Chain, mv: Move) -> Option<Chain> {
             };
             c.levels[j] = merged;
             c.levels.remove(j + 1);
+            c.joined.remove(j + 1);
+            c.joined[j] = false;
             c.mids.remove(j);
             c.lens.remove(j);
+            c.held.remove(j);
+        }
+        Move::CollapseRamp(j) => {
+            if c.held[j] {
+                return None;
+            }
+            c.held[j] = true;
+            c.lens[j] = 0.0;
+        }
+        Move::JoinPlateau(i) => {
+            if i == 0 || i >= last || c.joined[i] {
+                return None;
+            }
+            c.joined[i] = true;
+            // Meet half-way.
+            let gap = c.ramp_start(i) - c.ramp_end(i - 1);
+            c.mids[i - 1] += 0.5 * gap;
+            c.mids[i] -= 0.5 * gap;
         }
     }
     Some(c)
 }
 
 fn n_params(c: &Chain) -> usize {
-    2 * c.ramps() + c.levels.iter().filter(|l| l.is_free()).count()
+    lm::reduce_map(c).ncols()
 }
 
 struct GroupFit {
@@ -538,7 +569,7 @@ pub fn fit(
     };
     let segs = segment::typed_partition(&s, &kest, &o1);
     let zero_tol = 3.0 * sigma_k / (chord / spacing).max(1.0).sqrt();
-    let mut chain = segment::chain_from_segments(&segs, zero_tol);
+    let mut chain = segment::chain_from_segments(&segs, zero_tol, 0.25 * chord);
     let s_first = s[0];
     let s_last = s[n - 1];
     let ln_n = (n as f64).ln() * opts.penalty;
@@ -548,11 +579,7 @@ pub fn fit(
     let groups = split_groups(&chain, s_first - a, s_last + a, chord);
     let mut fits: Vec<GroupFit> = Vec::new();
     for &(j0, j1) in &groups {
-        let sub = Chain {
-            levels: chain.levels[j0..=j1].to_vec(),
-            mids: chain.mids[j0..j1].to_vec(),
-            lens: chain.lens[j0..j1].to_vec(),
-        };
+        let sub = chain.sub(j0, j1);
         let w_lo = if j0 == 0 {
             f64::NEG_INFINITY
         } else {
@@ -576,7 +603,7 @@ pub fn fit(
             hi,
         };
         let mut sub = sub;
-        let mut out = lm::fit(&mut sub, &[], &data, opts.max_iterations);
+        let mut out = lm::fit(&mut sub, &data, opts.max_iterations);
         // Bottom-up simplification under BIC.
         loop {
             let bic0 = out.rss / s2pen + n_params(&sub) as f64 * ln_n;
@@ -588,10 +615,14 @@ pub fn fit(
             }
             for j in 0..sub.ramps() {
                 moves.push(Move::MergeRamp(j));
+                moves.push(Move::CollapseRamp(j));
+            }
+            for i in 1..sub.levels.len().saturating_sub(1) {
+                moves.push(Move::JoinPlateau(i));
             }
             for mv in moves {
                 if let Some(mut c2) = apply_move(&sub, mv) {
-                    let o2 = lm::fit(&mut c2, &[], &data, opts.max_iterations);
+                    let o2 = lm::fit(&mut c2, &data, opts.max_iterations);
                     let bic = o2.rss / s2pen + n_params(&c2) as f64 * ln_n;
                     if bic < bic0 && best.as_ref().is_none_or(|b| bic < b.0) {
                         best = Some((bic, c2, o2));
@@ -617,16 +648,35 @@ pub fn fit(
         });
     }
     // Reassemble.
+    // A ramp the fit shrank to (almost) nothing is a step: hold it there.
+    for g in fits.iter_mut() {
+        for j in 0..g.chain.ramps() {
+            if g.chain.lens[j] < 1e-3 {
+                g.chain.lens[j] = 0.0;
+                g.chain.held[j] = true;
+            }
+        }
+    }
     let mut levels = Vec::new();
     let mut mids = Vec::new();
     let mut lens = Vec::new();
+    let mut held = Vec::new();
+    let mut joined = Vec::new();
     for (gi, g) in fits.iter().enumerate() {
         let skip = usize::from(gi > 0);
         levels.extend_from_slice(&g.chain.levels[skip..]);
+        joined.extend_from_slice(&g.chain.joined[skip..]);
         mids.extend_from_slice(&g.chain.mids);
         lens.extend_from_slice(&g.chain.lens);
+        held.extend_from_slice(&g.chain.held);
     }
-    chain = Chain { levels, mids, lens };
+    chain = Chain {
+        levels,
+        mids,
+        lens,
+        held,
+        joined,
+    };
 
     // Residuals.
     let model_v: Vec<f64> = s.iter().map(|&x| chain.versine(x, a, eps)).collect();
@@ -645,10 +695,12 @@ pub fn fit(
     let mut blocks: Vec<(usize, DMatrix<f64>)> = Vec::new(); // (first global index, cov)
     let mut ramp_off = 0usize;
     let mut collapsed: Vec<bool> = Vec::new();
+    let mut p_free = 0usize;
     for (gi, g) in fits.iter().enumerate() {
-        let hold: Vec<bool> = g.chain.lens.iter().map(|&l| l < 1e-3).collect();
-        collapsed.extend_from_slice(&hold);
-        let par = lm::params(&g.chain, &hold);
+        collapsed.extend(g.chain.held.iter().zip(&g.chain.lens).map(|(h, l)| *h && *l == 0.0));
+        let par = lm::full_params(&g.chain);
+        let tm = lm::reduce_map(&g.chain);
+        p_free += tm.ncols();
         let data = lm::Data {
             s: &s[g.lo_idx..g.hi_idx],
             v: &v[g.lo_idx..g.hi_idx],
@@ -657,10 +709,12 @@ pub fn fit(
             lo: g.lo,
             hi: g.hi,
         };
-        let (_, jm) = lm::jacobian(&g.chain, &par, &data);
-        let cov = stats::sandwich(&jm, &gamma).unwrap_or_else(|| {
-            DMatrix::from_diagonal_element(par.len(), par.len(), f64::INFINITY)
-        });
+        let (_, jf) = lm::jacobian(&g.chain, &par, &data);
+        let jr = &jf * &tm;
+        let cov = match stats::sandwich(&jr, &gamma) {
+            Some(c) => &tm * c * tm.transpose(),
+            None => DMatrix::from_diagonal_element(par.len(), par.len(), f64::INFINITY),
+        };
         let first = gparams.len();
         for p in &par {
             let gp = match *p {
@@ -680,7 +734,7 @@ pub fn fit(
         cov.view_mut((*first, *first), (k, k)).copy_from(c);
     }
     let index_of = |p: lm::Param| gparams.iter().position(|(_, q)| *q == p);
-    let dof = (n as f64 - p_total as f64).max(1.0);
+    let dof = (n as f64 - p_free as f64).max(1.0);
     let t = stats::t95(dof);
     let var_of = |grad: &[(lm::Param, f64)]| -> f64 {
         let idx: Vec<(usize, f64)> = grad
@@ -917,10 +971,10 @@ pub fn fit(
             chi2_p
         )));
     }
-    let bic = rss / s2pen + p_total as f64 * ln_n;
+    let bic = rss / s2pen + p_free as f64 * ln_n;
     let stats_out = FitStats {
         n,
-        p: p_total,
+        p: p_free,
         rss,
         residual_rms: (rss / n as f64).sqrt(),
         residual_max: (rmax, rmax_s),
@@ -1015,18 +1069,17 @@ fn profile_upper(
                 lo: g.lo,
                 hi: g.hi,
             };
-            let mut hold = vec![false; g.chain.ramps()];
-            hold[jl] = true;
             let mut base = g.chain.clone();
+            base.held[jl] = true;
             base.lens[jl] = 0.0;
-            let r0 = lm::fit(&mut base, &hold, &data, max_iter).rss;
+            let r0 = lm::fit(&mut base, &data, max_iter).rss;
             let mut prev = 0.0;
             let mut prev_d = 0.0;
             for f in [0.125, 0.25, 0.5, 0.75, 1.0, 1.5, 2.0, 3.0, 4.0] {
                 let l = f * 2.0 * a;
                 let mut c = base.clone();
                 c.lens[jl] = l;
-                let r = lm::fit(&mut c, &hold, &data, max_iter).rss;
+                let r = lm::fit(&mut c, &data, max_iter).rss;
                 let dlt = (r - r0) / s2;
                 if dlt >= 3.84 {
                     let w = (3.84 - prev_d) / (dlt - prev_d).max(1e-12);

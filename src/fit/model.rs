@@ -57,6 +57,11 @@ pub struct Chain {
     pub mids: Vec<f64>,
     /// Ramp lengths along the measured rail (m), non-negative.
     pub lens: Vec<f64>,
+    /// Per ramp: length held (not fitted), normally at zero: a curvature step.
+    pub held: Vec<bool>,
+    /// Per plateau: held at zero length (the ramps either side meet), e.g. the
+    /// inflection of a reverse curve. Never set for the first or last plateau.
+    pub joined: Vec<bool>,
 }
 
 /// Unit-ramp double integral `Q` and its derivatives with respect to the ramp
@@ -107,6 +112,27 @@ pub fn marking_epsilon(marking: crate::survey::Marking) -> f64 {
 }
 
 impl Chain {
+    /// A chain with nothing held.
+    pub fn new(levels: Vec<Level>, mids: Vec<f64>, lens: Vec<f64>) -> Self {
+        let (m, k) = (mids.len(), levels.len());
+        Chain {
+            levels,
+            mids,
+            lens,
+            held: vec![false; m],
+            joined: vec![false; k],
+        }
+    }
+    /// The sub-chain of ramps `j0..j1` (levels `j0..=j1`).
+    pub fn sub(&self, j0: usize, j1: usize) -> Chain {
+        Chain {
+            levels: self.levels[j0..=j1].to_vec(),
+            mids: self.mids[j0..j1].to_vec(),
+            lens: self.lens[j0..j1].to_vec(),
+            held: self.held[j0..j1].to_vec(),
+            joined: self.joined[j0..=j1].to_vec(),
+        }
+    }
     /// Number of ramps.
     pub fn ramps(&self) -> usize {
         self.mids.len()

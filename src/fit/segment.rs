@@ -61,8 +61,12 @@ pub struct DpOptions {
     pub max_ramp: f64,
 }
 
-/// White noise of the readings from second differences: `1.4826 MAD/√6` (m).
-/// Robust to the smooth signal and to a few spikes.
+/// White noise of the readings from second differences `v_{i−1} − 2v_i +
+/// v_{i+1}` (variance `6σ²`): the mean square of the smallest 90 % divided by
+/// 0.62297, the mean square of a standard normal variable truncated to its
+/// central 90 % (`1 − 2qφ(q)/0.9`, `q = 1.6449`; derived here). Robust to the
+/// kinks of the signal and to spikes, and unlike a median it does not collapse
+/// to zero when coarse rounding makes most differences exactly zero.
 pub fn white_sigma(v: &[f64]) -> f64 {
     if v.len() < 5 {
         return 0.0;
@@ -71,9 +75,10 @@ pub fn white_sigma(v: &[f64]) -> f64 {
         .windows(3)
         .map(|w| (w[0] - 2.0 * w[1] + w[2]).abs())
         .collect();
-    let mid = d.len() / 2;
-    let (_, m, _) = d.select_nth_unstable_by(mid, |a, b| a.total_cmp(b));
-    1.4826 * *m / 6f64.sqrt()
+    d.sort_by(|a, b| a.total_cmp(b));
+    let keep = ((d.len() as f64 * 0.9).round() as usize).max(1);
+    let ms = d[..keep].iter().map(|x| x * x).sum::<f64>() / keep as f64;
+    (ms / 0.62297 / 6.0).sqrt()
 }
 
 struct Prefix {
@@ -336,7 +341,9 @@ pub fn typed_partition(s: &[f64], k: &[f64], o: &DpOptions) -> Vec<Seg> {
 /// Turn typed segments into a plateau–ramp chain: adjacent plateaus get a
 /// zero-length ramp between them, adjacent ramps a zero-length plateau (held at
 /// zero when the joint curvature is within `zero_tol` of zero).
-pub fn chain_from_segments(segs: &[Seg], zero_tol: f64) -> Chain {
+/// A step (two adjacent plateaus) starts as a ramp `step_len` long, since a
+/// ramp of exactly zero length has no gradient in its length.
+pub fn chain_from_segments(segs: &[Seg], zero_tol: f64, step_len: f64) -> Chain {
     let mut levels = Vec::new();
     let mut mids = Vec::new();
     let mut lens = Vec::new();
@@ -354,7 +361,7 @@ pub fn chain_from_segments(segs: &[Seg], zero_tol: f64) -> Chain {
             SegKind::S | SegKind::A => {
                 if matches!(prev, Some(SegKind::S) | Some(SegKind::A)) {
                     mids.push(sg.start);
-                    lens.push(0.0);
+                    lens.push(step_len);
                 }
                 levels.push(if sg.kind == SegKind::S {
                     Level::Zero
@@ -381,7 +388,7 @@ pub fn chain_from_segments(segs: &[Seg], zero_tol: f64) -> Chain {
     if levels.is_empty() {
         levels.push(Level::Zero);
     }
-    Chain { levels, mids, lens }
+    Chain::new(levels, mids, lens)
 }
 
 /// Effective noise of the readings at the scale of `m` consecutive readings:
