@@ -211,35 +211,37 @@ fn worst(v: &[f64]) -> f64 {
 /// leave zero (first/last |v| > 3σ) and reach/leave the arc value (within
 /// 5 %), radius c²/8v̄ from the mean arc versine, minus the half gauge for the
 /// outer rail.
-fn baseline(ch: &[f64], v: &[f64], chord: f64, d_abs: f64, sd: f64) -> Option<(Vec<f64>, f64)> {
+fn baseline(ch: &[f64], v: &[f64], chord: f64, d_abs: f64) -> Option<(Vec<f64>, f64)> {
     let vmax = v.iter().fold(0.0f64, |m, x| m.max(x.abs()));
-    let top: Vec<f64> = v
+    let mut top: Vec<f64> = v
         .iter()
         .map(|x| x.abs())
         .filter(|x| *x >= 0.8 * vmax)
         .collect();
-    if top.is_empty() {
+    if top.is_empty() || v.len() < 12 {
         return None;
     }
-    let mut sorted = top.clone();
-    sorted.sort_by(|a, b| a.total_cmp(b));
-    let vbar = sorted[sorted.len() / 2];
+    top.sort_by(|a, b| a.total_cmp(b));
+    let vbar = top[top.len() / 2];
     let arc: Vec<f64> = v
         .iter()
         .map(|x| x.abs())
         .filter(|x| (x - vbar).abs() <= 0.05 * vbar)
         .collect();
     let vmean = arc.iter().sum::<f64>() / arc.len() as f64;
-    let thr = 3.0 * sd;
+    // "Zero" is what the first straight reads: three times its RMS, at least 2 mm.
+    let noise = (v[..10].iter().map(|x| x * x).sum::<f64>() / 10.0).sqrt();
+    let thr = (3.0 * noise).max(0.002);
     let first_nz = v.iter().position(|x| x.abs() > thr)?;
     let last_nz = v.iter().rposition(|x| x.abs() > thr)?;
     let first_arc = v.iter().position(|x| x.abs() >= 0.95 * vmean)?;
     let last_arc = v.iter().rposition(|x| x.abs() >= 0.95 * vmean)?;
-    let mut b = vec![ch[first_nz - 1], ch[first_arc]];
-    if first_arc != first_nz - 1 + 1 || true {
-        b.push(ch[last_arc]);
-        b.push(ch[last_nz + 1]);
-    }
+    let b = vec![
+        ch[first_nz.saturating_sub(1)],
+        ch[first_arc],
+        ch[last_arc],
+        ch[(last_nz + 1).min(ch.len() - 1)],
+    ];
     let r_rail = chord * chord / (8.0 * vmean);
     Some((b, r_rail - d_abs))
 }
@@ -326,7 +328,7 @@ fn run_case(case: &Case, seeds: u64) -> Acc {
                 }
             }
             let d_abs = 0.5 * sim.gauge;
-            if let Some((b, r)) = baseline(&ch, &v, sim.chord, d_abs, sim.noise_sd.max(0.001)) {
+            if let Some((b, r)) = baseline(&ch, &v, sim.chord, d_abs) {
                 let nb = if joints.len() == 2 {
                     vec![b[0], b[3]]
                 } else {
@@ -366,6 +368,19 @@ fn speed() {
     let simd = simulate(&al, &sim).expect("simulate");
     let tsim = t0.elapsed().as_secs_f64();
     let setup = Setup::new(20.0, Rail::Right);
+    if std::env::var("FIT_PROFILE").is_ok() {
+        let s: Vec<f64> = simd.survey.readings.iter().filter(|r| r.versine.is_some()).map(|r| r.chainage).collect();
+        let k: Vec<f64> = simd.survey.readings.iter().filter_map(|r| r.chord_side()).map(|v| 2.0 * v / 100.0).collect();
+        let o = chordline::fit::segment::DpOptions { bin: 5.0, sigma_k: 2e-5, log_n: 1.0, min_straight: 10.0, min_arc: 5.0, min_ramp: 20.0, max_ramp: 400.0 };
+        let t2 = Instant::now();
+        let segs = chordline::fit::segment::typed_partition(&s, &k, &o);
+        println!("dp: {:.3} s, {} segments", t2.elapsed().as_secs_f64(), segs.len());
+        let mut o2 = FitOptions::default();
+        o2.max_iterations = 5;
+        let t3 = Instant::now();
+        let _ = fit(&simd.survey, &setup, &o2);
+        println!("fit with 5 iterations: {:.3} s", t3.elapsed().as_secs_f64());
+    }
     let t1 = Instant::now();
     let (res, _) = fit(&simd.survey, &setup, &FitOptions::default()).expect("fit");
     let tfit = t1.elapsed().as_secs_f64();

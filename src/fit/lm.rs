@@ -41,6 +41,9 @@ pub struct Data<'a> {
     pub lo: f64,
     /// Highest admissible knot (m).
     pub hi: f64,
+    /// A fall of the residual sum of squares below this (m²) counts as
+    /// converged: a small fraction of one reading's variance.
+    pub rss_tol: f64,
 }
 
 /// Every parameter of a chain: each ramp's mid-point and length, each free
@@ -293,6 +296,20 @@ pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
             converged = true;
             break;
         }
+        // Gauss–Newton decrement gᵀ(JᵀJ)⁻¹g: the most a full step could gain
+        // on the local quadratic model. Below the tolerance there is nothing
+        // left worth having.
+        let mut ridge = jtj.clone();
+        for i in 0..np {
+            ridge[(i, i)] += 1e-12 * maxd;
+        }
+        if let Some(ch) = ridge.cholesky() {
+            let dec = g.dot(&ch.solve(&g));
+            if dec < d.rss_tol {
+                converged = true;
+                break;
+            }
+        }
         let mut improved = false;
         for _ in 0..12 {
             let mut a = jtj.clone();
@@ -305,17 +322,33 @@ pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
             };
             let delta = &tm * ch.solve(&g);
             let trial = apply(chain, &par, &delta, d);
-            let (r2, j2) = jacobian(&trial, &par, d);
-            let rss2 = r2.norm_squared();
+            let rss2: f64 = d
+                .s
+                .iter()
+                .zip(d.v)
+                .map(|(&s, &vo)| {
+                    let e = vo - trial.versine(s, d.a, d.eps);
+                    e * e
+                })
+                .sum();
             if rss2 <= rss {
                 let rel = (rss - rss2) / rss.max(1e-300);
+                // Largest move of a boundary (m).
+                let step = trial
+                    .mids
+                    .iter()
+                    .zip(&chain.mids)
+                    .chain(trial.lens.iter().zip(&chain.lens))
+                    .map(|(x, y)| (x - y).abs())
+                    .fold(0.0, f64::max);
                 *chain = trial;
+                let (r2, j2) = jacobian(chain, &par, d);
                 r = r2;
                 j = &j2 * &tm;
                 rss = rss2;
                 lambda = (lambda * 0.3).max(1e-12);
                 improved = true;
-                if rel < 1e-10 {
+                if rel < 1e-14 || (rel < 1e-9 && step < 1e-6) {
                     converged = true;
                 }
                 break;

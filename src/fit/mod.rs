@@ -574,6 +574,7 @@ pub fn fit(
     let s_last = s[n - 1];
     let ln_n = (n as f64).ln() * opts.penalty;
     let s2pen = sigma_pen * sigma_pen;
+    let rss_tol = 1e-3 * sigma_white * sigma_white;
 
     // Groups separated by long straights.
     let groups = split_groups(&chain, s_first - a, s_last + a, chord);
@@ -590,6 +591,16 @@ pub fn fit(
         } else {
             0.5 * (chain.ramp_end(j1 - 1) + chain.ramp_start(j1))
         };
+        // Readings far out on a long straight read zero under every model
+        // of this group: leave them out (they add the same RSS to all).
+        let last = sub.levels.len() - 1;
+        let (mut w_lo, mut w_hi) = (w_lo, w_hi);
+        if sub.ramps() > 0 && sub.levels[0] == Level::Zero {
+            w_lo = w_lo.max(sub.ramp_start(0) - 3.0 * chord);
+        }
+        if sub.ramps() > 0 && sub.levels[last] == Level::Zero {
+            w_hi = w_hi.min(sub.ramp_end(sub.ramps() - 1) + 3.0 * chord);
+        }
         let lo_idx = s.partition_point(|&x| x < w_lo);
         let hi_idx = s.partition_point(|&x| x < w_hi);
         let lo = w_lo.max(s_first - a);
@@ -601,6 +612,7 @@ pub fn fit(
             eps,
             lo,
             hi,
+            rss_tol,
         };
         let mut sub = sub;
         let mut out = lm::fit(&mut sub, &data, opts.max_iterations);
@@ -622,8 +634,17 @@ pub fn fit(
             }
             for mv in moves {
                 if let Some(mut c2) = apply_move(&sub, mv) {
-                    let o2 = lm::fit(&mut c2, &data, opts.max_iterations);
-                    let bic = o2.rss / s2pen + n_params(&c2) as f64 * ln_n;
+                    // A short fit first; only promising moves get a full one.
+                    let mut o2 = lm::fit(&mut c2, &data, 8);
+                    let np = n_params(&c2) as f64;
+                    let quick = o2.rss / s2pen + np * ln_n;
+                    if quick > bic0 + 2.0 * ln_n.max(1.0) {
+                        continue;
+                    }
+                    if !o2.converged {
+                        o2 = lm::fit(&mut c2, &data, opts.max_iterations);
+                    }
+                    let bic = o2.rss / s2pen + np * ln_n;
                     if bic < bic0 && best.as_ref().is_none_or(|b| bic < b.0) {
                         best = Some((bic, c2, o2));
                     }
@@ -708,6 +729,7 @@ pub fn fit(
             eps,
             lo: g.lo,
             hi: g.hi,
+            rss_tol,
         };
         let (_, jf) = lm::jacobian(&g.chain, &par, &data);
         let jr = &jf * &tm;
@@ -812,6 +834,7 @@ pub fn fit(
         if is_ramp && collapsed[piece / 2] {
             let j = piece / 2;
             let (hi_l, fitted) = profile_upper(
+                rss_tol,
                 &chain, &fits, &s, &v, a, eps, j, s2pen, opts.max_iterations,
             );
             let what = if kr0 == 0.0 || kr1 == 0.0 {
@@ -1046,6 +1069,7 @@ fn split_groups(chain: &Chain, lo: f64, hi: f64, chord: f64) -> Vec<(usize, usiz
 /// at which holding it costs `3.84 σ²` of residual sum of squares.
 #[allow(clippy::too_many_arguments)]
 fn profile_upper(
+    rss_tol: f64,
     chain: &Chain,
     fits: &[GroupFit],
     s: &[f64],
@@ -1068,6 +1092,7 @@ fn profile_upper(
                 eps,
                 lo: g.lo,
                 hi: g.hi,
+                rss_tol,
             };
             let mut base = g.chain.clone();
             base.held[jl] = true;
