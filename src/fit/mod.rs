@@ -344,7 +344,9 @@ fn apply_move(c: &Chain, mv: Move) -> Option<Chain> {
             c.lens[j] = 0.0;
         }
         Move::JoinPlateau(i) => {
-            if i == 0 || i >= last || c.joined[i] {
+            // Only an inflection (zero curvature) may be a point: a kink
+            // between two transitions at non-zero curvature is no trade element.
+            if i == 0 || i >= last || c.joined[i] || c.levels[i] != Level::Zero {
                 return None;
             }
             c.joined[i] = true;
@@ -385,27 +387,23 @@ struct GroupFit {
 /// # Examples
 /// ```
 /// use chordline::fit::{fit, FitOptions};
-/// use chordline::survey::{Rail, Reading, Setup, Survey};
-/// use chordline::units::{LengthUnit, VersineUnit};
-/// // A straight, then a left-hand 500 m arc read on the right (outer) rail,
-/// // 20 m chord at 10 m stations: v = c²/8R = 100 mm on the arc.
-/// let readings = (0..60)
-///     .map(|i| {
-///         let s = i as f64 * 10.0;
-///         let k = if s < 300.0 { 0.0 } else { 1.0 / 500.0 };
-///         let d = (s - 300.0 + 10.0).clamp(0.0, 20.0); // chord overlap of the arc
-///         let v = 0.5 * k * (d * d / 2.0).min(100.0) + if s >= 310.0 { 0.0 } else { 0.0 };
-///         Reading { chainage: s, versine: Some(if s >= 310.0 { 0.1 } else { v.min(0.1) }),
-///                   rail: Rail::Right, note: None, line: 0 }
-///     })
-///     .collect();
-/// let survey = Survey { source: "doc".into(), chainage_unit: LengthUnit::Metre,
-///     versine_unit: VersineUnit::Millimetre, readings, has_side_column: false };
-/// let setup = Setup::new(20.0, Rail::Right);
-/// let (res, _diags) = fit(&survey, &setup, &FitOptions::default()).unwrap();
-/// assert_eq!(res.elements.len(), 2);
-/// let r = res.elements[1].start_radius.unwrap().value;
-/// assert!((r - 500.7175).abs() < 1.0, "{r}"); // centreline = outer rail radius − half gauge… plus d
+/// use chordline::geometry::{Alignment, Element, ElementKind, Pose};
+/// use chordline::simulate::{simulate, SimSetup};
+/// use chordline::survey::{Rail, Setup};
+/// // Straight, 60 m transition, 450 m left-hand arc, transition, straight,
+/// // read with a 20 m chord every 10 m on the right (outer) rail.
+/// let k = 1.0 / 450.0;
+/// let design = Alignment::new(Pose::default(), 0.0, vec![
+///     Element::straight(200.0), Element::transition(60.0, 0.0, k),
+///     Element::arc(300.0, 450.0), Element::transition(60.0, k, 0.0),
+///     Element::straight(200.0)]);
+/// let sim = simulate(&design, &SimSetup::classic(20.0, Rail::Right)).unwrap();
+/// let (res, _diags) = fit(&sim.survey, &Setup::new(20.0, Rail::Right), &FitOptions::default()).unwrap();
+/// let kinds: Vec<_> = res.elements.iter().map(|e| e.kind).collect();
+/// assert_eq!(kinds, [ElementKind::Straight, ElementKind::Transition, ElementKind::Arc,
+///                    ElementKind::Transition, ElementKind::Straight]);
+/// let r = res.elements[2].start_radius.unwrap().value;
+/// assert!((r - 450.0).abs() < 0.05, "{r}");
 /// ```
 pub fn fit(
     survey: &Survey,
@@ -476,7 +474,8 @@ pub fn fit(
     let mid = gaps.len() / 2;
     gaps.select_nth_unstable_by(mid, |x, y| x.total_cmp(y));
     let spacing = gaps[mid];
-    let sigma_white = segment::white_sigma(&v).max(1e-7);
+    // Floor: 0.01 mm, far below any real reading, keeps noise-free input sane.
+    let sigma_white = segment::white_sigma(&v).max(1e-5);
     let stated = opts.reading_sd.or(setup.reading_sd);
     let sigma0 = stated.unwrap_or(sigma_white).max(sigma_white);
     let kest: Vec<f64> = v.iter().map(|x| 2.0 * x / (a * a)).collect();
@@ -922,6 +921,12 @@ pub fn fit(
         {
             status = ElementStatus::Indeterminate;
             notes.push("radius poorly determined".into());
+        }
+        if is_ramp && kr0 * kr1 < 0.0 {
+            let z = b0 + lr * kr0 / (kr0 - kr1);
+            notes.push(format!(
+                "one transition through zero curvature (reverse curve), inflection at {z:.1} m"
+            ));
         }
         if kind != ElementKind::Straight && !(at_end0 || at_end1) && lr < 0.5 * chord {
             notes.push("shorter than half the chord".into());
