@@ -232,8 +232,11 @@ fn baseline(ch: &[f64], v: &[f64], chord: f64, d_abs: f64) -> Option<(Vec<f64>, 
     // "Zero" is what the first straight reads: three times its RMS, at least 2 mm.
     let noise = (v[..10].iter().map(|x| x * x).sum::<f64>() / 10.0).sqrt();
     let thr = (3.0 * noise).max(0.002);
-    let first_nz = v.iter().position(|x| x.abs() > thr)?;
-    let last_nz = v.iter().rposition(|x| x.abs() > thr)?;
+    // Leaving zero: two readings in a row above the threshold (a lone spike
+    // does not count).
+    let big: Vec<bool> = v.iter().map(|x| x.abs() > thr).collect();
+    let first_nz = (0..v.len() - 1).find(|&i| big[i] && big[i + 1])?;
+    let last_nz = (1..v.len()).rev().find(|&i| big[i] && big[i - 1])?;
     let first_arc = v.iter().position(|x| x.abs() >= 0.95 * vmean)?;
     let last_arc = v.iter().rposition(|x| x.abs() >= 0.95 * vmean)?;
     let b = vec![
@@ -334,6 +337,9 @@ fn run_case(case: &Case, seeds: u64) -> Acc {
                 } else {
                     b.clone()
                 };
+                if std::env::var("BASE_DEBUG").is_ok() {
+                    println!("{nb:?} {joints:?}");
+                }
                 for (x, tj) in nb.iter().zip(&joints) {
                     acc.base_berr.push(x - tj);
                 }
