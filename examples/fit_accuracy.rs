@@ -168,7 +168,10 @@ fn truth(al: &Alignment, sim: &SimSetup) -> (Vec<f64>, Vec<(f64, f64)>) {
     for (i, e) in els.iter().enumerate() {
         if e.kind == ElementKind::Arc {
             let mid = s + 0.5 * e.length;
-            arcs.push((sim.start_chainage + al.offset_length(mid, d), 1.0 / e.k_start));
+            arcs.push((
+                sim.start_chainage + al.offset_length(mid, d),
+                1.0 / e.k_start,
+            ));
         }
         s += e.length;
         if i + 1 < els.len() {
@@ -375,14 +378,40 @@ fn speed() {
     let tsim = t0.elapsed().as_secs_f64();
     let setup = Setup::new(20.0, Rail::Right);
     if std::env::var("FIT_PROFILE").is_ok() {
-        let s: Vec<f64> = simd.survey.readings.iter().filter(|r| r.versine.is_some()).map(|r| r.chainage).collect();
-        let k: Vec<f64> = simd.survey.readings.iter().filter_map(|r| r.chord_side()).map(|v| 2.0 * v / 100.0).collect();
-        let o = chordline::fit::segment::DpOptions { bin: 5.0, sigma_k: 2e-5, log_n: 1.0, min_straight: 10.0, min_arc: 5.0, min_ramp: 20.0, max_ramp: 400.0 };
+        let s: Vec<f64> = simd
+            .survey
+            .readings
+            .iter()
+            .filter(|r| r.versine.is_some())
+            .map(|r| r.chainage)
+            .collect();
+        let k: Vec<f64> = simd
+            .survey
+            .readings
+            .iter()
+            .filter_map(|r| r.chord_side())
+            .map(|v| 2.0 * v / 100.0)
+            .collect();
+        let o = chordline::fit::segment::DpOptions {
+            bin: 5.0,
+            sigma_k: 2e-5,
+            log_n: 1.0,
+            min_straight: 10.0,
+            min_arc: 5.0,
+            min_ramp: 20.0,
+            max_ramp: 400.0,
+        };
         let t2 = Instant::now();
         let segs = chordline::fit::segment::typed_partition(&s, &k, &o);
-        println!("dp: {:.3} s, {} segments", t2.elapsed().as_secs_f64(), segs.len());
-        let mut o2 = FitOptions::default();
-        o2.max_iterations = 5;
+        println!(
+            "dp: {:.3} s, {} segments",
+            t2.elapsed().as_secs_f64(),
+            segs.len()
+        );
+        let o2 = FitOptions {
+            max_iterations: 5,
+            ..FitOptions::default()
+        };
         let t3 = Instant::now();
         let _ = fit(&simd.survey, &setup, &o2);
         println!("fit with 5 iterations: {:.3} s", t3.elapsed().as_secs_f64());
@@ -420,11 +449,7 @@ fn main() {
     for case in cases() {
         let a = run_case(&case, seeds);
         let base = if case.single_curve && !a.base_berr.is_empty() {
-            format!(
-                "{:.2}, {:.2}",
-                rms(&a.base_berr),
-                100.0 * rms(&a.base_rerr)
-            )
+            format!("{:.2}, {:.2}", rms(&a.base_berr), 100.0 * rms(&a.base_rerr))
         } else {
             "n/a".into()
         };

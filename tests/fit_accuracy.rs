@@ -140,7 +140,11 @@ fn curve_without_transitions_is_a_step() {
     for e in boundary_errors(&r, &joints) {
         assert!(e.abs() < 1.0, "boundary off by {e} m");
     }
-    assert!(r.elements[1].note.contains("no transition"), "{}", r.elements[1].note);
+    assert!(
+        r.elements[1].note.contains("no transition"),
+        "{}",
+        r.elements[1].note
+    );
     let rad = r.elements[1].start_radius.expect("radius").value;
     assert!((rad + 600.0).abs() < 3.0, "radius {rad}");
 }
@@ -169,14 +173,27 @@ fn reverse_curve_without_straight_between() {
             (&r.elements[2], &r.elements[5])
         } else {
             assert_eq!(k, [S, T, A, T, A, T, S], "seed {seed}");
-            assert!(r.elements[3].note.contains("inflection"), "{}", r.elements[3].note);
-            let (t0, t1) = (r.elements[3].start_chainage.value, r.elements[3].end_chainage.value);
-            assert!((t0 - joints[2]).abs() < 3.0 && (t1 - joints[4]).abs() < 3.0, "{t0} {t1}");
+            assert!(
+                r.elements[3].note.contains("inflection"),
+                "{}",
+                r.elements[3].note
+            );
+            let (t0, t1) = (
+                r.elements[3].start_chainage.value,
+                r.elements[3].end_chainage.value,
+            );
+            assert!(
+                (t0 - joints[2]).abs() < 3.0 && (t1 - joints[4]).abs() < 3.0,
+                "{t0} {t1}"
+            );
             (&r.elements[2], &r.elements[4])
         };
         let r1 = r1.start_radius.expect("radius").value;
         let r2 = r2.start_radius.expect("radius").value;
-        assert!((r1 - 600.0).abs() < 6.0 && (r2 + 500.0).abs() < 5.0, "{r1} {r2}");
+        assert!(
+            (r1 - 600.0).abs() < 6.0 && (r2 + 500.0).abs() < 5.0,
+            "{r1} {r2}"
+        );
     }
 }
 
@@ -199,7 +216,11 @@ fn tight_curve_radius_is_of_the_centreline() {
     }
     // The centreline arc is shorter than the outer rail's.
     let lr = r.elements[2].end_chainage.value - r.elements[2].start_chainage.value;
-    assert!(r.elements[2].length.value < lr, "{} vs {lr}", r.elements[2].length.value);
+    assert!(
+        r.elements[2].length.value < lr,
+        "{} vs {lr}",
+        r.elements[2].length.value
+    );
 }
 
 #[test]
@@ -222,5 +243,9 @@ fn imperial_survey() {
     }
     let rad = r.elements[2].start_radius.expect("radius").value;
     assert!((rad + 350.0).abs() < 2.0, "radius {rad}");
-    assert!(r.elements.iter().all(|e| e.status == ElementStatus::Determined));
+    assert!(
+        r.elements
+            .iter()
+            .all(|e| e.status == ElementStatus::Determined)
+    );
 }

@@ -85,9 +85,17 @@ fn elements_csv_rows_join_and_hold_no_nan() {
     let se: f64 = rows[2][col("start_radius_se_m")].parse().expect("se");
     assert!(se > 0.0 && se < 3.0, "{se}");
     // Fixed decimals.
-    assert!(rows[2][col("length_m")].split('.').nth(1).is_some_and(|d| d.len() == 3));
+    assert!(
+        rows[2][col("length_m")]
+            .split('.')
+            .nth(1)
+            .is_some_and(|d| d.len() == 3)
+    );
     let table = summary_table(&res, LengthUnit::Metre);
-    assert!(table.contains("transition") && table.contains("arc"), "{table}");
+    assert!(
+        table.contains("transition") && table.contains("arc"),
+        "{table}"
+    );
     let kinds: Vec<&str> = table
         .lines()
         .filter_map(|l| l.split_whitespace().nth(1))
@@ -95,7 +103,14 @@ fn elements_csv_rows_join_and_hold_no_nan() {
         .collect();
     assert_eq!(
         kinds,
-        ["element", "straight", "transition", "arc", "transition", "straight"],
+        [
+            "element",
+            "straight",
+            "transition",
+            "arc",
+            "transition",
+            "straight"
+        ],
         "{table}"
     );
 }
@@ -158,7 +173,11 @@ fn placed_design_lies_on_the_track() {
     for (d, r) in st.iter().zip(&simd.survey.readings) {
         match r.versine {
             Some(v) => {
-                assert!((d.design_versine - v).abs() < 2e-4, "{} vs {v}", d.design_versine);
+                assert!(
+                    (d.design_versine - v).abs() < 2e-4,
+                    "{} vs {v}",
+                    d.design_versine
+                );
                 assert!(d.residual.is_some());
             }
             None => assert!(d.residual.is_none()),
@@ -203,12 +222,20 @@ fn bad_input_is_an_error_not_a_panic() {
         fit(&few, &Setup::new(20.0, Rail::Right), &FitOptions::default()),
         Err(FitError::TooFewReadings { .. })
     ));
-    let e = fit(&simd.survey, &Setup::new(0.0, Rail::Right), &FitOptions::default());
+    let e = fit(
+        &simd.survey,
+        &Setup::new(0.0, Rail::Right),
+        &FitOptions::default(),
+    );
     assert!(matches!(e, Err(FitError::BadSetup { what: "chord", .. })));
     let mut unsorted = simd.survey.clone();
     unsorted.readings.swap(10, 11);
     assert!(matches!(
-        fit(&unsorted, &Setup::new(20.0, Rail::Right), &FitOptions::default()),
+        fit(
+            &unsorted,
+            &Setup::new(20.0, Rail::Right),
+            &FitOptions::default()
+        ),
         Err(FitError::Unsorted { .. })
     ));
     // Non-finite readings are skipped, not fatal.

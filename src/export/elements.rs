@@ -23,7 +23,10 @@ fn num(x: f64, dec: usize) -> String {
     if x.is_finite() {
         let s = format!("{x:.dec$}");
         // No "-0.000".
-        if s.trim_start_matches('-').chars().all(|c| c == '0' || c == '.') {
+        if s.trim_start_matches('-')
+            .chars()
+            .all(|c| c == '0' || c == '.')
+        {
             s.trim_start_matches('-').to_string()
         } else {
             s
@@ -166,12 +169,23 @@ pub fn summary_table(fit: &FitResult, unit: LengthUnit) -> String {
         let start = if e.starts_at_survey_end {
             format!("[{}]", f(e.start_chainage.value))
         } else {
-            format!("{}±{}", f(e.start_chainage.value), num(unit.from_m(e.start_chainage.hi95 - e.start_chainage.value), 1))
+            format!(
+                "{}±{}",
+                f(e.start_chainage.value),
+                num(
+                    unit.from_m(e.start_chainage.hi95 - e.start_chainage.value),
+                    1
+                )
+            )
         };
         let end = if e.ends_at_survey_end {
             format!("[{}]", f(e.end_chainage.value))
         } else {
-            format!("{}±{}", f(e.end_chainage.value), num(unit.from_m(e.end_chainage.hi95 - e.end_chainage.value), 1))
+            format!(
+                "{}±{}",
+                f(e.end_chainage.value),
+                num(unit.from_m(e.end_chainage.hi95 - e.end_chainage.value), 1)
+            )
         };
         let rad = |r: Option<Estimate>| match r {
             None => "straight".to_string(),
@@ -230,7 +244,11 @@ pub fn summary_table(fit: &FitResult, unit: LengthUnit) -> String {
             "reading bias on the straights: {} ± {} {vs} (standard error){}\n",
             num(vu.from_m(b), vdec + 1),
             num(vu.from_m(se), vdec + 1),
-            if st.bias_removed { ", removed before the fit" } else { "" }
+            if st.bias_removed {
+                ", removed before the fit"
+            } else {
+                ""
+            }
         ));
     }
     s.push_str("Chainages along the measured rail; lengths and radii of the track centreline, positive radius curving left. [x]: survey end, not a boundary.\n");

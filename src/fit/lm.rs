@@ -229,7 +229,10 @@ pub fn project(c: &mut Chain, lo: f64, hi: f64) {
             if v1 > v2 {
                 blocks.pop();
                 let last = blocks.len() - 1;
-                blocks[last] = ((v1 * n1 as f64 + v2 * n2 as f64) / (n1 + n2) as f64, n1 + n2);
+                blocks[last] = (
+                    (v1 * n1 as f64 + v2 * n2 as f64) / (n1 + n2) as f64,
+                    n1 + n2,
+                );
             } else {
                 break;
             }
@@ -322,15 +325,14 @@ pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
             };
             let delta = &tm * ch.solve(&g);
             let trial = apply(chain, &par, &delta, d);
-            let rss2: f64 = d
-                .s
-                .iter()
-                .zip(d.v)
-                .map(|(&s, &vo)| {
-                    let e = vo - trial.versine(s, d.a, d.eps);
-                    e * e
-                })
-                .sum();
+            let rss2: f64 =
+                d.s.iter()
+                    .zip(d.v)
+                    .map(|(&s, &vo)| {
+                        let e = vo - trial.versine(s, d.a, d.eps);
+                        e * e
+                    })
+                    .sum();
             if rss2 <= rss {
                 let rel = (rss - rss2) / rss.max(1e-300);
                 // Largest move of a boundary (m).

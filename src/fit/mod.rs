@@ -145,9 +145,6 @@ impl Estimate {
             hi95: value + t * se,
         }
     }
-    fn exact(value: f64) -> Self {
-        Estimate::new(value, 0.0, 0.0)
-    }
 }
 
 /// Whether an element is resolved by the data.
@@ -369,7 +366,6 @@ struct GroupFit {
     hi_idx: usize,
     lo: f64,
     hi: f64,
-    rss: f64,
     converged: bool,
 }
 
@@ -424,7 +420,7 @@ pub fn fit(
         });
     }
     for w in survey.readings.windows(2) {
-        if !(w[1].chainage > w[0].chainage) {
+        if w[1].chainage.partial_cmp(&w[0].chainage) != Some(std::cmp::Ordering::Greater) {
             return Err(FitError::Unsorted {
                 source_name: survey.source.clone(),
                 chainage: w[1].chainage,
@@ -460,7 +456,11 @@ pub fn fit(
     }
     let n = s.len();
     let rail = if survey.has_side_column {
-        if n_left * 2 >= n { Rail::Left } else { Rail::Right }
+        if n_left * 2 >= n {
+            Rail::Left
+        } else {
+            Rail::Right
+        }
     } else {
         setup.rail
     };
@@ -576,7 +576,7 @@ pub fn fit(
     let rss_tol = 1e-3 * sigma_white * sigma_white;
 
     // Groups separated by long straights.
-    let groups = split_groups(&chain, s_first - a, s_last + a, chord);
+    let groups = split_groups(&chain, chord);
     let mut fits: Vec<GroupFit> = Vec::new();
     for &(j0, j1) in &groups {
         let sub = chain.sub(j0, j1);
@@ -663,7 +663,6 @@ pub fn fit(
             hi_idx,
             lo,
             hi,
-            rss: out.rss,
             converged: out.converged,
         });
     }
@@ -717,7 +716,13 @@ pub fn fit(
     let mut collapsed: Vec<bool> = Vec::new();
     let mut p_free = 0usize;
     for (gi, g) in fits.iter().enumerate() {
-        collapsed.extend(g.chain.held.iter().zip(&g.chain.lens).map(|(h, l)| *h && *l == 0.0));
+        collapsed.extend(
+            g.chain
+                .held
+                .iter()
+                .zip(&g.chain.lens)
+                .map(|(h, l)| *h && *l == 0.0),
+        );
         let par = lm::full_params(&g.chain);
         let tm = lm::reduce_map(&g.chain);
         p_free += tm.ncols();
@@ -786,12 +791,12 @@ pub fn fit(
     // Knot k: 2j = start of ramp j, 2j+1 = end; gradients in (mid, len).
     let knot_grad = |k: usize| -> Vec<(lm::Param, f64)> {
         let j = k / 2;
-        let sign = if k % 2 == 0 { -0.5 } else { 0.5 };
+        let sign = if k.is_multiple_of(2) { -0.5 } else { 0.5 };
         vec![(lm::Param::Mid(j), 1.0), (lm::Param::Len(j), sign)]
     };
     let knot = |k: usize| -> f64 {
         let j = k / 2;
-        if k % 2 == 0 {
+        if k.is_multiple_of(2) {
             chain.ramp_start(j)
         } else {
             chain.ramp_end(j)
@@ -834,7 +839,14 @@ pub fn fit(
             let j = piece / 2;
             let (hi_l, fitted) = profile_upper(
                 rss_tol,
-                &chain, &fits, &s, &v, a, eps, j, s2pen, opts.max_iterations,
+                &fits,
+                &s,
+                &v,
+                a,
+                eps,
+                j,
+                s2pen,
+                opts.max_iterations,
             );
             let what = if kr0 == 0.0 || kr1 == 0.0 {
                 "no transition: the arc meets the straight directly"
@@ -957,14 +969,16 @@ pub fn fit(
             k_start: centre_k(kr0),
             k_end: centre_k(kr1),
         });
-        let _ = Estimate::exact;
     }
     // Make consecutive rows join exactly.
     for i in 1..elements.len() {
         let prev_end = elements[i - 1].end_chainage;
         elements[i].start_chainage = prev_end;
     }
-    for e in elements.iter().filter(|e| e.status == ElementStatus::Indeterminate) {
+    for e in elements
+        .iter()
+        .filter(|e| e.status == ElementStatus::Indeterminate)
+    {
         diags.push(
             Diagnostic::note(format!(
                 "{} from {:.1} m to {:.1} m is not resolved at a {:.2} m chord: {}",
@@ -974,7 +988,9 @@ pub fn fit(
                 chord,
                 e.note
             ))
-            .hint("read its interval, not its value; a shorter chord or denser readings resolve it"),
+            .hint(
+                "read its interval, not its value; a shorter chord or denser readings resolve it",
+            ),
         );
     }
     let design = Alignment::new(Pose::default(), start_s, design_elems);
@@ -1019,7 +1035,6 @@ pub fn fit(
         groups: fits.len(),
         converged: fits.iter().all(|g| g.converged),
     };
-    let _ = fits.iter().map(|g| g.rss).sum::<f64>();
     // Per reading, including gaps.
     let bias_shift = if bias_removed {
         bias.map(|b| b.0).unwrap_or(0.0)
@@ -1052,7 +1067,7 @@ pub fn fit(
 }
 
 /// Ramp index ranges `[j0, j1)` between straights longer than `2c + 10 m`.
-fn split_groups(chain: &Chain, lo: f64, hi: f64, chord: f64) -> Vec<(usize, usize)> {
+fn split_groups(chain: &Chain, chord: f64) -> Vec<(usize, usize)> {
     let m = chain.ramps();
     let mut cuts = vec![0usize];
     for i in 1..m {
@@ -1062,7 +1077,6 @@ fn split_groups(chain: &Chain, lo: f64, hi: f64, chord: f64) -> Vec<(usize, usiz
         }
     }
     cuts.push(m);
-    let _ = (lo, hi);
     let mut g: Vec<(usize, usize)> = cuts.windows(2).map(|w| (w[0], w[1])).collect();
     if g.is_empty() {
         g.push((0, 0));
@@ -1075,7 +1089,6 @@ fn split_groups(chain: &Chain, lo: f64, hi: f64, chord: f64) -> Vec<(usize, usiz
 #[allow(clippy::too_many_arguments)]
 fn profile_upper(
     rss_tol: f64,
-    chain: &Chain,
     fits: &[GroupFit],
     s: &[f64],
     v: &[f64],
@@ -1122,7 +1135,6 @@ fn profile_upper(
         }
         off += g.chain.ramps();
     }
-    let _ = chain;
     (0.0, false)
 }
 

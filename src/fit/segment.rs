@@ -169,8 +169,7 @@ pub fn typed_partition(s: &[f64], k: &[f64], o: &DpOptions) -> Vec<Seg> {
     };
     let mut pos = Vec::with_capacity(nb + 1);
     pos.push(s[0] - half_first);
-    for b in 1..nb {
-        let i = bin_first[b];
+    for &i in &bin_first[1..nb] {
         pos.push(0.5 * (s[i - 1] + s[i]));
     }
     pos.push(s[n_read - 1] + half_last);

@@ -44,8 +44,8 @@ pub fn sandwich(j: &DMatrix<f64>, gamma: &[f64]) -> Option<DMatrix<f64>> {
         if !nz[i] {
             continue;
         }
-        for h in 0..=hmax {
-            let w = gamma[h] * (1.0 - h as f64 / (hmax as f64 + 1.0));
+        for (h, &g) in gamma.iter().enumerate() {
+            let w = g * (1.0 - h as f64 / (hmax as f64 + 1.0));
             if w == 0.0 {
                 continue;
             }
