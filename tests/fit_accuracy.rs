@@ -249,3 +249,23 @@ fn imperial_survey() {
             .all(|e| e.status == ElementStatus::Determined)
     );
 }
+
+#[test]
+fn survey_starting_inside_a_curve() {
+    let els = vec![
+        Element::arc(200.0, 500.0),
+        tr(60.0, 500.0, 0.0),
+        Element::straight(300.0),
+    ];
+    let (r, joints) = run(&els, &noisy(20.0, 5.0, Rail::Right, 2));
+    assert_eq!(kinds(&r), [A, T, S]);
+    assert!(r.elements[0].starts_at_survey_end);
+    for e in boundary_errors(&r, &joints) {
+        assert!(e.abs() < 1.5, "boundary off by {e} m");
+    }
+    let rad = r.elements[0].start_radius.expect("radius");
+    assert!(
+        (rad.value - 500.0).abs() < 4.0 * rad.se && rad.se < 1.5,
+        "radius {rad:?}"
+    );
+}
