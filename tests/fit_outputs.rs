@@ -290,3 +290,32 @@ fn dense_readings_short_transition_is_flagged_or_found() {
         None => assert!(arc.note.contains("cannot be excluded"), "{}", arc.note),
     }
 }
+
+#[test]
+fn pipeline_integrate_fit_place_write_stations() {
+    use chordline::export::stations::write_stations;
+    use chordline::integrate::{IntegrateOptions, integrate};
+    let simd = simulate(&design(), &sim(6, 0.0005)).expect("simulate");
+    let setup = Setup::new(20.0, Rail::Right);
+    let (plan, _) = integrate(&simd.survey, &setup, &IntegrateOptions::default()).expect("plan");
+    let (res, _) = fit(&simd.survey, &setup, &FitOptions::default()).expect("fit");
+    let pts: Vec<(f64, f64, f64)> = plan
+        .stations
+        .iter()
+        .map(|s| (s.chainage, s.x, s.y))
+        .collect();
+    let placed = res.place(&pts);
+    let design = res.design_at_stations(&placed);
+    assert_eq!(design.len(), plan.stations.len());
+    // The placed design follows the integrated centreline closely.
+    let worst = design
+        .iter()
+        .zip(&plan.stations)
+        .map(|(d, s)| (d.x - s.x).hypot(d.y - s.y))
+        .fold(0.0f64, f64::max);
+    assert!(worst < 0.5, "design is {worst} m from the integrated plan");
+    let mut out = Vec::new();
+    write_stations(&mut out, &plan, LengthUnit::Metre, Some(&design)).expect("write");
+    let text = String::from_utf8(out).expect("utf8");
+    assert!(text.lines().next().is_some_and(|h| h.contains("design_versine_mm")));
+}

@@ -1246,6 +1246,25 @@ impl FitResult {
             .collect()
     }
 
+    /// The design columns of `stations.csv`, one per survey reading (gaps
+    /// included, in survey order), for a design placed with
+    /// [`FitResult::place`]. A gap has no residual; it is written as 0 there
+    /// (use [`FitResult::station_design`] to tell gaps apart).
+    pub fn design_at_stations(
+        &self,
+        placed: &Alignment,
+    ) -> Vec<crate::export::stations::DesignAtStation> {
+        self.station_design(placed)
+            .into_iter()
+            .map(|d| crate::export::stations::DesignAtStation {
+                design_versine: d.design_versine,
+                residual: d.residual.unwrap_or(0.0),
+                x: d.x,
+                y: d.y,
+            })
+            .collect()
+    }
+
     /// Curvature of the fitted design on the measured rail at survey
     /// chainage `ch` (1/m, positive left).
     pub fn rail_curvature(&self, ch: f64) -> f64 {
