@@ -26,6 +26,27 @@ struct Case {
     elements: Vec<Element>,
     sim: SimSetup,
     single_curve: bool,
+    /// Cap on the number of seeds (long cases).
+    max_seeds: Option<u64>,
+}
+
+/// 17 km: 15 curves of R 350–5000 m (transitions 40–120 m, arcs 150–400 m)
+/// separated by 700 m straights.
+fn long_line() -> Vec<Element> {
+    let mut els = vec![Element::straight(300.0)];
+    let radii = [
+        350.0, -600.0, 900.0, -1200.0, 2000.0, -5000.0, 450.0, -800.0, 1500.0, -3000.0, 700.0,
+        -400.0, 1000.0, -2500.0, 600.0,
+    ];
+    for (i, &r) in radii.iter().enumerate() {
+        let lt = [60.0, 80.0, 100.0, 40.0, 120.0][i % 5];
+        let la = [250.0, 150.0, 400.0, 300.0, 200.0][i % 5];
+        els.push(t(lt, 0.0, r));
+        els.push(Element::arc(la, r));
+        els.push(t(lt, r, 0.0));
+        els.push(Element::straight(700.0));
+    }
+    els
 }
 
 fn sc(chord: f64, spacing: f64, rail: Rail) -> SimSetup {
@@ -57,18 +78,54 @@ fn cases() -> Vec<Case> {
     imp.resolution = INCH / 8.0;
     let mut wire = sc(20.0, 2.5, Rail::Right);
     wire.marking = Marking::Wire;
+    let mut irr2 = sc(20.0, 2.5, Rail::Left);
+    irr2.irregularity_rms = 0.002;
+    let mut long = sc(20.0, 0.25, Rail::Right);
+    long.noise_sd = 0.0005;
+    long.resolution = 0.0001;
+    let mut long_irr = long.clone();
+    long_irr.irregularity_rms = 0.0015;
     vec![
+        Case {
+            name: "17 km line, 15 curves R 350–5000 m, 0.25 m spacing, 0.5 mm noise",
+            elements: long_line(),
+            sim: long,
+            single_curve: false,
+            max_seeds: Some(3),
+        },
+        Case {
+            name: "same 17 km line with 1.5 mm RMS irregularity",
+            elements: long_line(),
+            sim: long_irr,
+            single_curve: false,
+            max_seeds: Some(3),
+        },
+        Case {
+            name: "simple curve, 2 mm RMS irregularity, read every 2.5 m",
+            elements: vec![
+                Element::straight(200.0),
+                t(60.0, 0.0, -450.0),
+                Element::arc(300.0, -450.0),
+                t(60.0, -450.0, 0.0),
+                Element::straight(200.0),
+            ],
+            sim: irr2,
+            single_curve: true,
+            max_seeds: None,
+        },
         Case {
             name: "simple curve (R 450, L 60), 20 m chord / 10 m",
             elements: simple.clone(),
             sim: sc(20.0, 10.0, Rail::Right),
             single_curve: true,
+            max_seeds: None,
         },
         Case {
             name: "same, lateral irregularity 1.5 mm RMS (3–70 m)",
             elements: simple.clone(),
             sim: irr,
             single_curve: true,
+            max_seeds: None,
         },
         Case {
             name: "reverse curve, 30 m straight between",
@@ -85,6 +142,7 @@ fn cases() -> Vec<Case> {
             ],
             sim: sc(20.0, 10.0, Rail::Right),
             single_curve: false,
+            max_seeds: None,
         },
         Case {
             name: "reverse curve, no straight between",
@@ -100,6 +158,7 @@ fn cases() -> Vec<Case> {
             ],
             sim: sc(20.0, 10.0, Rail::Left),
             single_curve: false,
+            max_seeds: None,
         },
         Case {
             name: "compound curve (R 800 → 400 via 40 m transition)",
@@ -114,6 +173,7 @@ fn cases() -> Vec<Case> {
             ],
             sim: sc(20.0, 10.0, Rail::Right),
             single_curve: false,
+            max_seeds: None,
         },
         Case {
             name: "curve without transitions (R 600)",
@@ -124,6 +184,7 @@ fn cases() -> Vec<Case> {
             ],
             sim: sc(20.0, 10.0, Rail::Left),
             single_curve: true,
+            max_seeds: None,
         },
         Case {
             name: "tight curve (R 180, L 40), outer rail",
@@ -136,6 +197,7 @@ fn cases() -> Vec<Case> {
             ],
             sim: sc(20.0, 10.0, Rail::Left),
             single_curve: true,
+            max_seeds: None,
         },
         Case {
             name: "imperial 62 ft chord / 31 ft, readings to 1/8 in",
@@ -148,12 +210,14 @@ fn cases() -> Vec<Case> {
             ],
             sim: imp,
             single_curve: true,
+            max_seeds: None,
         },
         Case {
             name: "fixed wire read every 2.5 m (R 450, L 60)",
             elements: simple,
             sim: wire,
             single_curve: true,
+            max_seeds: None,
         },
     ]
 }
@@ -256,6 +320,7 @@ fn run_case(case: &Case, seeds: u64) -> Acc {
     let al = Alignment::new(Pose::default(), 0.0, case.elements.clone());
     let (joints, arcs) = truth(&al, &case.sim);
     let mut acc = Acc::default();
+    let seeds = case.max_seeds.map_or(seeds, |m| m.min(seeds));
     for seed in 1..=seeds {
         let mut sim = case.sim.clone();
         sim.seed = seed;
@@ -355,20 +420,8 @@ fn run_case(case: &Case, seeds: u64) -> Acc {
 }
 
 fn speed() {
-    // 20 km, 15 curves of R 350–5000 m, read every 0.25 m with a 20 m chord.
-    let mut els = vec![Element::straight(300.0)];
-    let radii = [
-        350.0, -600.0, 900.0, -1200.0, 2000.0, -5000.0, 450.0, -800.0, 1500.0, -3000.0, 700.0,
-        -400.0, 1000.0, -2500.0, 600.0,
-    ];
-    for (i, &r) in radii.iter().enumerate() {
-        let lt = [60.0, 80.0, 100.0, 40.0, 120.0][i % 5];
-        let la = [250.0, 150.0, 400.0, 300.0, 200.0][i % 5];
-        els.push(t(lt, 0.0, r));
-        els.push(Element::arc(la, r));
-        els.push(t(lt, r, 0.0));
-        els.push(Element::straight(700.0));
-    }
+    // The 17 km line read every 0.25 m with a 20 m chord.
+    let els = long_line();
     let al = Alignment::new(Pose::default(), 0.0, els.clone());
     let mut sim = sc(20.0, 0.25, Rail::Right);
     sim.noise_sd = 0.0005;
