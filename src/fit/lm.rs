@@ -1,0 +1,373 @@
+//! Levenberg–Marquardt fit of a plateau–ramp chain to the readings, in
+//! versine (chord) space, with the analytic Jacobian of [`super::model`].
+//!
+//! Parameters: each ramp's mid-point and length (the length can be held), and
+//! each free plateau level. Ramp lengths are kept non-negative and the ramps
+//! in order (plateau lengths non-negative) by projecting every step
+//! (pool-adjacent-violators on the knot sequence), so a ramp may shrink to a
+//! step and a plateau to a point; such parameters are reported as at a bound.
+//!
+//! ## Reference
+//! Marquardt, "An algorithm for least-squares estimation of nonlinear
+//! parameters", J. SIAM 11(2), 1963; Nocedal & Wright, *Numerical
+//! Optimization*, 2nd ed., 2006, ch. 10.
+
+use super::model::{Chain, Level, ramp_versine};
+use nalgebra::{DMatrix, DVector};
+
+/// One fitted parameter.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Param {
+    /// Mid-point of ramp `j` (m).
+    Mid(usize),
+    /// Length of ramp `j` (m).
+    Len(usize),
+    /// Level of plateau `i` (1/m).
+    Level(usize),
+}
+
+/// Readings of one group.
+#[derive(Debug, Clone, Copy)]
+pub struct Data<'a> {
+    /// Chainages (m), sorted.
+    pub s: &'a [f64],
+    /// Chord-side versines (m).
+    pub v: &'a [f64],
+    /// Half chord (m).
+    pub a: f64,
+    /// Finite-angle factor.
+    pub eps: f64,
+    /// Lowest admissible knot (m).
+    pub lo: f64,
+    /// Highest admissible knot (m).
+    pub hi: f64,
+    /// A fall of the residual sum of squares below this (m²) counts as
+    /// converged: a small fraction of one reading's variance.
+    pub rss_tol: f64,
+}
+
+/// Every parameter of a chain: each ramp's mid-point and length, each free
+/// level. Holds (see [`Chain::held`], [`Chain::joined`]) are applied through
+/// [`reduce_map`].
+pub fn full_params(chain: &Chain) -> Vec<Param> {
+    let mut p = Vec::new();
+    for j in 0..chain.ramps() {
+        p.push(Param::Mid(j));
+        p.push(Param::Len(j));
+    }
+    for (i, l) in chain.levels.iter().enumerate() {
+        if l.is_free() {
+            p.push(Param::Level(i));
+        }
+    }
+    p
+}
+
+/// Linear map `T` from the free (reduced) parameters to the full ones:
+/// `δθ_full = T δθ_free`. A held length has no column; a joined plateau `i`
+/// makes ramp `i`'s mid-point follow `mid_{i−1} + (L_{i−1} + L_i)/2`.
+pub fn reduce_map(chain: &Chain) -> DMatrix<f64> {
+    let full = full_params(chain);
+    let m = chain.ramps();
+    let idx = |p: Param| full.iter().position(|q| *q == p).unwrap_or(usize::MAX);
+    // Rows of T per full parameter, built ramp by ramp from the left.
+    let mut free: Vec<Param> = Vec::new();
+    for j in 0..m {
+        let joined = j > 0 && chain.joined.get(j).copied().unwrap_or(false);
+        if !joined {
+            free.push(Param::Mid(j));
+        }
+        if !chain.held.get(j).copied().unwrap_or(false) {
+            free.push(Param::Len(j));
+        }
+    }
+    for (i, l) in chain.levels.iter().enumerate() {
+        if l.is_free() {
+            free.push(Param::Level(i));
+        }
+    }
+    let fidx = |p: Param| free.iter().position(|q| *q == p);
+    let mut tm = DMatrix::zeros(full.len(), free.len());
+    for j in 0..m {
+        // Length row.
+        if let Some(c) = fidx(Param::Len(j)) {
+            tm[(idx(Param::Len(j)), c)] = 1.0;
+        }
+        // Mid row.
+        let r = idx(Param::Mid(j));
+        if let Some(c) = fidx(Param::Mid(j)) {
+            tm[(r, c)] = 1.0;
+        } else {
+            // mid_j = mid_{j-1} + L_{j-1}/2 + L_j/2.
+            let prev = tm.row(idx(Param::Mid(j - 1))).clone_owned();
+            let mut row = prev;
+            let lp = tm.row(idx(Param::Len(j - 1))).clone_owned();
+            let lc = tm.row(idx(Param::Len(j))).clone_owned();
+            row += lp * 0.5 + lc * 0.5;
+            tm.set_row(r, &row);
+        }
+    }
+    for (i, l) in chain.levels.iter().enumerate() {
+        if l.is_free()
+            && let Some(c) = fidx(Param::Level(i))
+        {
+            tm[(idx(Param::Level(i)), c)] = 1.0;
+        }
+    }
+    tm
+}
+
+/// Model versines (chord side) at every reading.
+pub fn predict(chain: &Chain, d: &Data) -> Vec<f64> {
+    d.s.iter().map(|&s| chain.versine(s, d.a, d.eps)).collect()
+}
+
+/// Residuals `v − v̂` and the Jacobian `∂v̂/∂θ` (rows: readings).
+pub fn jacobian(chain: &Chain, par: &[Param], d: &Data) -> (DVector<f64>, DMatrix<f64>) {
+    let n = d.s.len();
+    let m = chain.ramps();
+    let mut col_mid = vec![usize::MAX; m];
+    let mut col_len = vec![usize::MAX; m];
+    let mut col_lvl = vec![usize::MAX; chain.levels.len()];
+    for (c, p) in par.iter().enumerate() {
+        match *p {
+            Param::Mid(j) => col_mid[j] = c,
+            Param::Len(j) => col_len[j] = c,
+            Param::Level(i) => col_lvl[i] = c,
+        }
+    }
+    let a = d.a;
+    let half_a2 = 0.5 * a * a;
+    let mut jm = DMatrix::zeros(n, par.len());
+    let mut r = DVector::zeros(n);
+    let mut dd = vec![0.0; m];
+    for (row, (&s, &vo)) in d.s.iter().zip(d.v).enumerate() {
+        let mut v = chain.levels[0].value() * half_a2;
+        let mut first = m;
+        for j in 0..m {
+            let b = chain.ramp_start(j);
+            if b - a >= s {
+                for x in dd.iter_mut().skip(j) {
+                    *x = 0.0;
+                }
+                break;
+            }
+            if first == m {
+                first = j;
+            }
+            let dk = chain.levels[j + 1].value() - chain.levels[j].value();
+            let (dv, dbs, dbe) = ramp_versine(s, b, chain.lens[j], a);
+            dd[j] = dv;
+            v += dk * dv;
+            if dbs != 0.0 || dbe != 0.0 {
+                if col_mid[j] != usize::MAX {
+                    jm[(row, col_mid[j])] = dk * (dbs + dbe);
+                }
+                if col_len[j] != usize::MAX {
+                    jm[(row, col_len[j])] = dk * 0.5 * (dbe - dbs);
+                }
+            }
+        }
+        for (i, &c) in col_lvl.iter().enumerate() {
+            if c == usize::MAX {
+                continue;
+            }
+            let before = if i == 0 { half_a2 } else { dd[i - 1] };
+            let after = if i < m { dd[i] } else { 0.0 };
+            jm[(row, c)] = before - after;
+        }
+        let f = 1.0 + 3.0 * d.eps * v * v / (a * a);
+        if f != 1.0 {
+            for c in 0..par.len() {
+                jm[(row, c)] *= f;
+            }
+        }
+        let vm = v * (1.0 + d.eps * v * v / (a * a));
+        r[row] = vo - vm;
+    }
+    (r, jm)
+}
+
+fn apply(chain: &Chain, par: &[Param], delta: &DVector<f64>, d: &Data) -> Chain {
+    let mut c = chain.clone();
+    for (k, p) in par.iter().enumerate() {
+        match *p {
+            Param::Mid(j) => c.mids[j] += delta[k],
+            Param::Len(j) => c.lens[j] += delta[k],
+            Param::Level(i) => {
+                if let Level::Free(x) = c.levels[i] {
+                    c.levels[i] = Level::Free(x + delta[k]);
+                }
+            }
+        }
+    }
+    project(&mut c, d.lo, d.hi);
+    c
+}
+
+/// Make the chain feasible: lengths ≥ 0, knots ordered and within `[lo, hi]`,
+/// held lengths kept, joined plateaus of zero length.
+pub fn project(c: &mut Chain, lo: f64, hi: f64) {
+    let held = c.held.clone();
+    let m = c.ramps();
+    for l in c.lens.iter_mut() {
+        if *l < 0.0 || !l.is_finite() {
+            *l = 0.0;
+        }
+    }
+    let mut knots: Vec<f64> = (0..m)
+        .flat_map(|j| [c.ramp_start(j), c.ramp_end(j)])
+        .map(|k| k.clamp(lo, hi))
+        .collect();
+    // Pool adjacent violators (unweighted isotonic regression).
+    let mut blocks: Vec<(f64, usize)> = Vec::with_capacity(knots.len());
+    for &k in &knots {
+        blocks.push((k, 1));
+        while blocks.len() > 1 {
+            let (v2, n2) = blocks[blocks.len() - 1];
+            let (v1, n1) = blocks[blocks.len() - 2];
+            if v1 > v2 {
+                blocks.pop();
+                let last = blocks.len() - 1;
+                blocks[last] = (
+                    (v1 * n1 as f64 + v2 * n2 as f64) / (n1 + n2) as f64,
+                    n1 + n2,
+                );
+            } else {
+                break;
+            }
+        }
+    }
+    let mut i = 0;
+    for (v, n) in blocks {
+        for _ in 0..n {
+            knots[i] = v;
+            i += 1;
+        }
+    }
+    for j in 0..m {
+        let (b0, b1) = (knots[2 * j], knots[2 * j + 1]);
+        c.mids[j] = 0.5 * (b0 + b1);
+        if !held.get(j).copied().unwrap_or(false) {
+            c.lens[j] = (b1 - b0).max(0.0);
+        }
+    }
+    for j in 1..m {
+        if c.joined.get(j).copied().unwrap_or(false) {
+            c.mids[j] = c.mids[j - 1] + 0.5 * (c.lens[j - 1] + c.lens[j]);
+        }
+    }
+}
+
+/// How a fit ended.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Outcome {
+    /// Residual sum of squares (m²).
+    pub rss: f64,
+    /// Iterations used.
+    pub iterations: usize,
+    /// Whether the relative change fell below tolerance.
+    pub converged: bool,
+}
+
+/// Fit `chain` to the data in place, respecting its holds.
+pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
+    let par = full_params(chain);
+    let tm = reduce_map(chain);
+    project(chain, d.lo, d.hi);
+    let (mut r, jf) = jacobian(chain, &par, d);
+    let mut j = &jf * &tm;
+    let mut rss = r.norm_squared();
+    let np = tm.ncols();
+    if np == 0 {
+        return Outcome {
+            rss,
+            iterations: 0,
+            converged: true,
+        };
+    }
+    let mut lambda = 1e-3;
+    let mut converged = false;
+    let mut it = 0;
+    while it < max_iter {
+        it += 1;
+        let jt = j.transpose();
+        let jtj = &jt * &j;
+        let g = &jt * &r;
+        let maxd = (0..np).map(|i| jtj[(i, i)]).fold(0.0, f64::max);
+        if maxd <= 0.0 {
+            converged = true;
+            break;
+        }
+        // Gauss–Newton decrement gᵀ(JᵀJ)⁻¹g: the most a full step could gain
+        // on the local quadratic model. Below the tolerance there is nothing
+        // left worth having.
+        let mut ridge = jtj.clone();
+        for i in 0..np {
+            ridge[(i, i)] += 1e-12 * maxd;
+        }
+        if let Some(ch) = ridge.cholesky() {
+            let dec = g.dot(&ch.solve(&g));
+            if dec < d.rss_tol {
+                converged = true;
+                break;
+            }
+        }
+        let mut improved = false;
+        for _ in 0..12 {
+            let mut a = jtj.clone();
+            for i in 0..np {
+                a[(i, i)] += lambda * jtj[(i, i)].max(1e-9 * maxd);
+            }
+            let Some(ch) = a.cholesky() else {
+                lambda *= 10.0;
+                continue;
+            };
+            let delta = &tm * ch.solve(&g);
+            let trial = apply(chain, &par, &delta, d);
+            let rss2: f64 =
+                d.s.iter()
+                    .zip(d.v)
+                    .map(|(&s, &vo)| {
+                        let e = vo - trial.versine(s, d.a, d.eps);
+                        e * e
+                    })
+                    .sum();
+            if rss2 <= rss {
+                let rel = (rss - rss2) / rss.max(1e-300);
+                // Largest move of a boundary (m).
+                let step = trial
+                    .mids
+                    .iter()
+                    .zip(&chain.mids)
+                    .chain(trial.lens.iter().zip(&chain.lens))
+                    .map(|(x, y)| (x - y).abs())
+                    .fold(0.0, f64::max);
+                *chain = trial;
+                let (r2, j2) = jacobian(chain, &par, d);
+                r = r2;
+                j = &j2 * &tm;
+                rss = rss2;
+                lambda = (lambda * 0.3).max(1e-12);
+                improved = true;
+                if rel < 1e-14 || (rel < 1e-9 && step < 1e-6) {
+                    converged = true;
+                }
+                break;
+            }
+            lambda *= 10.0;
+        }
+        if !improved {
+            converged = true;
+            break;
+        }
+        if converged {
+            break;
+        }
+    }
+    Outcome {
+        rss,
+        iterations: it,
+        converged,
+    }
+}

@@ -1,0 +1,187 @@
+//! Forward model: the versine a chord reads on a piecewise-linear curvature
+//! diagram (straights, clothoid ramps, arcs), with its exact derivatives.
+//!
+//! The curvature of the measured rail, as a function of survey chainage `s`,
+//! is a chain of *plateaus* (constant curvature: a straight when held at zero,
+//! an arc when free) joined by *ramps* (clothoid transitions: curvature linear
+//! in length). Ramp `j` runs from `m_j − L_j/2` to `m_j + L_j/2` and takes the
+//! curvature from plateau `j` to plateau `j + 1`, so curvature is continuous at
+//! every joint by construction; a ramp of zero length is a curvature step (an
+//! arc meeting a straight, or a compound curve without a transition).
+//!
+//! A symmetric chord of half-length `a` reads (small-angle form)
+//! `v(s) = ∫ k(u) ½(a − |u − s|)₊ du`, the triangular kernel (METHODS §2). For a
+//! unit ramp `r(s) = clamp((s − b_s)/L, 0, 1)` the double integral is
+//! `Q(s) = [(s − b_s)₊³ − (s − b_e)₊³]/(6L)` and the versine contribution is the
+//! second difference `D(s) = ½[Q(s + a) − 2Q(s) + Q(s − a)]`. All formulas here
+//! are evaluated in local coordinates and without dividing by `L` where `L`
+//! may vanish, so zero-length ramps and kilometre chainages cost no accuracy.
+//!
+//! The next-order (finite-angle) term of the chord geometry is added as a
+//! factor `1 + ε v²/a²` with `ε = −1/3` for marks taped along the rail and
+//! `ε = +1` for a straight wire of the nominal length (from the series of
+//! METHODS §1: `v = c²/8R ∓ …`; derived here).
+//!
+//! ## Reference
+//! SEGMENTATION.md §5 step 4 (this project's design study); METHODS.md §§1, 2, 6.
+
+/// One plateau level: held at zero (a straight) or free (an arc).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Level {
+    /// Curvature held at zero: a straight.
+    Zero,
+    /// Free curvature (1/m of the measured rail), fitted.
+    Free(f64),
+}
+
+impl Level {
+    /// The curvature value (1/m).
+    pub fn value(self) -> f64 {
+        match self {
+            Level::Zero => 0.0,
+            Level::Free(k) => k,
+        }
+    }
+    /// Whether the level is fitted.
+    pub fn is_free(self) -> bool {
+        matches!(self, Level::Free(_))
+    }
+}
+
+/// The curvature diagram of the measured rail as plateaus joined by ramps.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Chain {
+    /// Plateau levels, one more than there are ramps.
+    pub levels: Vec<Level>,
+    /// Ramp mid-points, survey chainage (m).
+    pub mids: Vec<f64>,
+    /// Ramp lengths along the measured rail (m), non-negative.
+    pub lens: Vec<f64>,
+    /// Per ramp: length held (not fitted), normally at zero: a curvature step.
+    pub held: Vec<bool>,
+    /// Per plateau: held at zero length (the ramps either side meet), e.g. the
+    /// inflection of a reverse curve. Never set for the first or last plateau.
+    pub joined: Vec<bool>,
+}
+
+/// Unit-ramp double integral `Q` and its derivatives with respect to the ramp
+/// start and end, at `u = s − b_s` with ramp length `l`.
+#[inline]
+fn q_and_derivs(u: f64, l: f64) -> (f64, f64, f64) {
+    if u <= 0.0 {
+        (0.0, 0.0, 0.0)
+    } else if u >= l {
+        let u2 = u - l;
+        let q = (u * u + u * u2 + u2 * u2) / 6.0;
+        (q, -(2.0 * u + u2) / 6.0, -(u + 2.0 * u2) / 6.0)
+    } else {
+        // 0 < u < l, so l > 0 here.
+        let t = u / l;
+        let q = u * u * t / 6.0;
+        (q, -u * t / 2.0 + u * t * t / 6.0, -u * t * t / 6.0)
+    }
+}
+
+/// Versine contribution `D` of a unit ramp `[b_s, b_s + l]` at chainage `s`
+/// for a chord of half-length `a`, with `∂D/∂b_s` and `∂D/∂b_e`.
+#[inline]
+pub fn ramp_versine(s: f64, b_s: f64, l: f64, a: f64) -> (f64, f64, f64) {
+    let u = s - b_s;
+    if u + a <= 0.0 {
+        return (0.0, 0.0, 0.0);
+    }
+    if u - a >= l {
+        return (0.5 * a * a, 0.0, 0.0);
+    }
+    let (q1, ds1, de1) = q_and_derivs(u + a, l);
+    let (q0, ds0, de0) = q_and_derivs(u, l);
+    let (qm, dsm, dem) = q_and_derivs(u - a, l);
+    (
+        0.5 * (q1 - 2.0 * q0 + qm),
+        0.5 * (ds1 - 2.0 * ds0 + dsm),
+        0.5 * (de1 - 2.0 * de0 + dem),
+    )
+}
+
+/// The finite-angle correction factor `ε` for the station marking.
+pub fn marking_epsilon(marking: crate::survey::Marking) -> f64 {
+    match marking {
+        crate::survey::Marking::Taped => -1.0 / 3.0,
+        crate::survey::Marking::Wire => 1.0,
+    }
+}
+
+impl Chain {
+    /// A chain with nothing held.
+    pub fn new(levels: Vec<Level>, mids: Vec<f64>, lens: Vec<f64>) -> Self {
+        let (m, k) = (mids.len(), levels.len());
+        Chain {
+            levels,
+            mids,
+            lens,
+            held: vec![false; m],
+            joined: vec![false; k],
+        }
+    }
+    /// The sub-chain of ramps `j0..j1` (levels `j0..=j1`).
+    pub fn sub(&self, j0: usize, j1: usize) -> Chain {
+        Chain {
+            levels: self.levels[j0..=j1].to_vec(),
+            mids: self.mids[j0..j1].to_vec(),
+            lens: self.lens[j0..j1].to_vec(),
+            held: self.held[j0..j1].to_vec(),
+            joined: self.joined[j0..=j1].to_vec(),
+        }
+    }
+    /// Number of ramps.
+    pub fn ramps(&self) -> usize {
+        self.mids.len()
+    }
+    /// Ramp `j` start chainage.
+    pub fn ramp_start(&self, j: usize) -> f64 {
+        self.mids[j] - 0.5 * self.lens[j]
+    }
+    /// Ramp `j` end chainage.
+    pub fn ramp_end(&self, j: usize) -> f64 {
+        self.mids[j] + 0.5 * self.lens[j]
+    }
+    /// Curvature of the measured rail at chainage `s` (1/m).
+    pub fn curvature(&self, s: f64) -> f64 {
+        let mut k = self.levels[0].value();
+        for j in 0..self.ramps() {
+            let dk = self.levels[j + 1].value() - self.levels[j].value();
+            let b = self.ramp_start(j);
+            let l = self.lens[j];
+            let r = if s <= b {
+                0.0
+            } else if s >= b + l {
+                1.0
+            } else {
+                (s - b) / l
+            };
+            k += dk * r;
+        }
+        k
+    }
+    /// Linear (small-angle) versine at `s` for half-chord `a` (m, chord side).
+    pub fn versine_linear(&self, s: f64, a: f64) -> f64 {
+        let mut v = self.levels[0].value() * 0.5 * a * a;
+        // Ramps are ordered, so only those whose support reaches s matter;
+        // ramps wholly behind s contribute dk·a²/2 each.
+        for j in 0..self.ramps() {
+            let b = self.ramp_start(j);
+            if b - a >= s {
+                break;
+            }
+            let dk = self.levels[j + 1].value() - self.levels[j].value();
+            let (d, _, _) = ramp_versine(s, b, self.lens[j], a);
+            v += dk * d;
+        }
+        v
+    }
+    /// Versine at `s` including the finite-angle term `ε`.
+    pub fn versine(&self, s: f64, a: f64, eps: f64) -> f64 {
+        let v = self.versine_linear(s, a);
+        v * (1.0 + eps * v * v / (a * a))
+    }
+}

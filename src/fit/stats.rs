@@ -1,0 +1,124 @@
+//! Covariance of the fitted parameters (ordinary and correlation-robust
+//! sandwich) and the distributions used for intervals and tests.
+//!
+//! ## Reference
+//! Newey & West, "A simple, positive semi-definite, heteroskedasticity and
+//! autocorrelation consistent covariance matrix", Econometrica 55(3), 1987
+//! (Bartlett taper; from memory). SEGMENTATION.md §7 (pooled autocovariance
+//! instead of local products).
+
+use nalgebra::DMatrix;
+use statrs::distribution::{ChiSquared, ContinuousCDF, StudentsT};
+
+/// Autocovariance of a residual series at index lags `0..=h_max`, pooled
+/// over `runs` (each a contiguous stretch of readings).
+pub fn autocovariance(runs: &[&[f64]], h_max: usize) -> Vec<f64> {
+    let mut num = vec![0.0; h_max + 1];
+    let mut n0 = 0usize;
+    for r in runs {
+        n0 += r.len();
+        for h in 0..=h_max.min(r.len().saturating_sub(1)) {
+            num[h] += r.iter().zip(&r[h..]).map(|(a, b)| a * b).sum::<f64>();
+        }
+    }
+    let n0 = n0.max(1) as f64;
+    num.iter().map(|x| x / n0).collect()
+}
+
+/// `(JᵀJ)⁻¹ (JᵀΓJ) (JᵀJ)⁻¹` with `Γ_ik = γ(|i−k|)(1 − |i−k|/(H+1))` for
+/// `|i−k| ≤ H = γ.len() − 1`. With `γ = [σ²]` this is `σ²(JᵀJ)⁻¹`.
+/// Returns `None` when `JᵀJ` is singular.
+pub fn sandwich(j: &DMatrix<f64>, gamma: &[f64]) -> Option<DMatrix<f64>> {
+    let p = j.ncols();
+    let n = j.nrows();
+    if p == 0 {
+        return Some(DMatrix::zeros(0, 0));
+    }
+    let jtj = j.transpose() * j;
+    let binv = invert_spd(&jtj)?;
+    let hmax = gamma.len().saturating_sub(1);
+    let mut m = DMatrix::zeros(p, p);
+    // Only rows with a non-zero entry matter.
+    let nz: Vec<bool> = (0..n).map(|i| j.row(i).iter().any(|x| *x != 0.0)).collect();
+    for i in 0..n {
+        if !nz[i] {
+            continue;
+        }
+        for (h, &g) in gamma.iter().enumerate() {
+            let w = g * (1.0 - h as f64 / (hmax as f64 + 1.0));
+            if w == 0.0 {
+                continue;
+            }
+            let k = i + h;
+            if k >= n {
+                break;
+            }
+            if !nz[k] {
+                continue;
+            }
+            for a in 0..p {
+                let ja = j[(i, a)];
+                let ka = j[(k, a)];
+                if ja == 0.0 && ka == 0.0 {
+                    continue;
+                }
+                for b in 0..p {
+                    let mut add = ja * j[(k, b)];
+                    if h > 0 {
+                        add += ka * j[(i, b)];
+                    }
+                    m[(a, b)] += w * add;
+                }
+            }
+        }
+    }
+    Some(&binv * m * &binv)
+}
+
+/// Inverse of a symmetric positive definite matrix, with a tiny relative
+/// ridge if the plain Cholesky fails (nearly collinear columns).
+pub fn invert_spd(a: &DMatrix<f64>) -> Option<DMatrix<f64>> {
+    if let Some(c) = a.clone().cholesky() {
+        return Some(c.inverse());
+    }
+    let maxd = (0..a.nrows()).map(|i| a[(i, i)]).fold(0.0, f64::max);
+    let mut b = a.clone();
+    for i in 0..a.nrows() {
+        b[(i, i)] += 1e-10 * maxd.max(1e-300);
+    }
+    b.cholesky().map(|c| c.inverse())
+}
+
+/// Two-sided 95 % Student-t quantile for `dof` degrees of freedom (1.96 in
+/// the limit).
+pub fn t95(dof: f64) -> f64 {
+    StudentsT::new(0.0, 1.0, dof.max(1.0))
+        .map(|t| t.inverse_cdf(0.975))
+        .unwrap_or(1.959964)
+}
+
+/// Upper-tail probability of a chi-square statistic.
+pub fn chi2_upper(stat: f64, dof: f64) -> f64 {
+    ChiSquared::new(dof.max(1.0))
+        .map(|c| 1.0 - c.cdf(stat.max(0.0)))
+        .unwrap_or(f64::NAN)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn white_sandwich_is_ordinary_covariance() {
+        let j = DMatrix::from_fn(50, 2, |i, k| if k == 0 { 1.0 } else { i as f64 });
+        let c = sandwich(&j, &[4.0]).unwrap();
+        let o = invert_spd(&(j.transpose() * &j)).unwrap() * 4.0;
+        assert!((c - o).abs().max() < 1e-12);
+    }
+
+    #[test]
+    fn t_quantile_matches_scipy() {
+        // DEPENDENCIES.md §3.2: scipy t(0.975, 10) = 2.228138851986274.
+        assert!((t95(10.0) - 2.228138851986274).abs() < 1e-9);
+    }
+}
