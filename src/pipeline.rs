@@ -7,8 +7,10 @@
 //! earlier folder survives a failed run.
 
 use crate::diag::Diagnostic;
+use crate::export::elements::write_elements_csv;
 use crate::export::output_dir::{OutputDir, OutputError};
-use crate::export::stations::write_stations;
+use crate::export::stations::{DesignAtStation, write_stations};
+use crate::fit::{FitOptions, FitResult, fit};
 use crate::geometry::{Pose, bearing_to_heading};
 use crate::integrate::{IntegrateError, IntegrateOptions, Plan, integrate};
 use crate::survey::read::{ReadOptions, SurveyError, read_survey_file};
@@ -26,6 +28,8 @@ pub struct Options {
     pub rail_stated: bool,
     /// Bearing of the track at the first station, degrees clockwise from north.
     pub start_bearing_deg: f64,
+    /// Options of the element fit; `None` skips the fit.
+    pub fit: Option<FitOptions>,
 }
 
 impl Options {
@@ -35,6 +39,7 @@ impl Options {
             setup: Setup::new(chord, rail),
             rail_stated: true,
             start_bearing_deg: 0.0,
+            fit: Some(FitOptions::default()),
         }
     }
 }
@@ -65,7 +70,7 @@ impl RunError {
 }
 
 /// All results of a run, before anything is written.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone)]
 pub struct Results {
     /// The survey as read.
     pub survey: Survey,
@@ -73,6 +78,11 @@ pub struct Results {
     pub setup: Setup,
     /// The reconstructed plan.
     pub plan: Plan,
+    /// The element fit, when it ran and succeeded.
+    pub fit: Option<FitResult>,
+    /// The design placed in the plan frame and its values at every station
+    /// (with `fit`).
+    pub design: Option<(crate::geometry::Alignment, Vec<DesignAtStation>)>,
     /// Warnings and notes of every stage, in stage order.
     pub diagnostics: Vec<Diagnostic>,
 }
@@ -96,11 +106,39 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
         },
         position_obs: Vec::new(),
     };
-    let (plan, diagnostics) = integrate(&survey, &setup, &iopts)?;
+    let (plan, mut diagnostics) = integrate(&survey, &setup, &iopts)?;
+    let (mut fitted, mut design) = (None, None);
+    if let Some(fopts) = &opts.fit {
+        let mut fopts = fopts.clone();
+        if fopts.reading_sd.is_none() {
+            fopts.reading_sd = setup.reading_sd;
+        }
+        match fit(&survey, &setup, &fopts) {
+            Ok((f, mut d)) => {
+                diagnostics.append(&mut d);
+                let points: Vec<(f64, f64, f64)> = plan
+                    .stations
+                    .iter()
+                    .map(|s| (s.chainage, s.x, s.y))
+                    .collect();
+                let placed = f.place(&points);
+                let at = f.design_at_stations(&placed);
+                design = Some((placed, at));
+                fitted = Some(f);
+            }
+            // The plan is still useful without elements: say why they are missing.
+            Err(e) => diagnostics.push(
+                Diagnostic::warning(format!("no element fit: {e}"))
+                    .hint("stations.csv is written; elements.csv is not"),
+            ),
+        }
+    }
     Ok(Results {
         survey,
         setup,
         plan,
+        fit: fitted,
+        design,
         diagnostics,
     })
 }
@@ -141,9 +179,13 @@ pub fn run(
     diags.append(&mut results.diagnostics);
     results.diagnostics = diags;
     let unit = results.survey.chainage_unit;
+    let design = results.design.as_ref().map(|(_, d)| d.as_slice());
     dir.write_file("stations.csv", |w| {
-        write_stations(w, &results.plan, unit, None)
+        write_stations(w, &results.plan, unit, design)
     })?;
+    if let Some(f) = &results.fit {
+        dir.write_file("elements.csv", |w| write_elements_csv(f, unit, w))?;
+    }
     let files = dir.files().to_vec();
     let folder = dir.commit()?;
     Ok(Outcome {

@@ -79,6 +79,9 @@ pub fn summary(r: &Results) -> String {
         heading_to_bearing(last.heading),
         u.from_m(last.position_sd)
     );
+    if let Some(f) = &r.fit {
+        let _ = writeln!(s, "\n{}", crate::export::elements::summary_table(f, u));
+    }
     let warnings = r
         .diagnostics
         .iter()

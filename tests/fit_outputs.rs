@@ -317,5 +317,9 @@ fn pipeline_integrate_fit_place_write_stations() {
     let mut out = Vec::new();
     write_stations(&mut out, &plan, LengthUnit::Metre, Some(&design)).expect("write");
     let text = String::from_utf8(out).expect("utf8");
-    assert!(text.lines().next().is_some_and(|h| h.contains("design_versine_mm")));
+    assert!(
+        text.lines()
+            .next()
+            .is_some_and(|h| h.contains("design_versine_mm"))
+    );
 }

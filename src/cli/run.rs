@@ -39,6 +39,9 @@ pub struct RunArgs {
     /// Replace the output folder if it exists.
     #[arg(long)]
     pub force: bool,
+    /// Skip the element fit (stations.csv only).
+    #[arg(long)]
+    pub no_fit: bool,
     /// Do not print warnings (the summary still counts them).
     #[arg(long, short)]
     pub quiet: bool,
@@ -57,6 +60,10 @@ impl RunArgs {
             setup,
             rail_stated: self.rail.is_some(),
             start_bearing_deg: self.start_bearing,
+            fit: (!self.no_fit).then(|| chordline::fit::FitOptions {
+                reading_sd: self.reading_sd,
+                ..Default::default()
+            }),
         }
     }
 }
