@@ -62,7 +62,7 @@ fn through_pipeline(g: &GenSurvey, must_read: bool) -> Result<(), TestCaseError>
 }
 
 proptest! {
-    #![proptest_config(ProptestConfig { cases: cases(24), ..ProptestConfig::default() })]
+    #![proptest_config(ProptestConfig { cases: cases(6), ..ProptestConfig::default() })]
 
     #[test]
     fn valid_surveys_go_through_every_stage(g in valid_survey()) {
