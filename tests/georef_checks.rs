@@ -45,7 +45,11 @@ fn inverse_gives_back_the_local_point_and_true_bearing() {
     // True bearing at the far end of the 5.5 geodesic is its forward azimuth
     // azi2 = 45.0081148355° (CHECKS.md 5.5): a pose along the local ray from the origin.
     let heading = std::f64::consts::FRAC_PI_2 - 45f64.to_radians();
-    let b = pl.true_bearing(chordline::geometry::Pose { x: ex, y: ey, heading });
+    let b = pl.true_bearing(chordline::geometry::Pose {
+        x: ex,
+        y: ey,
+        heading,
+    });
     assert!((b - 45.0081148355).abs() < 2e-6, "{b}");
 }
 
@@ -58,7 +62,10 @@ fn height_scales_ground_to_ellipsoid() {
     let hi = Placement::new(LonLat::new(9.0, 48.0).unwrap(), 500.0).unwrap();
     let (lon, lat) = hi.to_lonlat(0.0, 1000.0);
     let (_, y_on_ellipsoid) = lo.to_local(lon, lat);
-    assert!((y_on_ellipsoid - 999.92163).abs() < 2e-4, "{y_on_ellipsoid}");
+    assert!(
+        (y_on_ellipsoid - 999.92163).abs() < 2e-4,
+        "{y_on_ellipsoid}"
+    );
     assert!(Placement::new(LonLat::new(9.0, 48.0).unwrap(), f64::NAN).is_err());
 }
 
@@ -79,10 +86,16 @@ fn utm_32n_matches_checks_5_9_to_5_13() {
     ];
     for (lon, lat, e, n) in cases {
         let (ge, gn) = c.from_lonlat(lon, lat).unwrap();
-        assert!((ge - e).abs() < 1e-3 && (gn - n).abs() < 1e-3, "{lon},{lat}: {ge} {gn}");
+        assert!(
+            (ge - e).abs() < 1e-3 && (gn - n).abs() < 1e-3,
+            "{lon},{lat}: {ge} {gn}"
+        );
         let (lo, la) = c.to_lonlat(e, n).unwrap();
         // 1 mm ≈ 1e-8° (CHECKS.md 5.1).
-        assert!((lo - lon).abs() < 2e-8 && (la - lat).abs() < 2e-8, "{lo} {la}");
+        assert!(
+            (lo - lon).abs() < 2e-8 && (la - lat).abs() < 2e-8,
+            "{lo} {la}"
+        );
     }
     assert!(c.datum_note().is_none());
     // DEPENDENCIES.md §4: proj4rs vs pyproj at (13.4, 52.5), 4.4° off the central meridian.
@@ -97,7 +110,10 @@ fn etrs89_utm_agrees_with_wgs84_utm() {
     // millimetre at CHECKS.md 5.10's point.
     let a = utm(25832).from_lonlat(10.0, 48.0).unwrap();
     let b = utm(32632).from_lonlat(10.0, 48.0).unwrap();
-    assert!((a.0 - b.0).abs() < 1e-3 && (a.1 - b.1).abs() < 1e-3, "{a:?} {b:?}");
+    assert!(
+        (a.0 - b.0).abs() < 1e-3 && (a.1 - b.1).abs() < 1e-3,
+        "{a:?} {b:?}"
+    );
     assert!(utm(25832).datum_note().is_none());
     // Southern hemisphere: false northing 10 000 km; round trip only (no outside value).
     let s = utm(32733);
@@ -118,7 +134,10 @@ fn british_grid_matches_checks_5_16_and_5_17() {
         (-0.1275, 51.5072, 530_050.135, 180_358.386),
     ] {
         let (ge, gn) = c.from_lonlat(lon, lat).unwrap();
-        assert!((ge - e).abs() < 1.5e-3 && (gn - n).abs() < 1.5e-3, "{lon},{lat}: {ge} {gn}");
+        assert!(
+            (ge - e).abs() < 1.5e-3 && (gn - n).abs() < 1.5e-3,
+            "{lon},{lat}: {ge} {gn}"
+        );
     }
     // The Helmert is metre-level true accuracy: the crate says so.
     assert!(c.datum_note().unwrap().contains("Helmert"));
@@ -171,7 +190,10 @@ fn other_national_grids_build_and_round_trip() {
         // (≈1.4 mm), so allow 3e-8° (≈3 mm). Not survey accuracy either way:
         // the Helmert shifts themselves are metre-level.
         let tol = 3e-8;
-        assert!((lo - lon).abs() < tol && (la - lat).abs() < tol, "EPSG:{code}");
+        assert!(
+            (lo - lon).abs() < tol && (la - lat).abs() < tol,
+            "EPSG:{code}"
+        );
         assert!(c.datum_note().is_some(), "EPSG:{code}");
     }
 }
@@ -181,9 +203,10 @@ fn unknown_codes_are_named_with_what_is_supported() {
     let e = "EPSG:12345".parse::<Crs>().unwrap_err();
     assert!(matches!(e, CrsError::Unknown(12345)));
     let msg = e.to_string();
-    assert!(msg.contains("EPSG:12345") && msg.contains("326xx") && msg.contains("27700"), "{msg}");
+    assert!(
+        msg.contains("EPSG:12345") && msg.contains("326xx") && msg.contains("27700"),
+        "{msg}"
+    );
     let e = "epsg: 25832".parse::<Crs>().unwrap();
     assert_eq!(e.code(), 25832);
 }
-
-

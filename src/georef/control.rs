@@ -226,37 +226,48 @@ pub fn read_controls(
     file: &str,
     crs: Option<&Crs>,
 ) -> Result<(ControlSet, Vec<Diagnostic>), ControlError> {
-    let mut rdr = csv::ReaderBuilder::new()
-        .comment(Some(b'#'))
-        .trim(csv::Trim::All)
-        .flexible(true)
-        .has_headers(false)
-        .from_reader(reader);
     let fname = file.to_string();
-    let io = |e: csv::Error| ControlError::Io {
-        file: fname.clone(),
-        message: e.to_string(),
-    };
-    let mut records = rdr.records();
-    let (headers, header_line) = loop {
-        match records.next() {
-            None => {
-                return Err(ControlError::Empty {
-                    file: fname.clone(),
-                });
-            }
-            Some(r) => {
-                let r = r.map_err(io)?;
-                if r.iter().all(|f| f.is_empty()) {
-                    continue;
-                }
-                let line = r.position().map_or(1, |p| p.line() as usize);
-                break (
-                    r.iter().map(|h| h.to_ascii_lowercase()).collect::<Vec<_>>(),
-                    line,
-                );
-            }
+    let mut text = String::new();
+    let mut reader = reader;
+    reader
+        .read_to_string(&mut text)
+        .map_err(|e| ControlError::Io {
+            file: fname.clone(),
+            message: format!("{e} (the file must be UTF-8 text)"),
+        })?;
+    // Our own line loop, so that line numbers count comments and blank lines.
+    let mut records = Vec::new();
+    for (i, raw) in text.trim_start_matches('\u{feff}').lines().enumerate() {
+        let t = raw.trim();
+        if t.is_empty() || t.starts_with('#') {
+            continue;
         }
+        let mut r = csv::ReaderBuilder::new()
+            .has_headers(false)
+            .trim(csv::Trim::All)
+            .flexible(true)
+            .from_reader(t.as_bytes());
+        let rec = r
+            .records()
+            .next()
+            .unwrap_or_else(|| Ok(csv::StringRecord::new()))
+            .map_err(|e| ControlError::Io {
+                file: fname.clone(),
+                message: format!("line {}: {e}", i + 1),
+            })?;
+        records.push((i + 1, rec));
+    }
+    let mut records = records.into_iter();
+    let (headers, header_line) = match records.next() {
+        None => {
+            return Err(ControlError::Empty {
+                file: fname.clone(),
+            });
+        }
+        Some((line, r)) => (
+            r.iter().map(|h| h.to_ascii_lowercase()).collect::<Vec<_>>(),
+            line,
+        ),
     };
     let header_err = |m: String| ControlError::Header {
         file: fname.clone(),
@@ -328,12 +339,7 @@ pub fn read_controls(
     }
 
     let mut points: Vec<ControlPoint> = Vec::new();
-    for rec in records {
-        let rec = rec.map_err(io)?;
-        if rec.iter().all(|f| f.is_empty()) {
-            continue;
-        }
-        let line = rec.position().map_or(0, |p| p.line() as usize);
+    for (line, rec) in records {
         let value_err = |col: &str, m: String| ControlError::Value {
             file: fname.clone(),
             line,
