@@ -25,7 +25,11 @@ fn case() -> Case {
     // → latitude 48.089935176969°, longitude 9°).
     let placement = Placement::new(LonLat::new(9.0, 48.0).unwrap(), 0.0).unwrap();
     let alignment = Alignment::new(
-        Pose { x: 0.0, y: 0.0, heading: std::f64::consts::FRAC_PI_2 },
+        Pose {
+            x: 0.0,
+            y: 0.0,
+            heading: std::f64::consts::FRAC_PI_2,
+        },
         0.0,
         vec![
             Element::straight(10_000.0),
@@ -64,16 +68,31 @@ fn case() -> Case {
         })
         .collect();
     let (lon1, lat1) = placement.to_lonlat(0.0, 5000.0);
-    let text = format!(
-        "id,chainage_m,lon_deg,lat_deg\nA,0,9.0,48.0\nB,5000,{lon1:.9},{lat1:.9}\n"
-    );
+    let text = format!("id,chainage_m,lon_deg,lat_deg\nA,0,9.0,48.0\nB,5000,{lon1:.9},{lat1:.9}\n");
     let (controls, _) = read_controls(text.as_bytes(), "cp.csv", None).unwrap();
     let res = vec![
-        PositionResidual { id: "A".into(), dx: 0.001, dy: -0.002, normalised: 0.2 },
-        PositionResidual { id: "B".into(), dx: -0.001, dy: 0.002, normalised: 0.2 },
+        PositionResidual {
+            id: "A".into(),
+            dx: 0.001,
+            dy: -0.002,
+            normalised: 0.2,
+        },
+        PositionResidual {
+            id: "B".into(),
+            dx: -0.001,
+            dy: 0.002,
+            normalised: 0.2,
+        },
     ];
     let (checks, _) = controls.assess(&res, &[]);
-    Case { placement, alignment, props, stations, controls, checks }
+    Case {
+        placement,
+        alignment,
+        props,
+        stations,
+        controls,
+        checks,
+    }
 }
 
 fn write(c: &Case) -> Vec<u8> {
@@ -132,7 +151,10 @@ fn document_follows_rfc_7946_and_the_checks() {
                 n += 1;
             }
             let (lon, lat) = (p[0].as_f64().unwrap(), p[1].as_f64().unwrap());
-            assert!((8.9..9.1).contains(&lon) && (47.9..48.2).contains(&lat), "order lon, lat");
+            assert!(
+                (8.9..9.1).contains(&lon) && (47.9..48.2).contains(&lat),
+                "order lon, lat"
+            );
         }
     }
     assert!(n > 20_000);
@@ -142,7 +164,10 @@ fn document_follows_rfc_7946_and_the_checks() {
     let j = features(&doc, "joint")[0];
     assert_eq!(j["properties"]["joint"], "straight-transition");
     assert_eq!(j["geometry"]["coordinates"][0].as_f64().unwrap(), 9.0);
-    assert_eq!(j["geometry"]["coordinates"][1].as_f64().unwrap(), 48.0899352);
+    assert_eq!(
+        j["geometry"]["coordinates"][1].as_f64().unwrap(),
+        48.0899352
+    );
     assert_eq!(j["properties"]["chainage_m"].as_f64().unwrap(), 10_000.0);
     assert_eq!(j["properties"]["chainage_ci95_m"].as_f64().unwrap(), 0.8);
 
@@ -166,7 +191,10 @@ fn document_follows_rfc_7946_and_the_checks() {
     assert!((g[1].as_f64().unwrap() - lat1).abs() < 6e-8);
     assert_eq!(cb["properties"]["flagged"], false);
     assert_eq!(cb["properties"]["line"], 3);
-    assert_eq!(cb["properties"]["residual_north_m"].as_f64().unwrap(), 0.002);
+    assert_eq!(
+        cb["properties"]["residual_north_m"].as_f64().unwrap(),
+        0.002
+    );
 }
 
 #[test]
@@ -184,7 +212,10 @@ fn nothing_is_written_for_nan_or_mismatched_input() {
         },
     )
     .unwrap_err();
-    assert!(matches!(e, GeoJsonError::NotFinite(ref w) if w.contains("175")), "{e}");
+    assert!(
+        matches!(e, GeoJsonError::NotFinite(ref w) if w.contains("175")),
+        "{e}"
+    );
     assert!(out.is_empty());
 
     let c = case();
@@ -199,7 +230,13 @@ fn nothing_is_written_for_nan_or_mismatched_input() {
         },
     )
     .unwrap_err();
-    assert!(matches!(e, GeoJsonError::Mismatch { props: 2, elements: 4 }));
+    assert!(matches!(
+        e,
+        GeoJsonError::Mismatch {
+            props: 2,
+            elements: 4
+        }
+    ));
     assert!(out.is_empty());
     let mut bad = c.props.clone();
     bad[1].extra.push(("radius_se_m".into(), f64::INFINITY));
@@ -221,7 +258,10 @@ fn nothing_is_written_for_nan_or_mismatched_input() {
 fn gdal_reads_the_file() {
     let ogrinfo = std::path::Path::new("/usr/bin/ogrinfo");
     let found = ogrinfo.exists()
-        || Command::new("ogrinfo").arg("--version").output().is_ok_and(|o| o.status.success());
+        || Command::new("ogrinfo")
+            .arg("--version")
+            .output()
+            .is_ok_and(|o| o.status.success());
     if !found {
         eprintln!("skipping gdal_reads_the_file: GDAL's ogrinfo is not installed");
         return;
@@ -230,9 +270,17 @@ fn gdal_reads_the_file() {
     let dir = tempfile::tempdir().unwrap();
     let path = dir.path().join("alignment.geojson");
     std::fs::write(&path, write(&c)).unwrap();
-    let out = Command::new("ogrinfo").args(["-ro", "-al", "-so"]).arg(&path).output().unwrap();
+    let out = Command::new("ogrinfo")
+        .args(["-ro", "-al", "-so"])
+        .arg(&path)
+        .output()
+        .unwrap();
     let text = String::from_utf8_lossy(&out.stdout);
-    assert!(out.status.success(), "{text}{}", String::from_utf8_lossy(&out.stderr));
+    assert!(
+        out.status.success(),
+        "{text}{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
     assert!(text.contains("Feature Count: 10"), "{text}");
     assert!(text.contains("WGS 84"), "{text}");
     // The joint as GDAL reads it: CHECKS.md 5.6 (geographiclib 2.1), 7 decimals.
