@@ -61,7 +61,7 @@ fn reads_grid_coordinates_and_feet_chainage() {
     let p = &set.points[0];
     assert!((p.chainage - 30.48).abs() < 1e-12);
     assert!((p.lonlat.lon - 10.0).abs() < 2e-8 && (p.lonlat.lat - 48.0).abs() < 2e-8);
-    assert_eq!(p.grid, Some((574_595.1125, 5_316_784.0092)));
+    assert_eq!(p.grid, Some((574595.1125, 5316784.0092)));
     // Without --crs: a clear error saying what to add.
     let e = read(text, None).unwrap_err();
     assert!(matches!(e, ControlError::NeedsCrs { .. }));

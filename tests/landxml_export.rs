@@ -299,7 +299,7 @@ fn grid_frame_uses_the_crs_and_validates() {
     assert_eq!(cs.attribute("epsgCode"), Some("32632"));
     let s = els[0].start;
     assert!(
-        (s.0 - 500_000.0).abs() < 1e-3 && (s.1 - 5_316_300.2245).abs() < 1e-3,
+        (s.0 - 500_000.0).abs() < 1e-3 && (s.1 - 5316300.2245).abs() < 1e-3,
         "{s:?}"
     );
     // Every written point is the grid image of the exact local point.

@@ -29,4 +29,4 @@ pub use control::{
     TIGHT_RADIUS, leave_one_out, position_at, read_controls,
 };
 pub use crs::{Crs, CrsError, TESTED_GRIDS};
-pub use place::{LonLat, PlaceError, Placement, parse_bearing};
+pub use place::{LonLat, PlaceError, Placement, parse_bearing, parse_grid_point};

@@ -61,6 +61,11 @@ pub enum PlaceError {
         "'{0}' is not a bearing: give degrees clockwise from true north as a number, e.g. 75 or 281.5"
     )]
     Bearing(String),
+    /// Not two numbers (easting, northing) separated by a comma.
+    #[error(
+        "'{0}' is not an easting,northing pair: write two numbers in metres separated by a comma, easting first, e.g. 512345.6,5376543.2 (and name the grid with --crs EPSG:<code>)"
+    )]
+    GridFormat(String),
     /// A height that is not a finite number of metres within reason.
     #[error(
         "height {0} m above the ellipsoid is not plausible: give it in metres, between -500 and 9000"
@@ -136,6 +141,23 @@ impl FromStr for LonLat {
             e => e,
         })
     }
+}
+
+/// Parse a grid start point `"512345.6,5376543.2"` (easting, northing in
+/// metres, easting first) for `--start-grid`, used with `--crs`; convert it
+/// with [`crate::georef::Crs::to_lonlat`] and [`LonLat::new`].
+///
+/// # Errors
+/// [`PlaceError::GridFormat`] unless it is two finite numbers.
+pub fn parse_grid_point(s: &str) -> Result<(f64, f64), PlaceError> {
+    let err = || PlaceError::GridFormat(s.to_string());
+    let (a, b) = s.split_once(',').ok_or_else(err)?;
+    let e: f64 = a.trim().parse().map_err(|_| err())?;
+    let n: f64 = b.trim().parse().map_err(|_| err())?;
+    if !(e.is_finite() && n.is_finite()) {
+        return Err(err());
+    }
+    Ok((e, n))
 }
 
 /// Parse a bearing in degrees clockwise from true north (`--start-bearing 75`),
@@ -288,6 +310,14 @@ mod tests {
         assert_eq!(parse_bearing("75").unwrap(), 75.0);
         assert_eq!(parse_bearing("-90").unwrap(), 270.0);
         assert!(parse_bearing("east").is_err());
+        assert_eq!(
+            parse_grid_point("512345.6, 5376543.2").unwrap(),
+            (512345.6, 5376543.2)
+        );
+        assert!(matches!(
+            parse_grid_point("512345.6"),
+            Err(PlaceError::GridFormat(_))
+        ));
     }
 
     #[test]
