@@ -7,6 +7,8 @@
 //!   conversion to [`crate::integrate::PositionObs`], and judging the residuals.
 //!
 //! # Pipeline
+//! [`prepare`] does steps 1–3 from the command-line options in one call.
+//!
 //! 1. Parse `--start-lonlat` ([`LonLat`]), `--start-bearing` ([`parse_bearing`]),
 //!    `--crs` ([`Crs`]); or read `--control` ([`read_controls`]).
 //! 2. Build a [`Placement`] (at the start point, or [`ControlSet::placement`]).
@@ -23,6 +25,7 @@
 mod control;
 mod crs;
 mod place;
+mod setup;
 
 pub use control::{
     ControlCheck, ControlError, ControlPoint, ControlSet, DEFAULT_SD, FLAG_LIMIT, LooResult,
@@ -30,3 +33,4 @@ pub use control::{
 };
 pub use crs::{Crs, CrsError, TESTED_GRIDS};
 pub use place::{LonLat, PlaceError, Placement, parse_bearing, parse_grid_point};
+pub use setup::{Georef, GeorefArgs, GeorefError, prepare};
