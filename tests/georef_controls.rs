@@ -372,3 +372,39 @@ fn leave_one_out_and_residuals_flag_the_bad_point() {
     // Fewer than three points: no leave-one-out.
     assert!(leave_one_out(&obs[..2], fit_line).unwrap().is_empty());
 }
+
+#[test]
+fn checks_are_written_as_csv() {
+    use chordline::georef::{ControlCheck, write_checks_csv};
+    let checks = vec![
+        ControlCheck {
+            id: "A,1".into(),
+            line: 2,
+            chainage: 10.0,
+            dx: 0.00123,
+            dy: -0.0005,
+            normalised: 0.4,
+            loo_discrepancy: None,
+            loo_statistic: None,
+            flagged: false,
+        },
+        ControlCheck {
+            id: "B".into(),
+            line: 3,
+            chainage: 500.0,
+            dx: f64::NAN,
+            dy: f64::NAN,
+            normalised: f64::NAN,
+            loo_discrepancy: Some(0.5),
+            loo_statistic: Some(12.25),
+            flagged: true,
+        },
+    ];
+    let mut out = Vec::new();
+    write_checks_csv(&mut out, &checks).unwrap();
+    let text = String::from_utf8(out).unwrap();
+    let lines: Vec<&str> = text.lines().collect();
+    assert!(lines[0].starts_with("id,line,chainage_m,residual_east_m"));
+    assert_eq!(lines[1], "\"A,1\",2,10.0000,0.0012,-0.0005,0.40,,,no");
+    assert_eq!(lines[2], "B,3,500.0000,,,,0.5000,12.25,yes");
+}
