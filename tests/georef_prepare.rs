@@ -61,6 +61,9 @@ fn grid_start_goes_through_the_crs() {
         (o.lon - 10.0).abs() < 2e-8 && (o.lat - 48.0).abs() < 2e-8,
         "{o:?}"
     );
+    // The grid image of the local origin is the start point itself.
+    let (e, n) = g.grid(0.0, 0.0).unwrap().unwrap();
+    assert!((e - 574595.1125).abs() < 1e-3 && (n - 5316784.0092).abs() < 1e-3);
     assert_eq!(g.crs.unwrap().code(), 32632);
 }
 
@@ -139,7 +142,10 @@ fn control_file_end_to_end_to_observations() {
         ..args()
     };
     let (g, d) = prepare(&a, &survey()).unwrap();
-    assert!(d.is_empty(), "{d:?}");
+    // Only the note on ETRS89 being taken as WGS 84.
+    assert_eq!(d.len(), 1, "{d:?}");
+    assert_eq!(d[0].severity, chordline::diag::Severity::Note);
+    assert!(d[0].message.contains("ETRS89"));
     let g = g.unwrap();
     assert_eq!(g.position_obs.len(), 2);
     assert_eq!(g.position_obs[0].sd, 0.01);

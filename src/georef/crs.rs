@@ -181,25 +181,27 @@ impl Crs {
         &self.definition
     }
 
-    /// A sentence on the accuracy of the datum shift for this grid, if it is
-    /// not on WGS 84 / ETRS89 (GRS 80, no shift): Helmert shifts written in
-    /// definitions are good to about a metre to a few metres (e.g. EPSG:1314
-    /// for the British grid is stated as 2 m by PROJ, DEPENDENCIES.md §4).
+    /// A sentence on the datum of this grid, if it is not WGS 84 itself:
+    /// grids on ETRS89 / NAD83 are taken as WGS 84 (metre-level drift), and
+    /// Helmert shifts written in definitions are good to about a metre to a
+    /// few metres (e.g. EPSG:1314 for the British grid is stated as 2 m by
+    /// PROJ, DEPENDENCIES.md §4).
     pub fn datum_note(&self) -> Option<String> {
         let d = &self.definition;
-        let wgs_like = d.contains("+datum=WGS84")
-            || d.contains("+ellps=WGS84") && !d.contains("+towgs84")
-            || d.contains("+ellps=GRS80")
-                && (!d.contains("+towgs84") || d.contains("+towgs84=0,0,0,0,0,0,0"))
-            || d.contains("+datum=NAD83");
-        if wgs_like {
-            None
-        } else {
-            Some(format!(
-                "EPSG:{} is on a datum other than WGS 84; the program shifts between the two with the seven-parameter (Helmert) transformation of its definition, which is good to about a metre to a few metres, not to millimetres. Relative geometry (lengths, radii) is unaffected.",
-                self.code
-            ))
+        let zero_shift = !d.contains("+towgs84") || d.contains("+towgs84=0,0,0,0,0,0,0");
+        if d.contains("+datum=WGS84") || d.contains("+ellps=WGS84") && zero_shift {
+            return None;
         }
+        if d.contains("+ellps=GRS80") && zero_shift || d.contains("+datum=NAD83") {
+            return Some(format!(
+                "EPSG:{} is on a datum (such as ETRS89 or NAD83) that this program, like PROJ without a time-dependent transformation, treats as identical to WGS 84; the realisations drift apart by up to about a metre (ETRS89 moves with Europe, about 2.5 cm a year since 1989; from memory). Relative geometry (lengths, radii) is unaffected; use coordinates of one datum throughout.",
+                self.code
+            ));
+        }
+        Some(format!(
+            "EPSG:{} is on a datum other than WGS 84; the program shifts between the two with the seven-parameter (Helmert) transformation of its definition, which is good to about a metre to a few metres, not to millimetres. Relative geometry (lengths, radii) is unaffected.",
+            self.code
+        ))
     }
 
     /// Grid (easting, northing) in metres → WGS 84 (longitude, latitude) in degrees.

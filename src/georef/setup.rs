@@ -64,6 +64,32 @@ pub enum GeorefError {
 }
 
 impl Georef {
+    /// WGS 84 (longitude, latitude) in degrees of a local point.
+    pub fn lonlat(&self, x: f64, y: f64) -> (f64, f64) {
+        self.placement.to_lonlat(x, y)
+    }
+
+    /// Grid (easting, northing) of a local point in the `--crs` grid, if one was given.
+    ///
+    /// # Errors
+    /// [`CrsError::Projection`] outside the grid's domain.
+    pub fn grid(&self, x: f64, y: f64) -> Result<Option<(f64, f64)>, CrsError> {
+        match &self.crs {
+            Some(c) => {
+                let (lon, lat) = self.placement.to_lonlat(x, y);
+                c.from_lonlat(lon, lat).map(Some)
+            }
+            None => Ok(None),
+        }
+    }
+
+    /// True bearing (degrees clockwise from true north) of a local pose:
+    /// use it for `bearing_deg` in outputs when the survey is placed (the
+    /// local frame's north turns away from true north away from the origin).
+    pub fn true_bearing(&self, pose: Pose) -> f64 {
+        self.placement.true_bearing(pose)
+    }
+
     /// Judge the control points after the integration (see [`ControlSet::assess`]).
     /// Returns nothing when there are no control points.
     pub fn assess(
