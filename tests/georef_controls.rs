@@ -5,7 +5,7 @@ use chordline::diag::Severity;
 use chordline::georef::{
     ControlError, Crs, LonLat, Placement, leave_one_out, position_at, read_controls,
 };
-use chordline::integrate::{PositionObs, PositionResidual, Station};
+use chordline::integrate::{NoiseSource, Plan, PositionObs, PositionResidual, Station};
 use chordline::survey::{Rail, Reading, Survey};
 use chordline::units::{LengthUnit, VersineUnit};
 
@@ -288,7 +288,7 @@ fn hermite_interpolation_is_exact_enough_on_an_arc() {
 
 /// A real (if tiny) solver for the leave-one-out test: a straight line fitted
 /// by least squares to the observations, chainage as parameter.
-fn fit_line(obs: &[PositionObs]) -> Result<Vec<Station>, String> {
+fn fit_line(obs: &[PositionObs]) -> Result<Plan, String> {
     let n = obs.len() as f64;
     let mc = obs.iter().map(|o| o.chainage).sum::<f64>() / n;
     let mx = obs.iter().map(|o| o.x).sum::<f64>() / n;
@@ -308,12 +308,33 @@ fn fit_line(obs: &[PositionObs]) -> Result<Vec<Station>, String> {
         .sum::<f64>()
         / scc;
     let h = by.atan2(bx);
-    Ok((0..=200)
+    let stations = (0..=200)
         .map(|i| {
             let c = i as f64 * 5.0;
             station(c, mx + bx * (c - mc), my + by * (c - mc), h, 0.01)
         })
-        .collect())
+        .collect();
+    let position_residuals = obs
+        .iter()
+        .map(|o| {
+            let (dx, dy) = (
+                o.x - mx - bx * (o.chainage - mc),
+                o.y - my - by * (o.chainage - mc),
+            );
+            PositionResidual {
+                id: o.id.clone(),
+                dx,
+                dy,
+                normalised: dx.hypot(dy) / o.sd,
+            }
+        })
+        .collect();
+    Ok(Plan {
+        stations,
+        reading_sd: 0.001,
+        noise_source: NoiseSource::Stated,
+        position_residuals,
+    })
 }
 
 #[test]
@@ -353,22 +374,44 @@ fn leave_one_out_and_residuals_flag_the_bad_point() {
         .map(|c| c.id.as_str())
         .collect();
     assert_eq!(flagged, ["C"]);
-    // Leave-one-out: C is flagged. (With a rigid straight-line model and
-    // four points the end points' predictions are pulled by C too, so they
-    // can exceed 3 as well; the residual test above singles C out.)
-    let (checks, _) = set.assess(&res, &loo);
-    assert!(
-        checks
-            .iter()
-            .find(|c| c.id == "C")
-            .unwrap()
-            .loo_statistic
-            .unwrap()
-            > 3.0
-    );
     let w = diags.iter().find(|d| d.message.contains("'C'")).unwrap();
     assert_eq!(w.location.as_ref().unwrap().line, 4);
     assert!(w.to_string().starts_with("cp.csv:4: warning:"), "{w}");
+    // Leave-one-out: the end points' predictions are pulled by C too, so
+    // their statistics exceed 3 as well, but only without C do the others
+    // agree: C alone is flagged, even with residuals that blame everyone.
+    assert!(loo.iter().filter(|l| l.statistic > 3.0).count() > 1);
+    let blame_all: Vec<PositionResidual> = res
+        .iter()
+        .map(|r| PositionResidual {
+            normalised: 9.0,
+            ..r.clone()
+        })
+        .collect();
+    let (checks, diags) = set.assess(&blame_all, &loo);
+    let flagged: Vec<_> = checks
+        .iter()
+        .filter(|c| c.flagged)
+        .map(|c| c.id.as_str())
+        .collect();
+    assert_eq!(flagged, ["C"]);
+    assert_eq!(diags.len(), 1);
+    assert!(
+        diags[0]
+            .message
+            .contains("without it the other points agree"),
+        "{}",
+        diags[0]
+    );
+    // No single culprit (all residuals large, leave-one-out not run): every
+    // point is flagged and a summary says what to check.
+    let (checks, diags) = set.assess(&blame_all, &[]);
+    assert!(checks.iter().all(|c| c.flagged));
+    assert!(
+        diags
+            .iter()
+            .any(|d| d.message.contains("no single point explains it"))
+    );
     // Fewer than three points: no leave-one-out.
     assert!(leave_one_out(&obs[..2], fit_line).unwrap().is_empty());
 }

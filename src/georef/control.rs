@@ -27,7 +27,7 @@ use std::io::Read;
 
 use crate::diag::{Diagnostic, Location};
 use crate::geometry::Pose;
-use crate::integrate::{PositionObs, PositionResidual, Station};
+use crate::integrate::{Plan, PositionObs, PositionResidual, Station};
 use crate::survey::Survey;
 
 use super::crs::{Crs, CrsError};
@@ -599,7 +599,14 @@ impl ControlSet {
 
     /// Judge the points after the adjustment: one [`ControlCheck`] per point
     /// (in file chainage order), and a warning naming the line of every point
-    /// whose normalised residual exceeds [`FLAG_LIMIT`].
+    /// that disagrees with the rest.
+    ///
+    /// With leave-one-out results, a point whose prediction from the others
+    /// misses by more than [`FLAG_LIMIT`] standard deviations while the others
+    /// then agree (all normalised residuals ≤ [`FLAG_LIMIT`]) is singled out,
+    /// and only such points are flagged. Otherwise every point with a
+    /// normalised residual or leave-one-out statistic above [`FLAG_LIMIT`] is
+    /// flagged, with a summary warning when several are.
     ///
     /// `residuals` are the integrator's `Plan::position_residuals` (matched
     /// by id). `loo` are optional leave-one-out results from
@@ -609,6 +616,14 @@ impl ControlSet {
         residuals: &[PositionResidual],
         loo: &[LooResult],
     ) -> (Vec<ControlCheck>, Vec<Diagnostic>) {
+        // A point is a culprit when it disagrees with the prediction from
+        // the others and the others agree once it is left out (one blunder
+        // spreads into every residual of a joint adjustment, so the residuals
+        // alone would flag innocent points too).
+        let culprit = |l: &LooResult| {
+            l.statistic > FLAG_LIMIT && l.rest_max_normalised.is_some_and(|m| m <= FLAG_LIMIT)
+        };
+        let any_culprit = loo.iter().any(culprit);
         let mut checks = Vec::new();
         let mut diags = Vec::new();
         for p in &self.points {
@@ -617,7 +632,12 @@ impl ControlSet {
             let (dx, dy, nr) = r.map_or((f64::NAN, f64::NAN, f64::NAN), |r| {
                 (r.dx, r.dy, r.normalised)
             });
-            let flagged = nr > FLAG_LIMIT || l.is_some_and(|l| l.statistic > FLAG_LIMIT);
+            let is_culprit = l.is_some_and(culprit);
+            let flagged = if any_culprit {
+                is_culprit
+            } else {
+                nr > FLAG_LIMIT || l.is_some_and(|l| l.statistic > FLAG_LIMIT)
+            };
             if flagged {
                 let mut msg = format!(
                     "control point '{}' at chainage {:.3} m disagrees with the survey and the other points: residual {:.3} m",
@@ -633,6 +653,11 @@ impl ControlSet {
                         "; predicted from the others it is off by {:.3} m ({:.1} standard deviations)",
                         l.discrepancy, l.statistic
                     ));
+                    if is_culprit && let Some(m) = l.rest_max_normalised {
+                        msg.push_str(&format!(
+                            ", and without it the other points agree (largest normalised residual {m:.1})"
+                        ));
+                    }
                 }
                 diags.push(
                     Diagnostic::warning(msg)
@@ -656,6 +681,21 @@ impl ControlSet {
                 flagged,
             });
         }
+        let n_flagged = checks.iter().filter(|c| c.flagged).count();
+        if !any_culprit && n_flagged >= 2 {
+            diags.push(
+                Diagnostic::warning(format!(
+                    "{n_flagged} of {} control points disagree with the survey and with each other, and no single point explains it",
+                    self.points.len()
+                ))
+                .at(Location {
+                    file: self.file.clone(),
+                    line: 1,
+                    column: None,
+                })
+                .hint("check for a constant offset between the survey's and the control points' chainages, the coordinate system (--crs) of the control points, the chord length and rail, and whether sd_m is realistic"),
+            );
+        }
         (checks, diags)
     }
 }
@@ -667,8 +707,11 @@ pub struct LooResult {
     pub id: String,
     /// |observed − predicted|, metres.
     pub discrepancy: f64,
-    /// Discrepancy divided by √(sd² + predicted position sd²).
+    /// Discrepancy divided by √(2 sd² + predicted position sd²).
     pub statistic: f64,
+    /// Largest normalised residual of the other points in the solution
+    /// without this one (`None` if they had no residuals).
+    pub rest_max_normalised: Option<f64>,
 }
 
 /// Centreline position and its standard deviation at `chainage`, by cubic
@@ -707,7 +750,8 @@ pub fn position_at(stations: &[Station], chainage: f64) -> Option<(f64, f64, f64
 
 /// Leave-one-out test: for each observation, solve with all the others
 /// (`solve` runs the integration with the given observations and returns its
-/// stations) and compare the left-out point with the predicted position.
+/// plan) and compare the left-out point with the predicted position; also
+/// record whether the remaining points then agree among themselves.
 /// Needs at least three observations (returns nothing otherwise); points
 /// whose solve fails are skipped.
 ///
@@ -715,7 +759,7 @@ pub fn position_at(stations: &[Station], chainage: f64) -> Option<(f64, f64, f64
 /// The first error from `solve`.
 pub fn leave_one_out<E>(
     obs: &[PositionObs],
-    mut solve: impl FnMut(&[PositionObs]) -> Result<Vec<Station>, E>,
+    mut solve: impl FnMut(&[PositionObs]) -> Result<Plan, E>,
 ) -> Result<Vec<LooResult>, E> {
     let mut out = Vec::new();
     if obs.len() < 3 {
@@ -728,9 +772,15 @@ pub fn leave_one_out<E>(
             .filter(|&(j, _)| j != i)
             .map(|(_, o)| o.clone())
             .collect();
-        let stations = solve(&rest)?;
+        let plan = solve(&rest)?;
+        let rest_max = plan
+            .position_residuals
+            .iter()
+            .map(|r| r.normalised)
+            .filter(|v| v.is_finite())
+            .fold(None, |m: Option<f64>, v| Some(m.map_or(v, |m| m.max(v))));
         let o = &obs[i];
-        if let Some((x, y, sd)) = position_at(&stations, o.chainage) {
+        if let Some((x, y, sd)) = position_at(&plan.stations, o.chainage) {
             let d = (o.x - x).hypot(o.y - y);
             // Two coordinates: the vector length's sd is about √2 × per-coordinate sd
             // for the point; the prediction's sd is the lateral position sd.
@@ -739,6 +789,7 @@ pub fn leave_one_out<E>(
                 id: o.id.clone(),
                 discrepancy: d,
                 statistic: if s > 0.0 { d / s } else { f64::INFINITY },
+                rest_max_normalised: rest_max,
             });
         }
     }
