@@ -15,7 +15,10 @@
 //! | `id` | a name for the point (optional; default `CP<line>`) |
 //! | `note` | free text (optional, ignored) |
 //!
-//! Exactly one of the coordinate pairs must be present. Example:
+//! Each point is a position of the **track centreline** (midway between the
+//! running edges) at the given survey chainage (the survey's chainage, along
+//! the measured rail). Exactly one of the coordinate pairs must be present.
+//! Example:
 //! ```text
 //! # GNSS fixes on the track centreline, ETRS89 / UTM 32N
 //! id,chainage_m,easting_m,northing_m,sd_m
