@@ -56,10 +56,11 @@ fn reads_lonlat_with_comments_defaults_and_ids() {
 fn reads_grid_coordinates_and_feet_chainage() {
     // CHECKS.md 5.10 (pyproj): UTM 32N E 574 595.1125, N 5 316 784.0092 is (10°, 48°).
     let crs: Crs = "EPSG:32632".parse().unwrap();
-    let text = "chainage_ft,easting_m,northing_m\n100,574595.1125,5316784.0092\n";
+    let text = "chainage_ft,easting_m,northing_m,sd_ft\n100,574595.1125,5316784.0092,0.1\n";
     let set = read(text, Some(&crs)).unwrap();
     let p = &set.points[0];
     assert!((p.chainage - 30.48).abs() < 1e-12);
+    assert!((p.sd - 0.03048).abs() < 1e-15);
     assert!((p.lonlat.lon - 10.0).abs() < 2e-8 && (p.lonlat.lat - 48.0).abs() < 2e-8);
     assert_eq!(p.grid, Some((574595.1125, 5316784.0092)));
     // Without --crs: a clear error saying what to add.

@@ -11,7 +11,7 @@
 //! | `chainage_m` or `chainage_ft` | survey chainage of the point (required) |
 //! | `lon_deg`, `lat_deg` | WGS 84 longitude and latitude, decimal degrees |
 //! | `easting_m`, `northing_m` | grid coordinates in the system named by `--crs EPSG:<code>` |
-//! | `sd_m` or `sd_mm` | standard deviation of each coordinate (optional; default 0.02 m) |
+//! | `sd_m`, `sd_mm` or `sd_ft` | standard deviation of each coordinate (optional; default 0.02 m) |
 //! | `id` | a name for the point (optional; default `CP<line>`) |
 //! | `note` | free text (optional, ignored) |
 //!
@@ -312,7 +312,7 @@ pub fn read_controls(
             file: fname.clone(),
         });
     }
-    let sd_col = find(&headers, &["sd_m", "sd_mm"]);
+    let sd_col = find(&headers, &["sd_m", "sd_mm", "sd_ft"]);
     let id_col = find(&headers, &["id"]).map(|c| c.0);
     let mut diags = Vec::new();
     let known = [
@@ -324,6 +324,7 @@ pub fn read_controls(
         "northing_m",
         "sd_m",
         "sd_mm",
+        "sd_ft",
         "id",
         "note",
     ];
@@ -369,7 +370,12 @@ pub fn read_controls(
         let chainage = num(ch_col)? * ch_scale;
         let sd = match &sd_col {
             Some((i, name)) if !rec.get(*i).unwrap_or("").is_empty() => {
-                let v = num(*i)? * if name == "sd_mm" { 1e-3 } else { 1.0 };
+                let v = num(*i)?
+                    * match name.as_str() {
+                        "sd_mm" => 1e-3,
+                        "sd_ft" => crate::units::FOOT,
+                        _ => 1.0,
+                    };
                 if v <= 0.0 {
                     return Err(value_err(
                         name,
