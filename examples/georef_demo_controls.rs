@@ -20,8 +20,9 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
             rows.push((f[0].parse()?, f[2].parse()?, f[3].parse()?));
         }
     }
-    // Invented placement: the demo's design frame (north up) starts here, 310 m above the ellipsoid.
-    let pl = Placement::new(LonLat::new(9.1234, 48.5678)?, 310.0)?;
+    // Invented placement: the demo's design frame (north up) starts here (track taken
+    // on the ellipsoid, so no --height is needed with this file).
+    let pl = Placement::new(LonLat::new(9.1234, 48.5678)?, 0.0)?;
     let crs = Crs::from_epsg(25832)?;
     // Invented picks and "GNSS errors" (east, north) in metres.
     let picks = [
