@@ -158,9 +158,15 @@ impl Crs {
         let definition = if code == 27700 { BNG_PINNED } else { s }.to_string();
         let proj_err = |m: String| CrsError::Projection { code, message: m };
         let proj = Proj::from_proj_string(&definition).map_err(|e| {
-            proj_err(format!(
-                "the projection could not be set up ({e}); use UTM or longitude/latitude"
-            ))
+            let m = e.to_string();
+            // e.g. NAD27 definitions imply datum grids (proj4rs: "NAD grid not available").
+            if m.to_ascii_lowercase().contains("grid") {
+                CrsError::NeedsGridFiles(code)
+            } else {
+                proj_err(format!(
+                    "the projection could not be set up ({m}); use UTM or longitude/latitude"
+                ))
+            }
         })?;
         let wgs84 = wgs84_proj().map_err(proj_err)?;
         Ok(Crs {
@@ -275,6 +281,11 @@ mod tests {
         assert!(matches!(
             "EPSG:2263".parse::<Crs>(),
             Err(CrsError::NotMetres { .. })
+        ));
+        // NAD27 implies datum grids.
+        assert!(matches!(
+            "EPSG:2085".parse::<Crs>(),
+            Err(CrsError::NeedsGridFiles(2085))
         ));
         assert!(matches!(
             "EPSG:99999".parse::<Crs>(),
