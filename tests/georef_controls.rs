@@ -104,7 +104,10 @@ fn bad_values_name_file_line_and_column() {
     );
     // Unknown EPSG through the parser the CLI uses.
     let e = "EPSG:99999".parse::<Crs>().unwrap_err().to_string();
-    assert!(e.contains("EPSG:99999") && e.contains("tested"), "{e}");
+    assert!(
+        e.contains("EPSG:99999") && e.contains("checked against PROJ"),
+        "{e}"
+    );
 }
 
 #[test]

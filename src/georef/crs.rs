@@ -21,9 +21,10 @@ use proj4rs::transform::{Transform, TransformClosure, transform};
 
 /// Grids checked against outside values in this crate's tests (CHECKS.md
 /// §5.3 and DEPENDENCIES.md §4), listed in error messages.
-pub const TESTED_GRIDS: &str = "EPSG:326xx / 327xx (WGS 84 / UTM north / south), \
-EPSG:258xx (ETRS89 / UTM), EPSG:27700 (British National Grid, Helmert datum shift), \
-EPSG:31466-31469 (DHDN Gauss-Krüger, Helmert datum shift)";
+pub const TESTED_GRIDS: &str = "checked against PROJ to 1 mm: EPSG:326xx / 327xx (WGS 84 / UTM north / south), \
+EPSG:258xx (ETRS89 / UTM), EPSG:27700 (British National Grid, Helmert datum shift); \
+built from their EPSG definitions: most other metre grids, e.g. EPSG:31467 (DHDN Gauss-Krüger zone 3), \
+EPSG:2056 (Swiss LV95)";
 
 /// The British National Grid with the datum shift pinned to the EPSG:1314
 /// Helmert parameters PROJ uses (CHECKS.md 5.17); the built-in `OSGB36` datum
@@ -37,12 +38,12 @@ const BNG_PINNED: &str = "+proj=tmerc +lat_0=49 +lon_0=-2 +k=0.9996012717 +x_0=4
 pub enum CrsError {
     /// The text is not of the form `EPSG:<number>`.
     #[error(
-        "'{0}' is not a coordinate reference system name: write it as EPSG:<code>, e.g. EPSG:25832 (grids tested: {TESTED_GRIDS})"
+        "'{0}' is not a coordinate reference system name: write it as EPSG:<code>, e.g. EPSG:25832 (grids: {TESTED_GRIDS})"
     )]
     NotEpsg(String),
     /// No such EPSG code in the table.
     #[error(
-        "EPSG:{0} is not a coordinate reference system this program knows: check the code (grids tested: {TESTED_GRIDS}; most other metre grids of the EPSG data set also work)"
+        "EPSG:{0} is not a coordinate reference system this program knows: check the code (grids: {TESTED_GRIDS})"
     )]
     Unknown(u32),
     /// A geographic (longitude/latitude) system where a grid was expected.
