@@ -46,6 +46,7 @@ fn case() -> Case {
             end_chainage: s0 + alignment.elements()[i].length,
             start_chainage_ci95: (i > 0).then_some(0.8),
             extra: vec![("length_se_m".into(), 0.4)],
+            labels: vec![("status".into(), "determined".into())],
         });
     }
     let stations: Vec<Station> = (0..=((alignment.length() / 25.0) as usize))
@@ -177,6 +178,7 @@ fn document_follows_rfc_7946_and_the_checks() {
     assert!(e2["properties"]["start_radius_m"].is_null());
     assert_eq!(e2["properties"]["end_radius_m"].as_f64().unwrap(), -450.0);
     assert_eq!(e2["properties"]["length_se_m"].as_f64().unwrap(), 0.4);
+    assert_eq!(e2["properties"]["status"], "determined");
     // The element starts heading due north.
     let b = e2["properties"]["start_bearing_deg"].as_f64().unwrap();
     assert!(b.abs() < 1e-6 || (b - 360.0).abs() < 1e-6, "{b}");

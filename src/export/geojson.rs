@@ -44,6 +44,42 @@ pub struct ElementProps {
     /// Further numeric properties written as they are, e.g.
     /// `("length_se_m", 0.8)`, `("radius_se_m", 4.0)`. Names should carry their unit.
     pub extra: Vec<(String, f64)>,
+    /// Further text properties, e.g. `("status", "determined")`.
+    pub labels: Vec<(String, String)>,
+}
+
+impl ElementProps {
+    /// The properties of one element of the fit: chainages, the 95 %
+    /// half-interval of the start joint, standard errors of chainages, length
+    /// and radii (`_se_m`), readings, residual RMS (`residual_rms_mm`), status
+    /// and note.
+    pub fn from_fitted(e: &crate::fit::FittedElement) -> ElementProps {
+        let mut extra = vec![
+            ("start_chainage_se_m".to_string(), e.start_chainage.se),
+            ("end_chainage_se_m".to_string(), e.end_chainage.se),
+            ("length_se_m".to_string(), e.length.se),
+        ];
+        if let Some(r) = &e.start_radius {
+            extra.push(("start_radius_se_m".into(), r.se));
+        }
+        if let Some(r) = &e.end_radius {
+            extra.push(("end_radius_se_m".into(), r.se));
+        }
+        extra.push(("readings".into(), e.readings as f64));
+        extra.push(("residual_rms_mm".into(), e.residual_rms * 1e3));
+        let mut labels = vec![("status".to_string(), e.status.name().to_string())];
+        if !e.note.is_empty() {
+            labels.push(("note".into(), e.note.clone()));
+        }
+        ElementProps {
+            start_chainage: e.start_chainage.value,
+            end_chainage: e.end_chainage.value,
+            start_chainage_ci95: (!e.starts_at_survey_end)
+                .then_some(0.5 * (e.start_chainage.hi95 - e.start_chainage.lo95)),
+            extra,
+            labels,
+        }
+    }
 }
 
 /// Why the GeoJSON could not be written.
@@ -224,6 +260,9 @@ pub fn build_geojson(input: &GeoJsonInput) -> Result<Value, GeoJsonError> {
             );
             for (k, v) in &pr.extra {
                 p.insert(k.clone(), num(*v, &format!("{what}, property {k}"))?);
+            }
+            for (k, v) in &pr.labels {
+                p.insert(k.clone(), json!(v));
             }
             features.push(feature(
                 json!({"type": "LineString", "coordinates": coords}),
