@@ -30,6 +30,12 @@ fn args() -> GeorefArgs {
 fn no_placement_means_none() {
     let (g, d) = prepare(&args(), &survey()).unwrap();
     assert!(g.is_none() && d.is_empty());
+    // A bearing alone only orients the local frame.
+    let a = GeorefArgs {
+        start_bearing: Some("10".into()),
+        ..args()
+    };
+    assert!(prepare(&a, &survey()).unwrap().0.is_none());
 }
 
 #[test]
@@ -79,10 +85,10 @@ fn option_rules_give_clear_errors() {
         ),
         (
             GeorefArgs {
-                start_bearing: Some("10".into()),
+                crs: Some("EPSG:25832".into()),
                 ..args()
             },
-            "needs a start point",
+            "--crs names the grid",
         ),
         (
             GeorefArgs {

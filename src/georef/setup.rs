@@ -112,12 +112,14 @@ fn opts(m: &str) -> GeorefError {
 ///
 /// Returns `Ok((None, _))` when no placement was asked for (no
 /// `--start-lonlat`, `--start-grid` or `--control`): the survey stays in its
-/// local frame and nothing pretending to be on the Earth should be written.
+/// local frame (oriented by `--start-bearing` if given) and nothing
+/// pretending to be on the Earth should be written.
 ///
 /// Rules: a start point (`--start-lonlat` or `--start-grid`) needs
 /// `--start-bearing`; `--start-grid` needs `--crs`; a start point and
 /// `--control` exclude each other; `--start-bearing` with `--control` is the
-/// direction for a file with a single point.
+/// direction for a file with a single point; `--crs` needs a start point or
+/// control points.
 ///
 /// # Errors
 /// [`GeorefError`] naming the option, file, line or column at fault.
@@ -174,9 +176,10 @@ pub fn prepare(
         ));
     }
     if !has_start {
-        if args.start_bearing.is_some() {
+        // A bearing alone orients the local frame; nothing is placed.
+        if crs.is_some() {
             return Err(opts(
-                "--start-bearing needs a start point: add --start-lonlat LON,LAT (or --start-grid E,N with --crs), or use --control",
+                "--crs names the grid of a start point or of control points: add --start-grid E,N with --start-bearing, or --control FILE",
             ));
         }
         return Ok((None, diags));
