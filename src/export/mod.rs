@@ -2,6 +2,10 @@
 
 /// `elements.csv`: the fitted elements, and the terminal element table.
 pub mod elements;
+/// `alignment.geojson`: the placed survey as RFC 7946 GeoJSON.
+pub mod geojson;
+/// `alignment.xml`: the fitted elements as LandXML 1.2.
+pub mod landxml;
 pub mod output_dir;
 /// `stations.csv`: the plan at every station.
 pub mod stations;

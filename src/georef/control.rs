@@ -1,0 +1,846 @@
+//! Control points: known positions of a few points on the track, read from a
+//! small CSV file, checked against each other and against the survey, turned
+//! into position observations for the integrator, and judged afterwards.
+//!
+//! # File format
+//! Comma-separated, one header line, `#` starts a comment line; blank lines
+//! are skipped. Column names carry their unit, as in the survey file:
+//!
+//! | column | meaning |
+//! |---|---|
+//! | `chainage_m` or `chainage_ft` | survey chainage of the point (required) |
+//! | `lon_deg`, `lat_deg` | WGS 84 longitude and latitude, decimal degrees |
+//! | `easting_m`, `northing_m` | grid coordinates in the system named by `--crs EPSG:<code>` |
+//! | `sd_m`, `sd_mm` or `sd_ft` | standard deviation of each coordinate (optional; default 0.02 m) |
+//! | `id` | a name for the point (optional; default `CP<line>`) |
+//! | `note` | free text (optional, ignored) |
+//!
+//! Each point is a position of the **track centreline** (midway between the
+//! running edges) at the given survey chainage (the survey's chainage, along
+//! the measured rail). Exactly one of the coordinate pairs must be present.
+//! Example:
+//! ```text
+//! # GNSS fixes on the track centreline, ETRS89 / UTM 32N
+//! id,chainage_m,easting_m,northing_m,sd_m
+//! A,0.0,512345.678,5376543.210,0.02
+//! B,850.0,513101.004,5376912.551,0.02
+//! ```
+
+use std::io::Read;
+
+use crate::diag::{Diagnostic, Location};
+use crate::geometry::Pose;
+use crate::integrate::{Plan, PositionObs, PositionResidual, Station};
+use crate::survey::Survey;
+
+use super::crs::{Crs, CrsError};
+use super::place::{LonLat, PlaceError, Placement};
+
+/// Default standard deviation of a control coordinate when the file has no
+/// `sd` column, metres (a good GNSS RTK fix; common practice).
+pub const DEFAULT_SD: f64 = 0.02;
+
+/// Normalised residual above which a control point is flagged (about the
+/// 99.7 % point of a normal distribution; common practice).
+pub const FLAG_LIMIT: f64 = 3.0;
+
+/// Radius below which two control points whose ground distance is much
+/// shorter than their chainage difference are reported (main-line railway
+/// curves are rarely tighter; common practice, no source).
+pub const TIGHT_RADIUS: f64 = 150.0;
+
+/// Why the control points cannot be used. Every variant names the file and,
+/// where it applies, the line and column, and says what to do.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum ControlError {
+    /// The file could not be read.
+    #[error("{file}: cannot read the control-point file: {message}")]
+    Io {
+        /// File name as given.
+        file: String,
+        /// What the system said.
+        message: String,
+    },
+    /// A problem with the header line.
+    #[error("{file}:{line}: {message}")]
+    Header {
+        /// File name.
+        file: String,
+        /// 1-based line.
+        line: usize,
+        /// What is wrong and what to do.
+        message: String,
+    },
+    /// A value that cannot be used.
+    #[error("{file}:{line}, column {column}: {message}")]
+    Value {
+        /// File name.
+        file: String,
+        /// 1-based line.
+        line: usize,
+        /// Column name.
+        column: String,
+        /// What is wrong and what to do.
+        message: String,
+    },
+    /// Grid coordinates without `--crs`.
+    #[error(
+        "{file}: the file gives easting_m/northing_m, so the grid must be named: add --crs EPSG:<code> (e.g. --crs EPSG:25832 for ETRS89 / UTM 32N)"
+    )]
+    NeedsCrs {
+        /// File name.
+        file: String,
+    },
+    /// The coordinate system could not be used.
+    #[error("{file}: {source}")]
+    Crs {
+        /// File name.
+        file: String,
+        /// The underlying problem.
+        source: CrsError,
+    },
+    /// No data rows.
+    #[error("{file}: the file has no control points (only a header, comments or blank lines)")]
+    Empty {
+        /// File name.
+        file: String,
+    },
+    /// Too few points to place the survey without a start bearing.
+    #[error(
+        "{file}: one control point fixes the position but not the direction of the track: add a second point (preferably far along the survey) or give --start-bearing"
+    )]
+    TooFew {
+        /// File name.
+        file: String,
+    },
+    /// A point outside the surveyed chainage.
+    #[error(
+        "{file}:{line}: control point '{id}' is at chainage {chainage} m, outside the survey ({first} m to {last} m): correct its chainage or remove the line"
+    )]
+    OffSurvey {
+        /// File name.
+        file: String,
+        /// 1-based line.
+        line: usize,
+        /// Point name.
+        id: String,
+        /// Its chainage, metres.
+        chainage: f64,
+        /// First surveyed chainage, metres.
+        first: f64,
+        /// Last surveyed chainage, metres.
+        last: f64,
+    },
+    /// Two points that cannot both be right.
+    #[error("{file}:{line}: {message}")]
+    Contradiction {
+        /// File name.
+        file: String,
+        /// 1-based line of the second point of the pair.
+        line: usize,
+        /// Which points, what is impossible, what to do.
+        message: String,
+    },
+}
+
+/// One control point, converted to WGS 84 and metres.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ControlPoint {
+    /// Name.
+    pub id: String,
+    /// Survey chainage, metres.
+    pub chainage: f64,
+    /// WGS 84 position.
+    pub lonlat: LonLat,
+    /// Grid coordinates as given (easting, northing), metres, if the file had them.
+    pub grid: Option<(f64, f64)>,
+    /// Standard deviation of each coordinate, metres.
+    pub sd: f64,
+    /// 1-based line in the file.
+    pub line: usize,
+}
+
+/// The control points of one file, in chainage order.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ControlSet {
+    /// File name as given.
+    pub file: String,
+    /// The points, chainage strictly increasing.
+    pub points: Vec<ControlPoint>,
+}
+
+/// A control point's agreement with the rest.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ControlCheck {
+    /// Point name.
+    pub id: String,
+    /// 1-based line in the file.
+    pub line: usize,
+    /// Chainage, metres.
+    pub chainage: f64,
+    /// Observed minus adjusted, local east, metres.
+    pub dx: f64,
+    /// Observed minus adjusted, local north, metres.
+    pub dy: f64,
+    /// Normalised residual from the adjustment with all points.
+    pub normalised: f64,
+    /// Leave-one-out discrepancy: observed minus predicted from the other
+    /// points, metres (length of the vector), if computed.
+    pub loo_discrepancy: Option<f64>,
+    /// That discrepancy divided by its standard deviation.
+    pub loo_statistic: Option<f64>,
+    /// Whether the point disagrees with the rest (either statistic above [`FLAG_LIMIT`]).
+    pub flagged: bool,
+}
+
+#[derive(Clone, Copy, PartialEq)]
+enum Coords {
+    LonLat(usize, usize),
+    Grid(usize, usize),
+}
+
+fn find(headers: &[String], names: &[&str]) -> Option<(usize, String)> {
+    headers
+        .iter()
+        .position(|h| names.contains(&h.as_str()))
+        .map(|i| (i, headers[i].clone()))
+}
+
+/// Read a control-point file (format in the module documentation).
+///
+/// `crs` is the grid named by `--crs`; it is required when the file has
+/// `easting_m`/`northing_m` columns and unused for `lon_deg`/`lat_deg`
+/// (always WGS 84).
+///
+/// # Errors
+/// [`ControlError`] naming the file, line and column and saying what to do.
+///
+/// # Examples
+/// ```
+/// use chordline::georef::read_controls;
+/// let text = "# fixes\nid,chainage_m,lon_deg,lat_deg\nA,0,9.0,48.0\nB,500,9.005,48.002\n";
+/// let (set, notes) = read_controls(text.as_bytes(), "cp.csv", None).unwrap();
+/// assert_eq!(set.points.len(), 2);
+/// assert_eq!(set.points[1].line, 4);
+/// assert!(notes.is_empty());
+/// ```
+pub fn read_controls(
+    reader: impl Read,
+    file: &str,
+    crs: Option<&Crs>,
+) -> Result<(ControlSet, Vec<Diagnostic>), ControlError> {
+    let fname = file.to_string();
+    let mut text = String::new();
+    let mut reader = reader;
+    reader
+        .read_to_string(&mut text)
+        .map_err(|e| ControlError::Io {
+            file: fname.clone(),
+            message: format!("{e} (the file must be UTF-8 text)"),
+        })?;
+    // Our own line loop, so that line numbers count comments and blank lines.
+    let mut records = Vec::new();
+    for (i, raw) in text.trim_start_matches('\u{feff}').lines().enumerate() {
+        let t = raw.trim();
+        if t.is_empty() || t.starts_with('#') {
+            continue;
+        }
+        let mut r = csv::ReaderBuilder::new()
+            .has_headers(false)
+            .trim(csv::Trim::All)
+            .flexible(true)
+            .from_reader(t.as_bytes());
+        let rec = r
+            .records()
+            .next()
+            .unwrap_or_else(|| Ok(csv::StringRecord::new()))
+            .map_err(|e| ControlError::Io {
+                file: fname.clone(),
+                message: format!("line {}: {e}", i + 1),
+            })?;
+        records.push((i + 1, rec));
+    }
+    let mut records = records.into_iter();
+    let (headers, header_line) = match records.next() {
+        None => {
+            return Err(ControlError::Empty {
+                file: fname.clone(),
+            });
+        }
+        Some((line, r)) => (
+            r.iter().map(|h| h.to_ascii_lowercase()).collect::<Vec<_>>(),
+            line,
+        ),
+    };
+    let header_err = |m: String| ControlError::Header {
+        file: fname.clone(),
+        line: header_line,
+        message: m,
+    };
+    let (ch_col, ch_name) = find(&headers, &["chainage_m", "chainage_ft"]).ok_or_else(|| {
+        header_err(format!(
+            "no chainage column: the header needs chainage_m (or chainage_ft); it has: {}",
+            headers.join(", ")
+        ))
+    })?;
+    let ch_scale = if ch_name.ends_with("_ft") {
+        crate::units::FOOT
+    } else {
+        1.0
+    };
+    let lon = find(&headers, &["lon_deg"]);
+    let lat = find(&headers, &["lat_deg"]);
+    let east = find(&headers, &["easting_m"]);
+    let north = find(&headers, &["northing_m"]);
+    let coords = match (lon, lat, east, north) {
+        (Some(a), Some(b), None, None) => Coords::LonLat(a.0, b.0),
+        (None, None, Some(a), Some(b)) => Coords::Grid(a.0, b.0),
+        (Some(_), Some(_), Some(_), Some(_)) => {
+            return Err(header_err(
+                "the header has both lon_deg/lat_deg and easting_m/northing_m: keep one pair (one file, one kind of coordinates)".into(),
+            ));
+        }
+        _ => {
+            return Err(header_err(format!(
+                "the header needs a coordinate pair, lon_deg and lat_deg (WGS 84) or easting_m and northing_m (grid, with --crs); it has: {}",
+                headers.join(", ")
+            )));
+        }
+    };
+    if matches!(coords, Coords::Grid(..)) && crs.is_none() {
+        return Err(ControlError::NeedsCrs {
+            file: fname.clone(),
+        });
+    }
+    let sd_col = find(&headers, &["sd_m", "sd_mm", "sd_ft"]);
+    let id_col = find(&headers, &["id"]).map(|c| c.0);
+    let mut diags = Vec::new();
+    let known = [
+        "chainage_m",
+        "chainage_ft",
+        "lon_deg",
+        "lat_deg",
+        "easting_m",
+        "northing_m",
+        "sd_m",
+        "sd_mm",
+        "sd_ft",
+        "id",
+        "note",
+    ];
+    for h in &headers {
+        if !known.contains(&h.as_str()) {
+            diags.push(
+                Diagnostic::note(format!("column '{h}' is not used"))
+                    .at(Location {
+                        file: fname.clone(),
+                        line: header_line,
+                        column: Some(h.clone()),
+                    })
+                    .hint("known columns: chainage_m, lon_deg, lat_deg, easting_m, northing_m, sd_m, id, note"),
+            );
+        }
+    }
+
+    let mut points: Vec<ControlPoint> = Vec::new();
+    for (line, rec) in records {
+        let value_err = |col: &str, m: String| ControlError::Value {
+            file: fname.clone(),
+            line,
+            column: col.to_string(),
+            message: m,
+        };
+        let num = |i: usize| -> Result<f64, ControlError> {
+            let col = &headers[i];
+            let t = rec.get(i).unwrap_or("");
+            if t.is_empty() {
+                return Err(value_err(
+                    col,
+                    "empty: every control point needs this value".into(),
+                ));
+            }
+            let v: f64 = t
+                .parse()
+                .map_err(|_| value_err(col, format!("'{t}' is not a number")))?;
+            if !v.is_finite() {
+                return Err(value_err(col, format!("'{t}' is not a finite number")));
+            }
+            Ok(v)
+        };
+        let chainage = num(ch_col)? * ch_scale;
+        let sd = match &sd_col {
+            Some((i, name)) if !rec.get(*i).unwrap_or("").is_empty() => {
+                let v = num(*i)?
+                    * match name.as_str() {
+                        "sd_mm" => 1e-3,
+                        "sd_ft" => crate::units::FOOT,
+                        _ => 1.0,
+                    };
+                if v <= 0.0 {
+                    return Err(value_err(
+                        name,
+                        "a standard deviation must be positive: give the point's accuracy, e.g. 0.02 (m)".into(),
+                    ));
+                }
+                v
+            }
+            _ => DEFAULT_SD,
+        };
+        let (lonlat, grid) = match coords {
+            Coords::LonLat(a, b) => {
+                let (lo, la) = (num(a)?, num(b)?);
+                let ll = LonLat::new(lo, la).map_err(|e| match e {
+                    PlaceError::Latitude { .. } => value_err(
+                        "lat_deg",
+                        format!("latitude {la} is outside -90..90 degrees: check the value and that lon_deg and lat_deg are not swapped"),
+                    ),
+                    _ => value_err("lon_deg", format!("longitude {lo} is outside -180..180 degrees")),
+                })?;
+                (ll, None)
+            }
+            Coords::Grid(a, b) => {
+                let (e, n) = (num(a)?, num(b)?);
+                let Some(crs) = crs else {
+                    return Err(ControlError::NeedsCrs {
+                        file: fname.clone(),
+                    });
+                };
+                let (lo, la) = crs.to_lonlat(e, n).map_err(|err| {
+                    value_err(
+                        "easting_m",
+                        format!(
+                            "{err}; check that the coordinates belong to EPSG:{}",
+                            crs.code()
+                        ),
+                    )
+                })?;
+                let ll =
+                    LonLat::new(lo, la).map_err(|err| value_err("easting_m", err.to_string()))?;
+                (ll, Some((e, n)))
+            }
+        };
+        let id = id_col
+            .and_then(|i| rec.get(i))
+            .filter(|s| !s.is_empty())
+            .map_or_else(|| format!("CP{line}"), str::to_string);
+        points.push(ControlPoint {
+            id,
+            chainage,
+            lonlat,
+            grid,
+            sd,
+            line,
+        });
+    }
+    if points.is_empty() {
+        return Err(ControlError::Empty { file: fname });
+    }
+    points.sort_by(|a, b| a.chainage.total_cmp(&b.chainage));
+    for w in points.windows(2) {
+        if w[1].chainage == w[0].chainage {
+            return Err(ControlError::Contradiction {
+                file: fname.clone(),
+                line: w[1].line,
+                message: format!(
+                    "control points '{}' (line {}) and '{}' (line {}) have the same chainage {} m: keep one of them",
+                    w[0].id, w[0].line, w[1].id, w[1].line, w[0].chainage
+                ),
+            });
+        }
+    }
+    Ok((
+        ControlSet {
+            file: fname,
+            points,
+        },
+        diags,
+    ))
+}
+
+/// Solve `sin φ / φ = q` for φ in (0, π) by bisection (q in (0, 1)).
+fn half_angle_for_ratio(q: f64) -> f64 {
+    let (mut lo, mut hi) = (1e-12_f64, std::f64::consts::PI);
+    for _ in 0..200 {
+        let mid = 0.5 * (lo + hi);
+        if mid.sin() / mid > q {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    0.5 * (lo + hi)
+}
+
+impl ControlSet {
+    /// A placement with its origin at the first control point (in chainage order).
+    ///
+    /// # Errors
+    /// [`PlaceError::Height`] for an implausible height.
+    pub fn placement(&self, height: f64) -> Result<Placement, PlaceError> {
+        // `read_controls` never returns an empty set.
+        let origin = self
+            .points
+            .first()
+            .map_or(LonLat { lon: 0.0, lat: 0.0 }, |p| p.lonlat);
+        Placement::new(origin, height)
+    }
+
+    /// Check the points against the survey and against each other, and turn
+    /// them into position observations in the local frame of `placement`.
+    ///
+    /// Checks, in order:
+    /// * every point lies within the surveyed chainage (else
+    ///   [`ControlError::OffSurvey`] naming its line);
+    /// * for consecutive points, the ground distance cannot exceed the
+    ///   chainage difference (a chord is never longer than its arc) beyond
+    ///   3 standard deviations plus 0.5 % of the chainage difference
+    ///   (chainage scale error of odometers and tapes, common practice)
+    ///   plus 0.05 m (else [`ControlError::Contradiction`]);
+    /// * when the ground distance is much shorter than the chainage
+    ///   difference, the single circular arc joining them would be tighter
+    ///   than [`TIGHT_RADIUS`]: a warning naming both lines.
+    ///
+    /// # Errors
+    /// As listed above.
+    pub fn to_position_obs(
+        &self,
+        placement: &Placement,
+        survey: &Survey,
+    ) -> Result<(Vec<PositionObs>, Vec<Diagnostic>), ControlError> {
+        let first = survey.readings.first().map_or(0.0, |r| r.chainage);
+        let last = survey.readings.last().map_or(0.0, |r| r.chainage);
+        let mut diags = Vec::new();
+        for p in &self.points {
+            if p.chainage < first - 1e-9 || p.chainage > last + 1e-9 {
+                return Err(ControlError::OffSurvey {
+                    file: self.file.clone(),
+                    line: p.line,
+                    id: p.id.clone(),
+                    chainage: p.chainage,
+                    first,
+                    last,
+                });
+            }
+        }
+        for w in self.points.windows(2) {
+            let (a, b) = (&w[0], &w[1]);
+            let d = placement.ground_distance(a.lonlat, b.lonlat);
+            let s = b.chainage - a.chainage;
+            let tol = 3.0 * a.sd.hypot(b.sd) + 0.005 * s + 0.05;
+            if d > s + tol {
+                return Err(ControlError::Contradiction {
+                    file: self.file.clone(),
+                    line: b.line,
+                    message: format!(
+                        "control points '{}' (line {}) and '{}' (line {}) are {:.3} m apart on the ground but only {:.3} m apart in chainage, which no track can do: check the chainages and coordinates of these two lines",
+                        a.id, a.line, b.id, b.line, d, s
+                    ),
+                });
+            }
+            if d < s {
+                let q = (d / s).max(1e-9);
+                let phi = half_angle_for_ratio(q);
+                let r = s / (2.0 * phi);
+                if r < TIGHT_RADIUS {
+                    diags.push(
+                        Diagnostic::warning(format!(
+                            "control points '{}' (line {}) and '{}' (line {}) are {:.1} m apart on the ground but {:.1} m apart in chainage: the track between them would have to curve at a radius of {:.0} m or less",
+                            a.id, a.line, b.id, b.line, d, s, r
+                        ))
+                        .at(Location {
+                            file: self.file.clone(),
+                            line: b.line,
+                            column: None,
+                        })
+                        .hint("check the chainages and coordinates of these two lines"),
+                    );
+                }
+            }
+        }
+        let obs = self
+            .points
+            .iter()
+            .map(|p| {
+                let (x, y) = placement.to_local(p.lonlat.lon, p.lonlat.lat);
+                PositionObs {
+                    id: p.id.clone(),
+                    chainage: p.chainage,
+                    x,
+                    y,
+                    sd: p.sd,
+                }
+            })
+            .collect();
+        Ok((obs, diags))
+    }
+
+    /// A starting guess for the pose of the first station: heading from the
+    /// first to the last control point (or `bearing_deg`, true bearing, when
+    /// given), position extrapolated back from the first point along it.
+    ///
+    /// # Errors
+    /// [`ControlError::TooFew`] with one point and no bearing.
+    pub fn start_guess(
+        &self,
+        obs: &[PositionObs],
+        survey_start: f64,
+        bearing_deg: Option<f64>,
+    ) -> Result<Pose, ControlError> {
+        let heading = match (bearing_deg, obs.first(), obs.last()) {
+            (Some(b), _, _) => crate::geometry::bearing_to_heading(b),
+            (None, Some(a), Some(b)) if obs.len() >= 2 => (b.y - a.y).atan2(b.x - a.x),
+            _ => {
+                return Err(ControlError::TooFew {
+                    file: self.file.clone(),
+                });
+            }
+        };
+        let a = obs
+            .first()
+            .map_or((0.0, 0.0, survey_start), |a| (a.x, a.y, a.chainage));
+        let back = a.2 - survey_start;
+        Ok(Pose {
+            x: a.0 - back * heading.cos(),
+            y: a.1 - back * heading.sin(),
+            heading,
+        })
+    }
+
+    /// Judge the points after the adjustment: one [`ControlCheck`] per point
+    /// (in file chainage order), and a warning naming the line of every point
+    /// that disagrees with the rest.
+    ///
+    /// With leave-one-out results, a point whose prediction from the others
+    /// misses by more than [`FLAG_LIMIT`] standard deviations while the others
+    /// then agree (all normalised residuals ≤ [`FLAG_LIMIT`]) is singled out,
+    /// and only such points are flagged. Otherwise every point with a
+    /// normalised residual or leave-one-out statistic above [`FLAG_LIMIT`] is
+    /// flagged, with a summary warning when several are.
+    ///
+    /// `residuals` are the integrator's `Plan::position_residuals` (matched
+    /// by id). `loo` are optional leave-one-out results from
+    /// [`leave_one_out`], matched by id.
+    pub fn assess(
+        &self,
+        residuals: &[PositionResidual],
+        loo: &[LooResult],
+    ) -> (Vec<ControlCheck>, Vec<Diagnostic>) {
+        // A point is a culprit when it disagrees with the prediction from
+        // the others and the others agree once it is left out (one blunder
+        // spreads into every residual of a joint adjustment, so the residuals
+        // alone would flag innocent points too).
+        let culprit = |l: &LooResult| {
+            l.statistic > FLAG_LIMIT && l.rest_max_normalised.is_some_and(|m| m <= FLAG_LIMIT)
+        };
+        let any_culprit = loo.iter().any(culprit);
+        let mut checks = Vec::new();
+        let mut diags = Vec::new();
+        for p in &self.points {
+            let r = residuals.iter().find(|r| r.id == p.id);
+            let l = loo.iter().find(|l| l.id == p.id);
+            let (dx, dy, nr) = r.map_or((f64::NAN, f64::NAN, f64::NAN), |r| {
+                (r.dx, r.dy, r.normalised)
+            });
+            let is_culprit = l.is_some_and(culprit);
+            let flagged = if any_culprit {
+                is_culprit
+            } else {
+                nr > FLAG_LIMIT || l.is_some_and(|l| l.statistic > FLAG_LIMIT)
+            };
+            if flagged {
+                let mut msg = format!(
+                    "control point '{}' at chainage {:.3} m disagrees with the survey and the other points: residual {:.3} m",
+                    p.id,
+                    p.chainage,
+                    dx.hypot(dy)
+                );
+                if nr.is_finite() {
+                    msg.push_str(&format!(", normalised {nr:.1}"));
+                }
+                if let Some(l) = l {
+                    msg.push_str(&format!(
+                        "; predicted from the others it is off by {:.3} m ({:.1} standard deviations)",
+                        l.discrepancy, l.statistic
+                    ));
+                    if is_culprit && let Some(m) = l.rest_max_normalised {
+                        msg.push_str(&format!(
+                            ", and without it the other points agree (largest normalised residual {m:.1})"
+                        ));
+                    }
+                }
+                diags.push(
+                    Diagnostic::warning(msg)
+                        .at(Location {
+                            file: self.file.clone(),
+                            line: p.line,
+                            column: None,
+                        })
+                        .hint("check this point's chainage and coordinates, raise its sd_m, or remove it"),
+                );
+            }
+            checks.push(ControlCheck {
+                id: p.id.clone(),
+                line: p.line,
+                chainage: p.chainage,
+                dx,
+                dy,
+                normalised: nr,
+                loo_discrepancy: l.map(|l| l.discrepancy),
+                loo_statistic: l.map(|l| l.statistic),
+                flagged,
+            });
+        }
+        let n_flagged = checks.iter().filter(|c| c.flagged).count();
+        if !any_culprit && n_flagged >= 2 {
+            diags.push(
+                Diagnostic::warning(format!(
+                    "{n_flagged} of {} control points disagree with the survey and with each other, and no single point explains it",
+                    self.points.len()
+                ))
+                .at(Location {
+                    file: self.file.clone(),
+                    line: 1,
+                    column: None,
+                })
+                .hint("check for a constant offset between the survey's and the control points' chainages, the coordinate system (--crs) of the control points, the chord length and rail, and whether sd_m is realistic"),
+            );
+        }
+        (checks, diags)
+    }
+}
+
+/// Result of predicting one control point from all the others.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LooResult {
+    /// Point name.
+    pub id: String,
+    /// |observed − predicted|, metres.
+    pub discrepancy: f64,
+    /// Discrepancy divided by √(2 sd² + predicted position sd²).
+    pub statistic: f64,
+    /// Largest normalised residual of the other points in the solution
+    /// without this one (`None` if they had no residuals).
+    pub rest_max_normalised: Option<f64>,
+}
+
+/// Centreline position and its standard deviation at `chainage`, by cubic
+/// Hermite interpolation between the two neighbouring stations using their
+/// headings (exact for arcs to well under a millimetre at station spacings of
+/// a few metres). `None` outside the stations or where they are not finite.
+pub fn position_at(stations: &[Station], chainage: f64) -> Option<(f64, f64, f64)> {
+    let i = stations.partition_point(|s| s.chainage <= chainage);
+    let (a, b) = if i == 0 {
+        let a = stations.first()?;
+        return ((a.chainage - chainage).abs() < 1e-9).then_some((a.x, a.y, a.position_sd));
+    } else if i >= stations.len() {
+        let b = stations.last()?;
+        return ((b.chainage - chainage).abs() < 1e-9).then_some((b.x, b.y, b.position_sd));
+    } else {
+        (&stations[i - 1], &stations[i])
+    };
+    let h = b.chainage - a.chainage;
+    if h <= 0.0 {
+        return None;
+    }
+    // Tangent length: the chord between the stations (≈ the centreline arc).
+    let l = (b.x - a.x).hypot(b.y - a.y);
+    let t = (chainage - a.chainage) / h;
+    let (h00, h10, h01, h11) = (
+        2.0 * t.powi(3) - 3.0 * t * t + 1.0,
+        t.powi(3) - 2.0 * t * t + t,
+        -2.0 * t.powi(3) + 3.0 * t * t,
+        t.powi(3) - t * t,
+    );
+    let x = h00 * a.x + h10 * l * a.heading.cos() + h01 * b.x + h11 * l * b.heading.cos();
+    let y = h00 * a.y + h10 * l * a.heading.sin() + h01 * b.y + h11 * l * b.heading.sin();
+    let sd = (1.0 - t) * a.position_sd + t * b.position_sd;
+    (x.is_finite() && y.is_finite()).then_some((x, y, sd))
+}
+
+/// Leave-one-out test: for each observation, solve with all the others
+/// (`solve` runs the integration with the given observations and returns its
+/// plan) and compare the left-out point with the predicted position; also
+/// record whether the remaining points then agree among themselves.
+/// Needs at least three observations (returns nothing otherwise); points
+/// whose solve fails are skipped.
+///
+/// # Errors
+/// The first error from `solve`.
+pub fn leave_one_out<E>(
+    obs: &[PositionObs],
+    mut solve: impl FnMut(&[PositionObs]) -> Result<Plan, E>,
+) -> Result<Vec<LooResult>, E> {
+    let mut out = Vec::new();
+    if obs.len() < 3 {
+        return Ok(out);
+    }
+    for i in 0..obs.len() {
+        let rest: Vec<PositionObs> = obs
+            .iter()
+            .enumerate()
+            .filter(|&(j, _)| j != i)
+            .map(|(_, o)| o.clone())
+            .collect();
+        let plan = solve(&rest)?;
+        let rest_max = plan
+            .position_residuals
+            .iter()
+            .map(|r| r.normalised)
+            .filter(|v| v.is_finite())
+            .fold(None, |m: Option<f64>, v| Some(m.map_or(v, |m| m.max(v))));
+        let o = &obs[i];
+        if let Some((x, y, sd)) = position_at(&plan.stations, o.chainage) {
+            let d = (o.x - x).hypot(o.y - y);
+            // Two coordinates: the vector length's sd is about √2 × per-coordinate sd
+            // for the point; the prediction's sd is the lateral position sd.
+            let s = (2.0 * o.sd * o.sd + sd * sd).sqrt();
+            out.push(LooResult {
+                id: o.id.clone(),
+                discrepancy: d,
+                statistic: if s > 0.0 { d / s } else { f64::INFINITY },
+                rest_max_normalised: rest_max,
+            });
+        }
+    }
+    Ok(out)
+}
+
+/// Write the control-point checks as CSV (`controls.csv` in the output
+/// folder): `id, line, chainage_m, residual_east_m, residual_north_m,
+/// normalised_residual, loo_discrepancy_m, loo_statistic, flagged`. Values
+/// that were not computed are left empty; metres to 0.1 mm.
+///
+/// # Errors
+/// Any error of the writer.
+pub fn write_checks_csv(
+    mut w: impl std::io::Write,
+    checks: &[ControlCheck],
+) -> std::io::Result<()> {
+    let f = |v: Option<f64>, d: usize| match v {
+        Some(v) if v.is_finite() => format!("{v:.d$}"),
+        _ => String::new(),
+    };
+    let mut s = String::from(
+        "id,line,chainage_m,residual_east_m,residual_north_m,normalised_residual,loo_discrepancy_m,loo_statistic,flagged\n",
+    );
+    for c in checks {
+        let id = if c.id.contains([',', '"', '\n']) {
+            format!("\"{}\"", c.id.replace('"', "\"\""))
+        } else {
+            c.id.clone()
+        };
+        s.push_str(&format!(
+            "{id},{},{},{},{},{},{},{},{}\n",
+            c.line,
+            f(Some(c.chainage), 4),
+            f(Some(c.dx), 4),
+            f(Some(c.dy), 4),
+            f(Some(c.normalised), 2),
+            f(c.loo_discrepancy, 4),
+            f(c.loo_statistic, 2),
+            if c.flagged { "yes" } else { "no" }
+        ));
+    }
+    w.write_all(s.as_bytes())?;
+    w.flush()
+}

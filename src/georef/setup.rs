@@ -1,0 +1,217 @@
+//! From the command-line options to everything the integrator and the
+//! exporters need: one call, [`prepare`], so the rules on which options go
+//! together live in one place.
+
+use std::path::PathBuf;
+
+use crate::diag::Diagnostic;
+use crate::geometry::Pose;
+use crate::integrate::{PositionObs, PositionResidual};
+use crate::survey::Survey;
+
+use super::control::{ControlCheck, ControlError, ControlSet, LooResult, read_controls};
+use super::crs::{Crs, CrsError};
+use super::place::{LonLat, PlaceError, Placement, parse_bearing, parse_grid_point};
+
+/// The georeferencing options of `chordline run`, as the user typed them.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct GeorefArgs {
+    /// `--start-lonlat LON,LAT`: WGS 84 position of the first station.
+    pub start_lonlat: Option<String>,
+    /// `--start-grid E,N`: grid position of the first station (needs `--crs`).
+    pub start_grid: Option<String>,
+    /// `--start-bearing DEG`: true bearing of the track at the first station.
+    pub start_bearing: Option<String>,
+    /// `--crs EPSG:CODE`: the grid of `--start-grid`, of a control file's
+    /// easting/northing columns, and of the LandXML output.
+    pub crs: Option<String>,
+    /// `--control FILE`: control points.
+    pub control: Option<PathBuf>,
+    /// `--height M`: height of the track above the WGS 84 ellipsoid, metres (default 0).
+    pub height: Option<f64>,
+}
+
+/// Everything georeferencing gives the rest of the pipeline.
+#[derive(Debug, Clone)]
+pub struct Georef {
+    /// The tie between the local frame and WGS 84 (for GeoJSON, LandXML grids, true bearings).
+    pub placement: Placement,
+    /// The grid named by `--crs`, if any (LandXML coordinates go in it).
+    pub crs: Option<Crs>,
+    /// The control points, if a file was given.
+    pub controls: Option<ControlSet>,
+    /// Control points as observations in the local frame: `IntegrateOptions::position_obs`.
+    pub position_obs: Vec<PositionObs>,
+    /// Pose of the first station: `IntegrateOptions::start`.
+    pub start: Pose,
+}
+
+/// Why the georeferencing options cannot be used.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum GeorefError {
+    /// A bad start point, bearing or height.
+    #[error("{0}")]
+    Place(#[from] PlaceError),
+    /// A bad `--crs`.
+    #[error("--crs: {0}")]
+    Crs(#[from] CrsError),
+    /// A bad control file.
+    #[error("{0}")]
+    Control(#[from] ControlError),
+    /// Options that do not go together.
+    #[error("{0}")]
+    Options(String),
+}
+
+impl Georef {
+    /// WGS 84 (longitude, latitude) in degrees of a local point.
+    pub fn lonlat(&self, x: f64, y: f64) -> (f64, f64) {
+        self.placement.to_lonlat(x, y)
+    }
+
+    /// Grid (easting, northing) of a local point in the `--crs` grid, if one was given.
+    ///
+    /// # Errors
+    /// [`CrsError::Projection`] outside the grid's domain.
+    pub fn grid(&self, x: f64, y: f64) -> Result<Option<(f64, f64)>, CrsError> {
+        match &self.crs {
+            Some(c) => {
+                let (lon, lat) = self.placement.to_lonlat(x, y);
+                c.from_lonlat(lon, lat).map(Some)
+            }
+            None => Ok(None),
+        }
+    }
+
+    /// True bearing (degrees clockwise from true north) of a local pose:
+    /// use it for `bearing_deg` in outputs when the survey is placed (the
+    /// local frame's north turns away from true north away from the origin).
+    pub fn true_bearing(&self, pose: Pose) -> f64 {
+        self.placement.true_bearing(pose)
+    }
+
+    /// Judge the control points after the integration (see [`ControlSet::assess`]).
+    /// Returns nothing when there are no control points.
+    pub fn assess(
+        &self,
+        residuals: &[PositionResidual],
+        loo: &[LooResult],
+    ) -> (Vec<ControlCheck>, Vec<Diagnostic>) {
+        match &self.controls {
+            Some(c) => c.assess(residuals, loo),
+            None => (Vec::new(), Vec::new()),
+        }
+    }
+}
+
+fn opts(m: &str) -> GeorefError {
+    GeorefError::Options(m.to_string())
+}
+
+/// Turn the options into a placement, observations and a start pose.
+///
+/// Returns `Ok((None, _))` when no placement was asked for (no
+/// `--start-lonlat`, `--start-grid` or `--control`): the survey stays in its
+/// local frame (oriented by `--start-bearing` if given) and nothing
+/// pretending to be on the Earth should be written.
+///
+/// Rules: a start point (`--start-lonlat` or `--start-grid`) needs
+/// `--start-bearing`; `--start-grid` needs `--crs`; a start point and
+/// `--control` exclude each other; `--start-bearing` with `--control` is the
+/// direction for a file with a single point; `--crs` needs a start point or
+/// control points.
+///
+/// # Errors
+/// [`GeorefError`] naming the option, file, line or column at fault.
+pub fn prepare(
+    args: &GeorefArgs,
+    survey: &Survey,
+) -> Result<(Option<Georef>, Vec<Diagnostic>), GeorefError> {
+    let mut diags = Vec::new();
+    let crs = args.crs.as_deref().map(str::parse::<Crs>).transpose()?;
+    if let Some(c) = &crs
+        && let Some(n) = c.datum_note()
+    {
+        diags.push(Diagnostic::note(n));
+    }
+    let height = args.height.unwrap_or(0.0);
+    let bearing = args
+        .start_bearing
+        .as_deref()
+        .map(parse_bearing)
+        .transpose()?;
+    let first_chainage = survey.readings.first().map_or(0.0, |r| r.chainage);
+    let has_start = args.start_lonlat.is_some() || args.start_grid.is_some();
+    if args.start_lonlat.is_some() && args.start_grid.is_some() {
+        return Err(opts(
+            "give the start point once: --start-lonlat (WGS 84) or --start-grid (with --crs), not both",
+        ));
+    }
+    if has_start && args.control.is_some() {
+        return Err(opts(
+            "give either a start point (--start-lonlat/--start-grid with --start-bearing) or --control, not both: the control points place the survey on their own",
+        ));
+    }
+    if let Some(path) = &args.control {
+        let name = path.display().to_string();
+        let file = std::fs::File::open(path).map_err(|e| ControlError::Io {
+            file: name.clone(),
+            message: e.to_string(),
+        })?;
+        let (set, d) = read_controls(std::io::BufReader::new(file), &name, crs.as_ref())?;
+        diags.extend(d);
+        let placement = set.placement(height)?;
+        let (obs, d) = set.to_position_obs(&placement, survey)?;
+        diags.extend(d);
+        let start = set.start_guess(&obs, first_chainage, bearing)?;
+        return Ok((
+            Some(Georef {
+                placement,
+                crs,
+                controls: Some(set),
+                position_obs: obs,
+                start,
+            }),
+            diags,
+        ));
+    }
+    if !has_start {
+        // A bearing alone orients the local frame; nothing is placed.
+        if crs.is_some() {
+            return Err(opts(
+                "--crs names the grid of a start point or of control points: add --start-grid E,N with --start-bearing, or --control FILE",
+            ));
+        }
+        return Ok((None, diags));
+    }
+    let Some(bearing) = bearing else {
+        return Err(opts(
+            "a start point needs the direction of the track: add --start-bearing DEGREES (clockwise from true north)",
+        ));
+    };
+    let origin = match (&args.start_lonlat, &args.start_grid) {
+        (Some(t), _) => t.parse::<LonLat>()?,
+        (None, Some(t)) => {
+            let Some(c) = &crs else {
+                return Err(opts(
+                    "--start-grid needs --crs EPSG:<code> naming the grid (e.g. --crs EPSG:25832)",
+                ));
+            };
+            let (e, n) = parse_grid_point(t)?;
+            let (lon, lat) = c.to_lonlat(e, n)?;
+            LonLat::new(lon, lat)?
+        }
+        (None, None) => return Ok((None, diags)),
+    };
+    let placement = Placement::new(origin, height)?;
+    Ok((
+        Some(Georef {
+            placement,
+            crs,
+            controls: None,
+            position_obs: Vec::new(),
+            start: Placement::start_pose(bearing),
+        }),
+        diags,
+    ))
+}
