@@ -8,10 +8,15 @@
 
 use crate::diag::Diagnostic;
 use crate::export::elements::write_elements_csv;
+use crate::export::geojson::{ElementProps, GeoJsonError, GeoJsonInput, write_geojson};
+use crate::export::landxml::{LandXmlError, LandXmlFrame, LandXmlOptions, write_landxml};
 use crate::export::output_dir::{OutputDir, OutputError};
 use crate::export::stations::{DesignAtStation, write_stations};
 use crate::fit::{FitOptions, FitResult, fit};
 use crate::geometry::{Pose, bearing_to_heading};
+use crate::georef::{
+    ControlCheck, Georef, GeorefArgs, GeorefError, leave_one_out, prepare, write_checks_csv,
+};
 use crate::integrate::{IntegrateError, IntegrateOptions, Plan, integrate};
 use crate::survey::read::{ReadOptions, SurveyError, read_survey_file};
 use crate::survey::{Rail, Setup, Survey};
@@ -30,6 +35,13 @@ pub struct Options {
     pub start_bearing_deg: f64,
     /// Options of the element fit; `None` skips the fit.
     pub fit: Option<FitOptions>,
+    /// Placing the survey on the Earth: start point and bearing, or control
+    /// points (all empty: a local frame, oriented by `start_bearing_deg`).
+    pub georef: GeorefArgs,
+    /// Time stamp written into LandXML (its schema requires one). `None`:
+    /// the survey file's modification time, so that the same input gives the
+    /// same bytes.
+    pub created: Option<std::time::SystemTime>,
 }
 
 impl Options {
@@ -40,6 +52,8 @@ impl Options {
             rail_stated: true,
             start_bearing_deg: 0.0,
             fit: Some(FitOptions::default()),
+            georef: GeorefArgs::default(),
+            created: None,
         }
     }
 }
@@ -53,6 +67,9 @@ pub enum RunError {
     /// The integration could not run.
     #[error(transparent)]
     Integrate(#[from] IntegrateError),
+    /// The georeferencing options or the control-point file are unusable.
+    #[error(transparent)]
+    Georef(#[from] GeorefError),
     /// The output folder could not be written.
     #[error(transparent)]
     Output(#[from] OutputError),
@@ -64,7 +81,7 @@ impl RunError {
     pub fn is_internal(&self) -> bool {
         match self {
             RunError::Output(e) => e.is_internal(),
-            RunError::Survey(_) | RunError::Integrate(_) => false,
+            RunError::Survey(_) | RunError::Integrate(_) | RunError::Georef(_) => false,
         }
     }
 }
@@ -83,6 +100,10 @@ pub struct Results {
     /// The design placed in the plan frame and its values at every station
     /// (with `fit`).
     pub design: Option<(crate::geometry::Alignment, Vec<DesignAtStation>)>,
+    /// The placement on the Earth, when one was asked for.
+    pub georef: Option<Georef>,
+    /// The verdict on each control point (empty without control points).
+    pub control_checks: Vec<ControlCheck>,
     /// Warnings and notes of every stage, in stage order.
     pub diagnostics: Vec<Diagnostic>,
 }
@@ -98,15 +119,36 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
             setup.rail = r.rail;
         }
     }
-    let iopts = IntegrateOptions {
-        start: Pose {
-            x: 0.0,
-            y: 0.0,
-            heading: bearing_to_heading(opts.start_bearing_deg),
+    let (georef, mut diagnostics) = prepare(&opts.georef, &survey)?;
+    let iopts = match &georef {
+        Some(g) => IntegrateOptions {
+            start: g.start,
+            position_obs: g.position_obs.clone(),
         },
-        position_obs: Vec::new(),
+        None => IntegrateOptions {
+            start: Pose {
+                x: 0.0,
+                y: 0.0,
+                heading: bearing_to_heading(opts.start_bearing_deg),
+            },
+            position_obs: Vec::new(),
+        },
     };
-    let (plan, mut diagnostics) = integrate(&survey, &setup, &iopts)?;
+    let (plan, mut d) = integrate(&survey, &setup, &iopts)?;
+    diagnostics.append(&mut d);
+    let mut control_checks = Vec::new();
+    if let Some(g) = &georef {
+        let loo = leave_one_out(&iopts.position_obs, |obs| {
+            let o = IntegrateOptions {
+                start: iopts.start,
+                position_obs: obs.to_vec(),
+            };
+            integrate(&survey, &setup, &o).map(|(p, _)| p)
+        })?;
+        let (checks, mut d) = g.assess(&plan.position_residuals, &loo);
+        diagnostics.append(&mut d);
+        control_checks = checks;
+    }
     let (mut fitted, mut design) = (None, None);
     if let Some(fopts) = &opts.fit {
         let mut fopts = fopts.clone();
@@ -139,6 +181,8 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
         plan,
         fit: fitted,
         design,
+        georef,
+        control_checks,
         diagnostics,
     })
 }
@@ -186,6 +230,53 @@ pub fn run(
     if let Some(f) = &results.fit {
         dir.write_file("elements.csv", |w| write_elements_csv(f, unit, w))?;
     }
+    let props: Vec<ElementProps> = results
+        .fit
+        .iter()
+        .flat_map(|f| f.elements.iter().map(ElementProps::from_fitted))
+        .collect();
+    if let Some(g) = &results.georef {
+        let input = GeoJsonInput {
+            placement: &g.placement,
+            stations: &results.plan.stations,
+            design: results.design.as_ref().map(|(a, _)| (a, props.as_slice())),
+            controls: g
+                .controls
+                .as_ref()
+                .map(|c| (c, results.control_checks.as_slice())),
+        };
+        dir.write_file("alignment.geojson", |w| {
+            write_geojson(w, &input).map_err(GeoJsonError::into_io)
+        })?;
+        if g.controls.is_some() {
+            dir.write_file("controls.csv", |w| {
+                write_checks_csv(w, &results.control_checks)
+            })?;
+        }
+    }
+    if let Some((placed, _)) = &results.design {
+        let frame = match &results.georef {
+            Some(Georef {
+                placement,
+                crs: Some(crs),
+                ..
+            }) => LandXmlFrame::Grid { placement, crs },
+            Some(g) => LandXmlFrame::Local {
+                placement: Some(&g.placement),
+            },
+            None => LandXmlFrame::Local { placement: None },
+        };
+        let lopts = LandXmlOptions {
+            name: survey_path
+                .file_stem()
+                .map_or("alignment".into(), |s| s.to_string_lossy().into_owned()),
+            unit,
+            created: opts.created.unwrap_or_else(|| stamp(survey_path)),
+        };
+        dir.write_file("alignment.xml", |w| {
+            write_landxml(w, placed, &props, frame, &lopts).map_err(LandXmlError::into_io)
+        })?;
+    }
     let files = dir.files().to_vec();
     let folder = dir.commit()?;
     Ok(Outcome {
@@ -193,4 +284,18 @@ pub fn run(
         folder,
         files,
     })
+}
+
+/// A reproducible time stamp for a run: `SOURCE_DATE_EPOCH` if set (the
+/// reproducible-builds convention), else the survey file's modification time.
+fn stamp(survey_path: &Path) -> std::time::SystemTime {
+    if let Some(secs) = std::env::var("SOURCE_DATE_EPOCH")
+        .ok()
+        .and_then(|s| s.trim().parse::<u64>().ok())
+    {
+        return std::time::UNIX_EPOCH + std::time::Duration::from_secs(secs);
+    }
+    std::fs::metadata(survey_path)
+        .and_then(|m| m.modified())
+        .unwrap_or(std::time::UNIX_EPOCH)
 }

@@ -4,6 +4,7 @@ use super::Failure;
 use super::simulate::{MarkingArg, RailArg};
 use super::util::small_length;
 use chordline::diag::Diagnostic;
+use chordline::georef::{GeorefArgs, parse_bearing};
 use chordline::pipeline::{self, Options, Outcome};
 use chordline::survey::{Rail, Setup};
 use chordline::units::Length;
@@ -33,9 +34,24 @@ pub struct RunArgs {
     /// Standard deviation of one reading, e.g. 1mm (default: estimated from the readings).
     #[arg(long, value_parser = small_length)]
     pub reading_sd: Option<f64>,
-    /// Bearing of the track at the first station, degrees clockwise from north.
-    #[arg(long, default_value_t = 0.0, allow_negative_numbers = true)]
-    pub start_bearing: f64,
+    /// Bearing of the track at the first station, degrees clockwise from (true) north; default 0.
+    #[arg(long, allow_negative_numbers = true)]
+    pub start_bearing: Option<String>,
+    /// Place the first station at this WGS 84 longitude,latitude (decimal degrees), e.g. 9.1234,48.5678.
+    #[arg(long, value_name = "LON,LAT", allow_negative_numbers = true)]
+    pub start_lonlat: Option<String>,
+    /// Place the first station at this grid easting,northing (in the grid of --crs).
+    #[arg(long, value_name = "E,N", allow_negative_numbers = true)]
+    pub start_grid: Option<String>,
+    /// Control points (CSV: chainage and known coordinates of a few points on the track).
+    #[arg(long, value_name = "FILE")]
+    pub control: Option<PathBuf>,
+    /// Grid of --start-grid, of the control file's easting/northing and of the LandXML output, e.g. EPSG:25832.
+    #[arg(long, value_name = "EPSG:CODE")]
+    pub crs: Option<String>,
+    /// Height of the track above the WGS 84 ellipsoid, metres (scales ground lengths to the ellipsoid).
+    #[arg(long, allow_negative_numbers = true)]
+    pub height: Option<f64>,
     /// Replace the output folder if it exists.
     #[arg(long)]
     pub force: bool,
@@ -48,7 +64,7 @@ pub struct RunArgs {
 }
 
 impl RunArgs {
-    fn options(&self) -> Options {
+    fn options(&self) -> Result<Options, Failure> {
         let mut setup = Setup::new(
             self.chord.metres(),
             self.rail.map_or(Rail::Left, Rail::from),
@@ -56,21 +72,34 @@ impl RunArgs {
         setup.gauge = self.gauge;
         setup.marking = self.marking.into();
         setup.reading_sd = self.reading_sd;
-        Options {
+        let start_bearing_deg = match &self.start_bearing {
+            Some(b) => parse_bearing(b).map_err(|e| Failure::Input(e.into()))?,
+            None => 0.0,
+        };
+        Ok(Options {
             setup,
             rail_stated: self.rail.is_some(),
-            start_bearing_deg: self.start_bearing,
+            start_bearing_deg,
+            georef: GeorefArgs {
+                start_lonlat: self.start_lonlat.clone(),
+                start_grid: self.start_grid.clone(),
+                start_bearing: self.start_bearing.clone(),
+                crs: self.crs.clone(),
+                control: self.control.clone(),
+                height: self.height,
+            },
+            created: None,
             fit: (!self.no_fit).then(|| chordline::fit::FitOptions {
                 reading_sd: self.reading_sd,
                 ..Default::default()
             }),
-        }
+        })
     }
 }
 
 /// Run `chordline run`.
 pub fn run(a: RunArgs) -> Result<(), Failure> {
-    let outcome = execute(&a.survey, &a.options(), &a.out, a.force)?;
+    let outcome = execute(&a.survey, &a.options()?, &a.out, a.force)?;
     print_outcome(&outcome, a.quiet);
     Ok(())
 }

@@ -108,6 +108,17 @@ pub enum GeoJsonError {
     Io(#[from] std::io::Error),
 }
 
+impl GeoJsonError {
+    /// As an I/O error (the output folder writer takes `io::Result`); the
+    /// message is kept.
+    pub fn into_io(self) -> std::io::Error {
+        match self {
+            GeoJsonError::Io(e) => e,
+            other => std::io::Error::new(std::io::ErrorKind::InvalidData, other.to_string()),
+        }
+    }
+}
+
 /// What to put in the file. Only `placement` and `stations` are required.
 #[derive(Debug, Clone, Copy)]
 pub struct GeoJsonInput<'a> {

@@ -103,6 +103,17 @@ pub enum LandXmlError {
     Io(#[from] std::io::Error),
 }
 
+impl LandXmlError {
+    /// As an I/O error (the output folder writer takes `io::Result`); the
+    /// message is kept.
+    pub fn into_io(self) -> std::io::Error {
+        match self {
+            LandXmlError::Io(e) => e,
+            other => std::io::Error::new(std::io::ErrorKind::InvalidData, other.to_string()),
+        }
+    }
+}
+
 /// Proleptic Gregorian date from days since 1970-01-01 (H. Hinnant's
 /// `civil_from_days` algorithm, public domain description "chrono-Compatible
 /// Low-Level Date Algorithms").
