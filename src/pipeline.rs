@@ -230,6 +230,9 @@ pub fn run(
     if let Some(f) = &results.fit {
         dir.write_file("elements.csv", |w| write_elements_csv(f, unit, w))?;
     }
+    dir.write_file("report.html", |w| {
+        w.write_all(crate::report::html_report(&results).as_bytes())
+    })?;
     let props: Vec<ElementProps> = results
         .fit
         .iter()

@@ -174,3 +174,29 @@ fn demo_says_where_it_wrote() {
     );
     assert!(out.join("stations.csv").exists());
 }
+
+#[test]
+fn the_report_is_one_self_contained_html_file() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("out");
+    let o = chordline(&[
+        "run",
+        demo_survey().to_str().unwrap(),
+        "--chord",
+        "20m",
+        "--rail",
+        "left",
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let html = std::fs::read_to_string(out.join("report.html")).unwrap();
+    assert!(html.starts_with("<!DOCTYPE html>"));
+    // Versines, curvature, residuals, plan and uncertainty diagrams.
+    assert_eq!(html.matches("<svg").count(), 5, "diagrams");
+    assert!(html.contains("Caution"));
+    // Self-contained: no scripts, no outside resources.
+    for bad in ["<script", "src=\"http", "href=\"http", "NaN"] {
+        assert!(!html.contains(bad), "report contains {bad}");
+    }
+}

@@ -1,5 +1,11 @@
-//! Human-readable summaries of a run (text for the terminal). The library
-//! returns strings; the command-line tool prints them.
+//! Human-readable summaries of a run: text for the terminal and a
+//! self-contained HTML report. The library returns strings; the command-line
+//! tool prints or writes them.
+
+mod html;
+pub mod svg;
+
+pub use html::html_report;
 
 use crate::diag::Severity;
 use crate::geometry::heading_to_bearing;
