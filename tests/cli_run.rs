@@ -200,3 +200,47 @@ fn the_report_is_one_self_contained_html_file() {
         assert!(!html.contains(bad), "report contains {bad}");
     }
 }
+
+#[test]
+fn batch_writes_one_folder_per_survey_and_reports_failures() {
+    let dir = tempfile::tempdir().unwrap();
+    let good = dir.path().join("good.csv");
+    std::fs::copy(demo_survey(), &good).unwrap();
+    let bad = dir.path().join("bad.csv");
+    std::fs::write(&bad, "chainage_m,versine_mm\n0,1\n10,oops\n").unwrap();
+    let out = dir.path().join("out");
+    let o = chordline(&[
+        "batch",
+        good.to_str().unwrap(),
+        bad.to_str().unwrap(),
+        "--chord",
+        "20m",
+        "--rail",
+        "left",
+        "--jobs",
+        "2",
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    assert!(stderr(&o).contains("bad.csv:3"), "{}", stderr(&o));
+    assert!(out.join("good/stations.csv").exists());
+    assert!(!out.join("bad").exists());
+    // The same survey alone gives the same bytes as in the batch.
+    let single = dir.path().join("single");
+    let s = chordline(&[
+        "run",
+        good.to_str().unwrap(),
+        "--chord",
+        "20m",
+        "--rail",
+        "left",
+        "--out",
+        single.to_str().unwrap(),
+    ]);
+    assert!(s.status.success(), "{}", stderr(&s));
+    assert_eq!(
+        std::fs::read(single.join("elements.csv")).unwrap(),
+        std::fs::read(out.join("good/elements.csv")).unwrap()
+    );
+}

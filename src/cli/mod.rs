@@ -1,6 +1,7 @@
 //! Command-line interface: argument parsing, terminal output and exit codes.
 //! Only this module (and `main.rs`) knows about clap, stderr and exit codes.
 
+mod batch;
 mod demo;
 mod run;
 mod simulate;
@@ -21,7 +22,9 @@ pub struct Cli {
 #[derive(Debug, Subcommand)]
 enum Command {
     /// Reconstruct the alignment from a versine survey file and write an output folder.
-    Run(run::RunArgs),
+    Run(run::RunCommand),
+    /// Run many surveys with the same set-up in parallel, one output folder each.
+    Batch(batch::BatchArgs),
     /// Run the whole job on the bundled demo survey and say where it wrote.
     Demo(demo::DemoArgs),
     /// Write the survey a chord would measure on a known design (exact geometry, optional noise).
@@ -58,6 +61,7 @@ pub fn main() -> ExitCode {
     };
     let result = match cli.command {
         Command::Run(a) => run::run(a),
+        Command::Batch(a) => batch::run(a),
         Command::Demo(a) => demo::run(a),
         Command::Simulate(a) => simulate::run(a),
     };

@@ -13,9 +13,17 @@ use std::path::{Path, PathBuf};
 
 /// Options of `chordline run`.
 #[derive(Debug, Args)]
-pub struct RunArgs {
+pub struct RunCommand {
     /// Survey file (CSV): chainage and versine columns with units in their names.
     pub survey: PathBuf,
+    /// Everything else.
+    #[command(flatten)]
+    pub args: RunArgs,
+}
+
+/// The set-up and output options of `chordline run` (shared with `batch`).
+#[derive(Debug, Args)]
+pub struct RunArgs {
     /// Chord length with unit, e.g. 20m or 62ft.
     #[arg(long)]
     pub chord: Length,
@@ -64,7 +72,8 @@ pub struct RunArgs {
 }
 
 impl RunArgs {
-    fn options(&self) -> Result<Options, Failure> {
+    /// The pipeline options these arguments stand for.
+    pub fn options(&self) -> Result<Options, Failure> {
         let mut setup = Setup::new(
             self.chord.metres(),
             self.rail.map_or(Rail::Left, Rail::from),
@@ -98,8 +107,9 @@ impl RunArgs {
 }
 
 /// Run `chordline run`.
-pub fn run(a: RunArgs) -> Result<(), Failure> {
-    let outcome = execute(&a.survey, &a.options()?, &a.out, a.force)?;
+pub fn run(c: RunCommand) -> Result<(), Failure> {
+    let a = &c.args;
+    let outcome = execute(&c.survey, &a.options()?, &a.out, a.force)?;
     print_outcome(&outcome, a.quiet);
     Ok(())
 }
