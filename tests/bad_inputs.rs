@@ -360,7 +360,9 @@ const CASES: &[(&str, &str, Option<Rail>, &str)] = &[
     ),
     ("ok/bom.csv", "20m", L, ""),
     ("ok/comments_and_blank_lines.csv", "20m", L, ""),
+    ("ok/cr_line_ends.csv", "20m", L, ""),
     ("ok/crlf.csv", "20m", L, ""),
+    ("ok/excel_sep_line.csv", "20m", L, ""),
     ("ok/dense_readings.csv", "20m", L, ""),
     (
         "ok/extra_columns.csv",

@@ -132,6 +132,11 @@ pub fn read_survey_bytes(
     if text.trim().is_empty() {
         return Err(SurveyError::file(name, SurveyErrorKind::Empty));
     }
+    // Old Mac line ends (CR alone), as "CSV (Macintosh)" exports still write.
+    if !text.contains('\n') && text.contains('\r') {
+        let unix = text.replace('\r', "\n");
+        return Reader::new(name, &unix, opts).run();
+    }
     Reader::new(name, text, opts).run()
 }
 
@@ -197,11 +202,19 @@ impl<'a> Reader<'a> {
         let ends_with_newline = self.text.ends_with('\n');
         let mut lines = text::lines(self.text);
 
-        // Header: the first line that is neither blank nor a comment.
+        // Header: the first line that is neither blank nor a comment (nor a
+        // spreadsheet's `sep=;` line, which names the delimiter).
         let mut header = None;
+        let mut sep_line = None;
         for (no, line) in lines.by_ref() {
             match text::classify(line).map_err(|k| SurveyError::line(name, no, k))? {
                 LineKind::Content => {
+                    if sep_line.is_none()
+                        && let Some(d) = text::sep_directive(line)
+                    {
+                        sep_line = Some(d);
+                        continue;
+                    }
                     header = Some((no, line));
                     break;
                 }
@@ -211,7 +224,7 @@ impl<'a> Reader<'a> {
         let Some((header_line, header_text)) = header else {
             return Err(SurveyError::file(name, SurveyErrorKind::NoHeader));
         };
-        let delim = text::detect_delimiter(header_text);
+        let delim = sep_line.unwrap_or_else(|| text::detect_delimiter(header_text));
         let decimal_comma = delim != ',';
         let mut cells: Vec<Cow<'_, str>> = Vec::new();
         text::split_into(header_text, delim, &mut cells)

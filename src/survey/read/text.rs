@@ -115,6 +115,23 @@ pub(crate) fn detect_delimiter(header: &str) -> char {
     best
 }
 
+/// The delimiter named by a spreadsheet's first line `sep=;` (also `sep=,`
+/// and `sep=<TAB>`), if `line` is one.
+pub(crate) fn sep_directive(line: &str) -> Option<char> {
+    let rest = line
+        .trim_start()
+        .get(..4)
+        .filter(|p| p.eq_ignore_ascii_case("sep="))
+        .and_then(|_| line.trim_start().get(4..))?;
+    let rest = rest.trim_end_matches([' ', '\r']);
+    match rest {
+        "," => Some(','),
+        ";" => Some(';'),
+        "\t" => Some('\t'),
+        _ => None,
+    }
+}
+
 /// Split one line into trimmed cells. A cell may be quoted with `"`, with
 /// `""` for a literal quote; the quote must close on the same line.
 pub(crate) fn split_into<'a>(
@@ -336,5 +353,9 @@ mod tests {
         assert_eq!(detect_delimiter("chainage_m;versine_mm"), ';');
         assert_eq!(detect_delimiter("chainage_m\tversine_mm"), '\t');
         assert_eq!(detect_delimiter("chainage_m,versine_mm"), ',');
+        assert_eq!(sep_directive("sep=;"), Some(';'));
+        assert_eq!(sep_directive("SEP=\t"), Some('\t'));
+        assert_eq!(sep_directive("sep=x"), None);
+        assert_eq!(sep_directive("chainage_m,versine_mm"), None);
     }
 }
