@@ -257,6 +257,12 @@ const CASES: &[(&str, &str, Option<Rail>, &str)] = &[
         "bad/single_reading.csv:2: the survey has only 1 reading(s); at least 3 are needed to work out an alignment (a reading every half chord or closer)",
     ),
     (
+        "bad/space_thousands.csv",
+        "20m",
+        L,
+        "bad/space_thousands.csv:2, column chainage_m (field 1): '12 300' is not a number; write numbers without thousands separators and with one decimal separator, e.g. 1234,5",
+    ),
+    (
         "bad/spacing_break.csv",
         "20m",
         L,

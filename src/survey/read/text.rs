@@ -279,6 +279,14 @@ pub(crate) fn parse_number(s: &str, decimal_comma: bool) -> Result<(f64, u32), N
             return Err(NumProblem::HasUnit(unit.to_string()));
         }
     }
+    // Digit groups separated by spaces (`1 234,5`, also no-break and thin
+    // spaces, as some locales write thousands).
+    if t.contains([' ', '\u{a0}', '\u{202f}']) {
+        let joined: String = t.chars().filter(|c| !c.is_whitespace()).collect();
+        if parse_number(&joined, decimal_comma).is_ok() {
+            return Err(NumProblem::Separators);
+        }
+    }
     if let Some((a, b)) = t.split_once('+')
         && !a.is_empty()
         && a.bytes().all(|c| c.is_ascii_digit())
@@ -325,6 +333,11 @@ mod tests {
         );
         assert_eq!(parse_number("#DIV/0!", false), Err(NumProblem::SheetError));
         assert_eq!(parse_number("1.234,5", true), Err(NumProblem::Separators));
+        assert_eq!(parse_number("1 234,5", true), Err(NumProblem::Separators));
+        assert_eq!(
+            parse_number("1\u{202f}234", false),
+            Err(NumProblem::Separators)
+        );
         assert_eq!(
             parse_number("12,5", false),
             Err(NumProblem::DecimalCommaInCommaFile)
