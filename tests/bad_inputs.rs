@@ -529,6 +529,20 @@ fn truncated_in_optional_fields_is_a_warning() {
 }
 
 #[test]
+fn truncated_inside_a_quoted_note_is_refused() {
+    let mut b = plain();
+    b.extend_from_slice(b"1160,0,L,\"bridge, pi");
+    check_generated(
+        "cut.csv",
+        &b,
+        true,
+        "20m",
+        None,
+        "cut.csv:19: the last line has 4 of 4 fields and the file ends in the middle of it: the file may have been cut off; restore the whole file from its source, or delete the incomplete last line",
+    );
+}
+
+#[test]
 fn chord_zero_negative_or_nan_is_refused() {
     for chord in [0.0, -20.0, f64::NAN, f64::INFINITY] {
         let opts = ReadOptions {

@@ -264,13 +264,23 @@ impl<'a> Reader<'a> {
                 LineKind::Blank | LineKind::Comment => continue,
                 LineKind::Content => {}
             }
-            text::split_into(line, delim, &mut cells)
-                .map_err(|k| SurveyError::line(name, no, k))?;
+            let is_last = no == total_lines;
+            if let Err(k) = text::split_into(line, delim, &mut cells) {
+                // A file cut inside a quoted note ends in an open quote.
+                let kind = if is_last && !ends_with_newline {
+                    SurveyErrorKind::Truncated {
+                        found: line[..line.rfind('"').unwrap_or(0)].matches(delim).count() + 1,
+                        expected: ncols,
+                    }
+                } else {
+                    k
+                };
+                return Err(SurveyError::line(name, no, kind));
+            }
             if cells.iter().all(|c| c.is_empty()) {
                 // Padding rows that spreadsheets write (",,,").
                 continue;
             }
-            let is_last = no == total_lines;
             if cells.len() < ncols && is_last && !ends_with_newline {
                 if cells.len() <= required_max {
                     return Err(SurveyError::line(
