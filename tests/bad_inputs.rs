@@ -385,6 +385,12 @@ const CASES: &[(&str, &str, Option<Rail>, &str)] = &[
     ),
     ("ok/header_variants.csv", "20m", None, ""),
     (
+        "ok/inch_column_maybe_mm.csv",
+        "62ft",
+        L,
+        "ok/inch_column_maybe_mm.csv:2, column versine_in: warning: a tenth of the versines are 40 in or more, which on a chord of 18.8976 m (62 ft) means curves of radius 44 m or less, sharper than almost any railway; as millimetres they would mean radius about 1116 m (if the values are millimetres, rename the column versine_mm; check --chord too)",
+    ),
+    (
         "ok/irregular_spacing.csv",
         "20m",
         L,

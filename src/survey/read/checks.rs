@@ -12,6 +12,13 @@ use crate::units::VersineUnit;
 /// about 15–20 m and main lines rarely below 150 m (common practice, from
 /// memory); a versine implying less than this is not a railway reading.
 pub(crate) const MIN_RADIUS: f64 = 15.0;
+/// Below this radius (implied by a tenth of the readings) a survey in a unit
+/// another unit would turn into ordinary main-line curves (at least
+/// [`ORDINARY_RADIUS`]) gets a warning (common practice: curves under about
+/// 60 m are found only on tramways and in some sidings).
+const SHARP_RADIUS: f64 = 60.0;
+/// Radius from which a curve is ordinary on a main line (common practice).
+const ORDINARY_RADIUS: f64 = 150.0;
 
 /// A step within this fraction of the spacing counts as regular (rounding of
 /// the chainages written).
@@ -292,6 +299,41 @@ pub(crate) fn units(
             }),
             kind: Box::new(SurveyErrorKind::UnitImplausible { what, todo }),
         });
+    }
+    // Very sharp, but possible: warn when another unit would make the
+    // curves ordinary (e.g. millimetres written in an inch column).
+    if p90 > 0.0 && implied_radius(c, p90) < SHARP_RADIUS {
+        let alternatives: &[VersineUnit] = match u {
+            VersineUnit::Metre => &[VersineUnit::Millimetre],
+            VersineUnit::Foot => &[VersineUnit::Inch, VersineUnit::Millimetre],
+            VersineUnit::Inch => &[VersineUnit::Millimetre],
+            VersineUnit::Millimetre => &[],
+        };
+        if let Some((a, radius)) = alternatives.iter().find_map(|&a| {
+            let radius = implied_radius(c, u.from_m(p90) * a.metres());
+            (radius >= ORDINARY_RADIUS).then_some((a, radius))
+        }) {
+            diags.push(
+                Diagnostic::warning(format!(
+                    "a tenth of the versines are {} or more, which on a chord of {} means curves of radius {} m or less, sharper than almost any railway; as {} they would mean radius about {} m",
+                    in_file(p90),
+                    ctx.chord_text(),
+                    fmt_num(implied_radius(c, p90).round()),
+                    versine_word(a),
+                    fmt_num(radius.round())
+                ))
+                .at(Location {
+                    file: ctx.file.to_string(),
+                    line: r[0].line,
+                    column: Some(col_name.clone()),
+                })
+                .hint(format!(
+                    "if the values are {}, rename the column versine_{}; check --chord too",
+                    versine_word(a),
+                    a.suffix()
+                )),
+            );
+        }
     }
     // Single readings too large for any railway.
     for x in r {
