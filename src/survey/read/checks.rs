@@ -241,6 +241,17 @@ fn implied_radius(c: f64, v: f64) -> f64 {
     c * c / (8.0 * v.abs())
 }
 
+/// The units a versine column in `u` may really have been written in (the
+/// usual mix-ups: millimetres in a metre or inch column, inches in a foot column).
+fn smaller_units(u: VersineUnit) -> &'static [VersineUnit] {
+    match u {
+        VersineUnit::Metre => &[VersineUnit::Millimetre],
+        VersineUnit::Foot => &[VersineUnit::Inch, VersineUnit::Millimetre],
+        VersineUnit::Inch => &[VersineUnit::Millimetre],
+        VersineUnit::Millimetre => &[],
+    }
+}
+
 /// Check the size of the versines against their unit and the chord.
 pub(crate) fn units(
     ctx: &Context<'_>,
@@ -264,13 +275,7 @@ pub(crate) fn units(
 
     // The column as a whole: a tenth of the readings or more are too large.
     if p90 > 0.0 && implied_radius(c, p90) < MIN_RADIUS {
-        let alternatives: &[VersineUnit] = match u {
-            VersineUnit::Metre => &[VersineUnit::Millimetre],
-            VersineUnit::Foot => &[VersineUnit::Inch, VersineUnit::Millimetre],
-            VersineUnit::Inch => &[VersineUnit::Millimetre],
-            VersineUnit::Millimetre => &[],
-        };
-        let alt = alternatives.iter().find_map(|&a| {
+        let alt = smaller_units(u).iter().find_map(|&a| {
             let v = u.from_m(p90) * a.metres();
             let radius = implied_radius(c, v);
             (radius >= MIN_RADIUS).then_some((a, radius))
@@ -303,13 +308,7 @@ pub(crate) fn units(
     // Very sharp, but possible: warn when another unit would make the
     // curves ordinary (e.g. millimetres written in an inch column).
     if p90 > 0.0 && implied_radius(c, p90) < SHARP_RADIUS {
-        let alternatives: &[VersineUnit] = match u {
-            VersineUnit::Metre => &[VersineUnit::Millimetre],
-            VersineUnit::Foot => &[VersineUnit::Inch, VersineUnit::Millimetre],
-            VersineUnit::Inch => &[VersineUnit::Millimetre],
-            VersineUnit::Millimetre => &[],
-        };
-        if let Some((a, radius)) = alternatives.iter().find_map(|&a| {
+        if let Some((a, radius)) = smaller_units(u).iter().find_map(|&a| {
             let radius = implied_radius(c, u.from_m(p90) * a.metres());
             (radius >= ORDINARY_RADIUS).then_some((a, radius))
         }) {
