@@ -307,32 +307,34 @@ pub(crate) fn units(
     }
     // Very sharp, but possible: warn when another unit would make the
     // curves ordinary (e.g. millimetres written in an inch column).
-    if p90 > 0.0 && implied_radius(c, p90) < SHARP_RADIUS {
-        if let Some((a, radius)) = smaller_units(u).iter().find_map(|&a| {
-            let radius = implied_radius(c, u.from_m(p90) * a.metres());
-            (radius >= ORDINARY_RADIUS).then_some((a, radius))
-        }) {
-            diags.push(
-                Diagnostic::warning(format!(
-                    "a tenth of the versines are {} or more, which on a chord of {} means curves of radius {} m or less, sharper than almost any railway; as {} they would mean radius about {} m",
-                    in_file(p90),
-                    ctx.chord_text(),
-                    fmt_num(implied_radius(c, p90).round()),
-                    versine_word(a),
-                    fmt_num(radius.round())
-                ))
-                .at(Location {
-                    file: ctx.file.to_string(),
-                    line: r[0].line,
-                    column: Some(col_name.clone()),
-                })
-                .hint(format!(
-                    "if the values are {}, rename the column versine_{}; check --chord too",
-                    versine_word(a),
-                    a.suffix()
-                )),
-            );
-        }
+    let ordinary = smaller_units(u).iter().find_map(|&a| {
+        let radius = implied_radius(c, u.from_m(p90) * a.metres());
+        (radius >= ORDINARY_RADIUS).then_some((a, radius))
+    });
+    if p90 > 0.0
+        && implied_radius(c, p90) < SHARP_RADIUS
+        && let Some((a, radius)) = ordinary
+    {
+        diags.push(
+            Diagnostic::warning(format!(
+                "a tenth of the versines are {} or more, which on a chord of {} means curves of radius {} m or less, sharper than almost any railway; as {} they would mean radius about {} m",
+                in_file(p90),
+                ctx.chord_text(),
+                fmt_num(implied_radius(c, p90).round()),
+                versine_word(a),
+                fmt_num(radius.round())
+            ))
+            .at(Location {
+                file: ctx.file.to_string(),
+                line: r[0].line,
+                column: Some(col_name.clone()),
+            })
+            .hint(format!(
+                "if the values are {}, rename the column versine_{}; check --chord too",
+                versine_word(a),
+                a.suffix()
+            )),
+        );
     }
     // Single readings too large for any railway.
     for x in r {
