@@ -514,7 +514,7 @@ impl<'a> Reader<'a> {
                 note,
                 line: no,
             });
-            prev = Some((Cow::Owned(ch_text.to_string()), no));
+            prev = Some((cells[cols.chainage].clone(), no));
         }
 
         if readings.is_empty() {
@@ -622,6 +622,12 @@ fn delim_name(d: char) -> &'static str {
 }
 
 fn parse_side(s: &str) -> Result<Rail, SurveyErrorKind> {
+    // The common cases without allocating.
+    match s.as_bytes() {
+        [b'L' | b'l'] => return Ok(Rail::Left),
+        [b'R' | b'r'] => return Ok(Rail::Right),
+        _ => {}
+    }
     match s.to_ascii_lowercase().as_str() {
         "l" | "left" => Ok(Rail::Left),
         "r" | "right" => Ok(Rail::Right),
