@@ -9,6 +9,12 @@
 //! folder is replaced only with `force`, and never when it is, or holds, one
 //! of the run's input files.
 //!
+//! If the process is killed outright (a signal that does not unwind), a
+//! hidden `.NAME.chordline-partial-*` folder may be left beside the target;
+//! it holds nothing of value and can be deleted. A kill in the instant between
+//! the two renames of a forced commit leaves the earlier results in
+//! `.NAME.chordline-old-*` beside the target.
+//!
 //! # Examples
 //! ```
 //! use chordline::export::output_dir::OutputDir;
