@@ -91,14 +91,6 @@ pub enum ControlError {
         /// File name.
         file: String,
     },
-    /// The coordinate system could not be used.
-    #[error("{file}: {source}")]
-    Crs {
-        /// File name.
-        file: String,
-        /// The underlying problem.
-        source: CrsError,
-    },
     /// No data rows.
     #[error("{file}: the file has no control points (only a header, comments or blank lines)")]
     Empty {
