@@ -33,7 +33,7 @@ use crate::geometry::Pose;
 use crate::integrate::{Plan, PositionObs, PositionResidual, Station};
 use crate::survey::Survey;
 
-use super::crs::{Crs, CrsError};
+use super::crs::Crs;
 use super::place::{LonLat, PlaceError, Placement};
 
 /// Default standard deviation of a control coordinate when the file has no
