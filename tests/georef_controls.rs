@@ -455,3 +455,54 @@ fn checks_are_written_as_csv() {
     assert_eq!(lines[1], "\"A,1\",2,10.0000,0.0012,-0.0005,0.40,,,no");
     assert_eq!(lines[2], "B,3,500.0000,,,,0.5000,12.25,yes");
 }
+
+#[test]
+fn the_point_whose_removal_reconciles_the_rest_is_singled_out() {
+    use chordline::georef::LooResult;
+    let pl0 = Placement::new(LonLat::new(9.0, 48.0).unwrap(), 0.0).unwrap();
+    let pts = [
+        ("A", 0.0, 0.0, 0.0),
+        ("B", 300.0, 0.0, 300.0),
+        ("C", 600.0, 0.0, 600.0),
+        ("D", 900.0, 0.0, 900.0),
+    ];
+    let set = read(&file_at(&pl0, &pts), None).unwrap();
+    let res: Vec<PositionResidual> = ["A", "B", "C", "D"]
+        .iter()
+        .zip([5.8, 8.6, 9.1, 4.0])
+        .map(|(id, n)| PositionResidual {
+            id: id.to_string(),
+            dx: 0.0,
+            dy: 0.02,
+            normalised: n,
+        })
+        .collect();
+    // As observed on the demo survey with C shifted 0.3 m: C's own statistic
+    // is below 3 (uncertain prediction), but only without C do the others agree.
+    let loo = |rests: [f64; 4]| -> Vec<LooResult> {
+        ["A", "B", "C", "D"]
+            .iter()
+            .zip([3.09, 7.88, 2.71, 1.74])
+            .zip(rests)
+            .map(|((id, s), r)| LooResult {
+                id: id.to_string(),
+                discrepancy: 0.3,
+                statistic: s,
+                rest_max_normalised: Some(r),
+            })
+            .collect()
+    };
+    let (checks, diags) = set.assess(&res, &loo([7.09, 3.10, 0.61, 8.22]));
+    let flagged: Vec<_> = checks
+        .iter()
+        .filter(|c| c.flagged)
+        .map(|c| c.id.as_str())
+        .collect();
+    assert_eq!(flagged, ["C"]);
+    assert_eq!(diags.len(), 1);
+    assert_eq!(diags[0].location.as_ref().unwrap().line, 4);
+    // Two points either of which reconciles the rest: say so, blame no one in particular.
+    let (_, diags) = set.assess(&res, &loo([7.09, 2.5, 0.61, 8.22]));
+    let summary = diags.last().unwrap().message.clone();
+    assert!(summary.contains("any one of 'B', 'C'"), "{summary}");
+}

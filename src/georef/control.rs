@@ -33,7 +33,7 @@ use crate::geometry::Pose;
 use crate::integrate::{Plan, PositionObs, PositionResidual, Station};
 use crate::survey::Survey;
 
-use super::crs::{Crs, CrsError};
+use super::crs::Crs;
 use super::place::{LonLat, PlaceError, Placement};
 
 /// Default standard deviation of a control coordinate when the file has no
@@ -90,14 +90,6 @@ pub enum ControlError {
     NeedsCrs {
         /// File name.
         file: String,
-    },
-    /// The coordinate system could not be used.
-    #[error("{file}: {source}")]
-    Crs {
-        /// File name.
-        file: String,
-        /// The underlying problem.
-        source: CrsError,
     },
     /// No data rows.
     #[error("{file}: the file has no control points (only a header, comments or blank lines)")]
@@ -610,12 +602,12 @@ impl ControlSet {
     /// (in file chainage order), and a warning naming the line of every point
     /// that disagrees with the rest.
     ///
-    /// With leave-one-out results, a point whose prediction from the others
-    /// misses by more than [`FLAG_LIMIT`] standard deviations while the others
-    /// then agree (all normalised residuals ≤ [`FLAG_LIMIT`]) is singled out,
-    /// and only such points are flagged. Otherwise every point with a
-    /// normalised residual or leave-one-out statistic above [`FLAG_LIMIT`] is
-    /// flagged, with a summary warning when several are.
+    /// With leave-one-out results, when the points disagree and exactly one
+    /// of them leaves the others in agreement once it is left out (all their
+    /// normalised residuals ≤ [`FLAG_LIMIT`]), that point alone is flagged.
+    /// Otherwise every point with a normalised residual or leave-one-out
+    /// statistic above [`FLAG_LIMIT`] is flagged, with a summary warning when
+    /// several are.
     ///
     /// `residuals` are the integrator's `Plan::position_residuals` (matched
     /// by id). `loo` are optional leave-one-out results from
@@ -625,14 +617,21 @@ impl ControlSet {
         residuals: &[PositionResidual],
         loo: &[LooResult],
     ) -> (Vec<ControlCheck>, Vec<Diagnostic>) {
-        // A point is a culprit when it disagrees with the prediction from
-        // the others and the others agree once it is left out (one blunder
-        // spreads into every residual of a joint adjustment, so the residuals
-        // alone would flag innocent points too).
-        let culprit = |l: &LooResult| {
-            l.statistic > FLAG_LIMIT && l.rest_max_normalised.is_some_and(|m| m <= FLAG_LIMIT)
-        };
-        let any_culprit = loo.iter().any(culprit);
+        // One blunder spreads into every residual of a joint adjustment, so
+        // the residuals alone would flag innocent points too. A point is the
+        // culprit when the others agree once it is left out (their largest
+        // normalised residual ≤ FLAG_LIMIT) while the full set does not, and
+        // it is the only such point. (Its own leave-one-out statistic can stay
+        // small when the prediction from the others is uncertain.)
+        let disagree = residuals.iter().any(|r| r.normalised > FLAG_LIMIT)
+            || loo.iter().any(|l| l.statistic > FLAG_LIMIT);
+        let candidates: Vec<&LooResult> = loo
+            .iter()
+            .filter(|l| l.rest_max_normalised.is_some_and(|m| m <= FLAG_LIMIT))
+            .collect();
+        let culprit_id = (disagree && candidates.len() == 1).then(|| candidates[0].id.as_str());
+        let culprit = |l: &LooResult| Some(l.id.as_str()) == culprit_id;
+        let any_culprit = culprit_id.is_some();
         let mut checks = Vec::new();
         let mut diags = Vec::new();
         for p in &self.points {
@@ -692,9 +691,18 @@ impl ControlSet {
         }
         let n_flagged = checks.iter().filter(|c| c.flagged).count();
         if !any_culprit && n_flagged >= 2 {
+            let why = if candidates.len() > 1 {
+                let names: Vec<String> = candidates.iter().map(|c| format!("'{}'", c.id)).collect();
+                format!(
+                    "leaving out any one of {} makes the others agree, so the data cannot tell which is wrong",
+                    names.join(", ")
+                )
+            } else {
+                "no single point explains it".to_string()
+            };
             diags.push(
                 Diagnostic::warning(format!(
-                    "{n_flagged} of {} control points disagree with the survey and with each other, and no single point explains it",
+                    "{n_flagged} of {} control points disagree with the survey and with each other; {why}",
                     self.points.len()
                 ))
                 .at(Location {

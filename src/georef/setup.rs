@@ -50,13 +50,14 @@ pub struct Georef {
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum GeorefError {
     /// A bad start point, bearing or height.
-    #[error("{0}")]
+    #[error(transparent)]
     Place(#[from] PlaceError),
-    /// A bad `--crs`.
+    /// A bad `--crs` (not marked as a source, so that error chains do not
+    /// print the message twice).
     #[error("--crs: {0}")]
-    Crs(#[from] CrsError),
+    Crs(CrsError),
     /// A bad control file.
-    #[error("{0}")]
+    #[error(transparent)]
     Control(#[from] ControlError),
     /// Options that do not go together.
     #[error("{0}")]
@@ -101,6 +102,12 @@ impl Georef {
             Some(c) => c.assess(residuals, loo),
             None => (Vec::new(), Vec::new()),
         }
+    }
+}
+
+impl From<CrsError> for GeorefError {
+    fn from(e: CrsError) -> Self {
+        GeorefError::Crs(e)
     }
 }
 
@@ -184,11 +191,6 @@ pub fn prepare(
         }
         return Ok((None, diags));
     }
-    let Some(bearing) = bearing else {
-        return Err(opts(
-            "a start point needs the direction of the track: add --start-bearing DEGREES (clockwise from true north)",
-        ));
-    };
     let origin = match (&args.start_lonlat, &args.start_grid) {
         (Some(t), _) => t.parse::<LonLat>()?,
         (None, Some(t)) => {
@@ -202,6 +204,11 @@ pub fn prepare(
             LonLat::new(lon, lat)?
         }
         (None, None) => return Ok((None, diags)),
+    };
+    let Some(bearing) = bearing else {
+        return Err(opts(
+            "a start point needs the direction of the track: add --start-bearing DEGREES (clockwise from true north)",
+        ));
     };
     let placement = Placement::new(origin, height)?;
     Ok((
