@@ -46,10 +46,10 @@ pub struct RunArgs {
     #[arg(long, allow_negative_numbers = true)]
     pub start_bearing: Option<String>,
     /// Place the first station at this WGS 84 longitude,latitude (decimal degrees), e.g. 9.1234,48.5678.
-    #[arg(long, value_name = "LON,LAT", allow_negative_numbers = true)]
+    #[arg(long, value_name = "LON,LAT", allow_hyphen_values = true)]
     pub start_lonlat: Option<String>,
     /// Place the first station at this grid easting,northing (in the grid of --crs).
-    #[arg(long, value_name = "E,N", allow_negative_numbers = true)]
+    #[arg(long, value_name = "E,N", allow_hyphen_values = true)]
     pub start_grid: Option<String>,
     /// Control points (CSV: chainage and known coordinates of a few points on the track).
     #[arg(long, value_name = "FILE")]
