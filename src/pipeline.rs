@@ -114,10 +114,10 @@ pub struct Results {
 /// [`RunError`] from the stage that failed.
 pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
     let mut setup = opts.setup.clone();
-    if let Some(r) = survey.readings.first() {
-        if !opts.rail_stated || survey.has_side_column {
-            setup.rail = r.rail;
-        }
+    if let Some(r) = survey.readings.first()
+        && (!opts.rail_stated || survey.has_side_column)
+    {
+        setup.rail = r.rail;
     }
     let (georef, mut diagnostics) = prepare(&opts.georef, &survey)?;
     let iopts = match &georef {

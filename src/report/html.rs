@@ -32,12 +32,11 @@ pub fn html_report(r: &Results) -> String {
         "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>chordline report: {t}</title><style>{CSS}</style></head><body>\n<h1>Alignment from versines: {t}</h1>\n",
         t = esc(&r.survey.source)
     );
-    let _ = write!(
-        h,
+    h.push_str(
         "<p class=\"caution\"><b>Caution.</b> These figures come from chord offsets measured by others and fitted by statistics. \
 They are an aid to a competent track engineer, not a substitute for one: check them against the site, the records and your \
 railway's standards before using them for slewing, cant, speed or any decision that bears on safety. Intervals are 95&nbsp;%; \
-an element marked indeterminate could not be resolved by the data.</p>\n"
+an element marked indeterminate could not be resolved by the data.</p>\n",
     );
     let _ = write!(
         h,
