@@ -122,9 +122,9 @@ pub fn predict(chain: &Chain, d: &Data) -> Vec<f64> {
     d.s.iter().map(|&s| chain.versine(s, d.a, d.eps)).collect()
 }
 
-/// Residuals `v − v̂` and the Jacobian `∂v̂/∂θ` (rows: readings).
-pub fn jacobian(chain: &Chain, par: &[Param], d: &Data) -> (DVector<f64>, DMatrix<f64>) {
-    let n = d.s.len();
+/// Visit every reading with its residual `v − v̂` and the non-zero entries
+/// `(column in par, ∂v̂/∂θ)` of its Jacobian row.
+fn rows(chain: &Chain, par: &[Param], d: &Data, mut f: impl FnMut(usize, f64, &[(usize, f64)])) {
     let m = chain.ramps();
     let mut col_mid = vec![usize::MAX; m];
     let mut col_len = vec![usize::MAX; m];
@@ -138,12 +138,11 @@ pub fn jacobian(chain: &Chain, par: &[Param], d: &Data) -> (DVector<f64>, DMatri
     }
     let a = d.a;
     let half_a2 = 0.5 * a * a;
-    let mut jm = DMatrix::zeros(n, par.len());
-    let mut r = DVector::zeros(n);
     let mut dd = vec![0.0; m];
+    let mut ent: Vec<(usize, f64)> = Vec::with_capacity(16);
     for (row, (&s, &vo)) in d.s.iter().zip(d.v).enumerate() {
+        ent.clear();
         let mut v = chain.levels[0].value() * half_a2;
-        let mut first = m;
         for j in 0..m {
             let b = chain.ramp_start(j);
             if b - a >= s {
@@ -152,19 +151,16 @@ pub fn jacobian(chain: &Chain, par: &[Param], d: &Data) -> (DVector<f64>, DMatri
                 }
                 break;
             }
-            if first == m {
-                first = j;
-            }
             let dk = chain.levels[j + 1].value() - chain.levels[j].value();
             let (dv, dbs, dbe) = ramp_versine(s, b, chain.lens[j], a);
             dd[j] = dv;
             v += dk * dv;
             if dbs != 0.0 || dbe != 0.0 {
                 if col_mid[j] != usize::MAX {
-                    jm[(row, col_mid[j])] = dk * (dbs + dbe);
+                    ent.push((col_mid[j], dk * (dbs + dbe)));
                 }
                 if col_len[j] != usize::MAX {
-                    jm[(row, col_len[j])] = dk * 0.5 * (dbe - dbs);
+                    ent.push((col_len[j], dk * 0.5 * (dbe - dbs)));
                 }
             }
         }
@@ -174,18 +170,67 @@ pub fn jacobian(chain: &Chain, par: &[Param], d: &Data) -> (DVector<f64>, DMatri
             }
             let before = if i == 0 { half_a2 } else { dd[i - 1] };
             let after = if i < m { dd[i] } else { 0.0 };
-            jm[(row, c)] = before - after;
+            if before != after {
+                ent.push((c, before - after));
+            }
         }
-        let f = 1.0 + 3.0 * d.eps * v * v / (a * a);
-        if f != 1.0 {
-            for c in 0..par.len() {
-                jm[(row, c)] *= f;
+        let g = 1.0 + 3.0 * d.eps * v * v / (a * a);
+        if g != 1.0 {
+            for e in ent.iter_mut() {
+                e.1 *= g;
             }
         }
         let vm = v * (1.0 + d.eps * v * v / (a * a));
-        r[row] = vo - vm;
+        f(row, vo - vm, &ent);
     }
+}
+
+/// Residuals `v − v̂` and the Jacobian `∂v̂/∂θ` (rows: readings).
+pub fn jacobian(chain: &Chain, par: &[Param], d: &Data) -> (DVector<f64>, DMatrix<f64>) {
+    let n = d.s.len();
+    let mut jm = DMatrix::zeros(n, par.len());
+    let mut r = DVector::zeros(n);
+    rows(chain, par, d, |row, res, ent| {
+        r[row] = res;
+        for &(c, x) in ent {
+            jm[(row, c)] = x;
+        }
+    });
     (r, jm)
+}
+
+/// `JᵀJ`, `Jᵀr` and the residual sum of squares in the reduced parameters,
+/// accumulated row by row from the sparse rows (no dense Jacobian).
+fn normal_equations(
+    chain: &Chain,
+    par: &[Param],
+    tcols: &[Vec<(usize, f64)>],
+    np: usize,
+    d: &Data,
+) -> (DMatrix<f64>, DVector<f64>, f64) {
+    let mut jtj = DMatrix::zeros(np, np);
+    let mut jtr = DVector::zeros(np);
+    let mut rss = 0.0;
+    let mut red: Vec<(usize, f64)> = Vec::with_capacity(16);
+    rows(chain, par, d, |_, res, ent| {
+        rss += res * res;
+        red.clear();
+        for &(c, x) in ent {
+            for &(rc, k) in &tcols[c] {
+                match red.iter_mut().find(|e| e.0 == rc) {
+                    Some(e) => e.1 += x * k,
+                    None => red.push((rc, x * k)),
+                }
+            }
+        }
+        for &(i, xi) in &red {
+            jtr[i] += xi * res;
+            for &(k, xk) in &red {
+                jtj[(i, k)] += xi * xk;
+            }
+        }
+    });
+    (jtj, jtr, rss)
 }
 
 fn apply(chain: &Chain, par: &[Param], delta: &DVector<f64>, d: &Data) -> Chain {
@@ -274,11 +319,17 @@ pub struct Outcome {
 pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
     let par = full_params(chain);
     let tm = reduce_map(chain);
-    project(chain, d.lo, d.hi);
-    let (mut r, jf) = jacobian(chain, &par, d);
-    let mut j = &jf * &tm;
-    let mut rss = r.norm_squared();
     let np = tm.ncols();
+    let tcols: Vec<Vec<(usize, f64)>> = (0..tm.nrows())
+        .map(|r| {
+            (0..np)
+                .filter(|&c| tm[(r, c)] != 0.0)
+                .map(|c| (c, tm[(r, c)]))
+                .collect()
+        })
+        .collect();
+    project(chain, d.lo, d.hi);
+    let (mut jtj, mut g, mut rss) = normal_equations(chain, &par, &tcols, np, d);
     if np == 0 {
         return Outcome {
             rss,
@@ -291,9 +342,6 @@ pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
     let mut it = 0;
     while it < max_iter {
         it += 1;
-        let jt = j.transpose();
-        let jtj = &jt * &j;
-        let g = &jt * &r;
         let maxd = (0..np).map(|i| jtj[(i, i)]).fold(0.0, f64::max);
         if maxd <= 0.0 {
             converged = true;
@@ -325,14 +373,15 @@ pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
             };
             let delta = &tm * ch.solve(&g);
             let trial = apply(chain, &par, &delta, d);
-            let rss2: f64 =
-                d.s.iter()
-                    .zip(d.v)
-                    .map(|(&s, &vo)| {
-                        let e = vo - trial.versine(s, d.a, d.eps);
-                        e * e
-                    })
-                    .sum();
+            let rss2: f64 = d
+                .s
+                .iter()
+                .zip(d.v)
+                .map(|(&s, &vo)| {
+                    let e = vo - trial.versine(s, d.a, d.eps);
+                    e * e
+                })
+                .sum();
             if rss2 <= rss {
                 let rel = (rss - rss2) / rss.max(1e-300);
                 // Largest move of a boundary (m).
@@ -344,10 +393,10 @@ pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
                     .map(|(x, y)| (x - y).abs())
                     .fold(0.0, f64::max);
                 *chain = trial;
-                let (r2, j2) = jacobian(chain, &par, d);
-                r = r2;
-                j = &j2 * &tm;
-                rss = rss2;
+                let (j2, g2, r2) = normal_equations(chain, &par, &tcols, np, d);
+                jtj = j2;
+                g = g2;
+                rss = r2;
                 lambda = (lambda * 0.3).max(1e-12);
                 improved = true;
                 if rel < 1e-14 || (rel < 1e-9 && step < 1e-6) {

@@ -360,6 +360,69 @@ fn n_params(c: &Chain) -> usize {
     lm::reduce_map(c).ncols()
 }
 
+fn all_moves(c: &Chain) -> Vec<Move> {
+    let mut moves = Vec::new();
+    for i in 0..c.levels.len() {
+        moves.push(Move::ZeroLevel(i));
+        moves.push(Move::DropPlateau(i));
+    }
+    for j in 0..c.ramps() {
+        moves.push(Move::MergeRamp(j));
+        moves.push(Move::CollapseRamp(j));
+    }
+    for i in 1..c.levels.len().saturating_sub(1) {
+        moves.push(Move::JoinPlateau(i));
+    }
+    moves
+}
+
+/// Middle of plateau `i` (chainage); the ends extend one metre past the ramps.
+fn plateau_mid(c: &Chain, i: usize) -> f64 {
+    let m = c.ramps();
+    if m == 0 {
+        return 0.0;
+    }
+    let lo = if i == 0 {
+        c.ramp_start(0) - 1.0
+    } else {
+        c.ramp_end(i - 1)
+    };
+    let hi = if i >= m { c.ramp_end(m - 1) + 1.0 } else { c.ramp_start(i) };
+    0.5 * (lo + hi)
+}
+
+/// Where a move acts, as a chainage, to find it again after other moves.
+fn move_anchor(c: &Chain, mv: Move) -> f64 {
+    match mv {
+        Move::ZeroLevel(i) | Move::DropPlateau(i) | Move::JoinPlateau(i) => plateau_mid(c, i),
+        Move::MergeRamp(j) | Move::CollapseRamp(j) => c.mids[j],
+    }
+}
+
+/// The same kind of move on the element of `c` nearest to `anchor`.
+fn locate_move(c: &Chain, mv: Move, anchor: f64) -> Option<Move> {
+    let nearest = |n: usize, f: &dyn Fn(usize) -> f64| {
+        (0..n).min_by(|&x, &y| (f(x) - anchor).abs().total_cmp(&(f(y) - anchor).abs()))
+    };
+    match mv {
+        Move::ZeroLevel(_) | Move::DropPlateau(_) | Move::JoinPlateau(_) => {
+            let i = nearest(c.levels.len(), &|i| plateau_mid(c, i))?;
+            Some(match mv {
+                Move::ZeroLevel(_) => Move::ZeroLevel(i),
+                Move::DropPlateau(_) => Move::DropPlateau(i),
+                _ => Move::JoinPlateau(i),
+            })
+        }
+        Move::MergeRamp(_) | Move::CollapseRamp(_) => {
+            let j = nearest(c.ramps(), &|j| c.mids[j])?;
+            Some(match mv {
+                Move::MergeRamp(_) => Move::MergeRamp(j),
+                _ => Move::CollapseRamp(j),
+            })
+        }
+    }
+}
+
 struct GroupFit {
     chain: Chain,
     lo_idx: usize,
@@ -615,46 +678,51 @@ pub fn fit(
         };
         let mut sub = sub;
         let mut out = lm::fit(&mut sub, &data, opts.max_iterations);
-        // Bottom-up simplification under BIC.
+        // Bottom-up simplification under BIC. Each round evaluates every
+        // move, accepts the best, then tries the other improving moves in
+        // order of gain on the updated chain (found again by chainage), so a
+        // curve with several spurious pieces needs few rounds.
+        let bic_of = |o: &lm::Outcome, c: &Chain| o.rss / s2pen + n_params(c) as f64 * ln_n;
         loop {
-            let bic0 = out.rss / s2pen + n_params(&sub) as f64 * ln_n;
-            let mut best: Option<(f64, Chain, lm::Outcome)> = None;
-            let mut moves = Vec::new();
-            for i in 0..sub.levels.len() {
-                moves.push(Move::ZeroLevel(i));
-                moves.push(Move::DropPlateau(i));
-            }
-            for j in 0..sub.ramps() {
-                moves.push(Move::MergeRamp(j));
-                moves.push(Move::CollapseRamp(j));
-            }
-            for i in 1..sub.levels.len().saturating_sub(1) {
-                moves.push(Move::JoinPlateau(i));
-            }
-            for mv in moves {
+            let bic0 = bic_of(&out, &sub);
+            let mut improving: Vec<(f64, Move, f64, Chain, lm::Outcome)> = Vec::new();
+            for mv in all_moves(&sub) {
                 if let Some(mut c2) = apply_move(&sub, mv) {
                     // A short fit first; only promising moves get a full one.
                     let mut o2 = lm::fit(&mut c2, &data, 8);
-                    let np = n_params(&c2) as f64;
-                    let quick = o2.rss / s2pen + np * ln_n;
-                    if quick > bic0 + 2.0 * ln_n.max(1.0) {
+                    if bic_of(&o2, &c2) > bic0 + 2.0 * ln_n.max(1.0) {
                         continue;
                     }
                     if !o2.converged {
                         o2 = lm::fit(&mut c2, &data, opts.max_iterations);
                     }
-                    let bic = o2.rss / s2pen + np * ln_n;
-                    if bic < bic0 && best.as_ref().is_none_or(|b| bic < b.0) {
-                        best = Some((bic, c2, o2));
+                    let bic = bic_of(&o2, &c2);
+                    if bic < bic0 {
+                        improving.push((bic, mv, move_anchor(&sub, mv), c2, o2));
                     }
                 }
             }
-            match best {
-                Some((_, c2, o2)) => {
-                    sub = c2;
-                    out = o2;
+            if improving.is_empty() {
+                break;
+            }
+            improving.sort_by(|x, y| x.0.total_cmp(&y.0));
+            let mut it = improving.into_iter();
+            let Some((_, _, _, c_best, o_best)) = it.next() else {
+                break;
+            };
+            sub = c_best;
+            out = o_best;
+            for (_, mv, anchor, _, _) in it {
+                let Some(mv2) = locate_move(&sub, mv, anchor) else {
+                    continue;
+                };
+                if let Some(mut c2) = apply_move(&sub, mv2) {
+                    let o2 = lm::fit(&mut c2, &data, opts.max_iterations);
+                    if bic_of(&o2, &c2) < bic_of(&out, &sub) {
+                        sub = c2;
+                        out = o2;
+                    }
                 }
-                None => break,
             }
         }
         fits.push(GroupFit {

@@ -38,36 +38,35 @@ pub fn sandwich(j: &DMatrix<f64>, gamma: &[f64]) -> Option<DMatrix<f64>> {
     let binv = invert_spd(&jtj)?;
     let hmax = gamma.len().saturating_sub(1);
     let mut m = DMatrix::zeros(p, p);
-    // Only rows with a non-zero entry matter.
-    let nz: Vec<bool> = (0..n).map(|i| j.row(i).iter().any(|x| *x != 0.0)).collect();
+    // Sparse rows: a reading informs only the parameters of nearby elements.
+    let sp: Vec<Vec<(usize, f64)>> = (0..n)
+        .map(|i| {
+            (0..p)
+                .filter(|&c| j[(i, c)] != 0.0)
+                .map(|c| (c, j[(i, c)]))
+                .collect()
+        })
+        .collect();
     for i in 0..n {
-        if !nz[i] {
+        if sp[i].is_empty() {
             continue;
         }
         for (h, &g) in gamma.iter().enumerate() {
             let w = g * (1.0 - h as f64 / (hmax as f64 + 1.0));
-            if w == 0.0 {
-                continue;
-            }
             let k = i + h;
             if k >= n {
                 break;
             }
-            if !nz[k] {
+            if w == 0.0 || sp[k].is_empty() {
                 continue;
             }
-            for a in 0..p {
-                let ja = j[(i, a)];
-                let ka = j[(k, a)];
-                if ja == 0.0 && ka == 0.0 {
-                    continue;
-                }
-                for b in 0..p {
-                    let mut add = ja * j[(k, b)];
+            for &(a, ja) in &sp[i] {
+                for &(b, kb) in &sp[k] {
+                    let x = w * ja * kb;
+                    m[(a, b)] += x;
                     if h > 0 {
-                        add += ka * j[(i, b)];
+                        m[(b, a)] += x;
                     }
-                    m[(a, b)] += w * add;
                 }
             }
         }
