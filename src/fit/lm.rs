@@ -142,13 +142,15 @@ fn rows(chain: &Chain, par: &[Param], d: &Data, mut f: impl FnMut(usize, f64, &[
     let mut ent: Vec<(usize, f64)> = Vec::with_capacity(16);
     for (row, (&s, &vo)) in d.s.iter().zip(d.v).enumerate() {
         ent.clear();
-        let mut v = chain.levels[0].value() * half_a2;
-        for j in 0..m {
+        // Ramps wholly behind the chord read a²/2 each and have no
+        // derivatives: start at the first ramp the chord still touches.
+        let j_lo = (0..m).position(|j| chain.ramp_end(j) + a > s).unwrap_or(m);
+        let mut v = chain.levels[j_lo].value() * half_a2;
+        let mut j_hi = m;
+        for j in j_lo..m {
             let b = chain.ramp_start(j);
             if b - a >= s {
-                for x in dd.iter_mut().skip(j) {
-                    *x = 0.0;
-                }
+                j_hi = j;
                 break;
             }
             let dk = chain.levels[j + 1].value() - chain.levels[j].value();
@@ -164,12 +166,13 @@ fn rows(chain: &Chain, par: &[Param], d: &Data, mut f: impl FnMut(usize, f64, &[
                 }
             }
         }
-        for (i, &c) in col_lvl.iter().enumerate() {
+        for i in j_lo..=j_hi {
+            let c = col_lvl[i];
             if c == usize::MAX {
                 continue;
             }
-            let before = if i == 0 { half_a2 } else { dd[i - 1] };
-            let after = if i < m { dd[i] } else { 0.0 };
+            let before = if i == j_lo { half_a2 } else { dd[i - 1] };
+            let after = if i < j_hi { dd[i] } else { 0.0 };
             if before != after {
                 ent.push((c, before - after));
             }
@@ -373,15 +376,14 @@ pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
             };
             let delta = &tm * ch.solve(&g);
             let trial = apply(chain, &par, &delta, d);
-            let rss2: f64 = d
-                .s
-                .iter()
-                .zip(d.v)
-                .map(|(&s, &vo)| {
-                    let e = vo - trial.versine(s, d.a, d.eps);
-                    e * e
-                })
-                .sum();
+            let rss2: f64 =
+                d.s.iter()
+                    .zip(d.v)
+                    .map(|(&s, &vo)| {
+                        let e = vo - trial.versine(s, d.a, d.eps);
+                        e * e
+                    })
+                    .sum();
             if rss2 <= rss {
                 let rel = (rss - rss2) / rss.max(1e-300);
                 // Largest move of a boundary (m).

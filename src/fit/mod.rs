@@ -387,7 +387,11 @@ fn plateau_mid(c: &Chain, i: usize) -> f64 {
     } else {
         c.ramp_end(i - 1)
     };
-    let hi = if i >= m { c.ramp_end(m - 1) + 1.0 } else { c.ramp_start(i) };
+    let hi = if i >= m {
+        c.ramp_end(m - 1) + 1.0
+    } else {
+        c.ramp_start(i)
+    };
     0.5 * (lo + hi)
 }
 

@@ -165,10 +165,13 @@ impl Chain {
     }
     /// Linear (small-angle) versine at `s` for half-chord `a` (m, chord side).
     pub fn versine_linear(&self, s: f64, a: f64) -> f64 {
-        let mut v = self.levels[0].value() * 0.5 * a * a;
-        // Ramps are ordered, so only those whose support reaches s matter;
-        // ramps wholly behind s contribute dk·a²/2 each.
-        for j in 0..self.ramps() {
+        // Ramps are ordered: those wholly behind the chord contribute
+        // dk·a²/2 each, i.e. the level reached; those ahead contribute nothing.
+        let j_lo = (0..self.ramps())
+            .position(|j| self.ramp_end(j) + a > s)
+            .unwrap_or(self.ramps());
+        let mut v = self.levels[j_lo].value() * 0.5 * a * a;
+        for j in j_lo..self.ramps() {
             let b = self.ramp_start(j);
             if b - a >= s {
                 break;
