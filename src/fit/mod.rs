@@ -773,7 +773,7 @@ pub fn fit(
     let model_v: Vec<f64> = s.iter().map(|&x| chain.versine(x, a, eps)).collect();
     let resid: Vec<f64> = v.iter().zip(&model_v).map(|(o, m)| o - m).collect();
     let rss: f64 = resid.iter().map(|r| r * r).sum();
-    let h_max = ((1.5 * chord / spacing).round() as usize).clamp(1, 400);
+    let h_max = ((3.0 * chord / spacing).round() as usize).clamp(1, 800);
     let gamma = stats::autocovariance(&[&resid], h_max);
     let lag1 = if gamma[0] > 0.0 && gamma.len() > 1 {
         gamma[1] / gamma[0]
