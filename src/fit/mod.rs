@@ -262,7 +262,10 @@ pub struct FitResult {
     /// The fitted elements, end to end.
     pub elements: Vec<FittedElement>,
     /// The design centreline (centreline lengths and curvatures), from the
-    /// origin heading east; [`FitResult::place`] puts it in the plan.
+    /// origin heading east; [`FitResult::place`] puts it in the plan. Its
+    /// `start_chainage` is the survey chainage of its start; distances along
+    /// it are centreline distances ([`FitResult::centre_distance`] converts a
+    /// survey chainage).
     pub design: Alignment,
     /// Whole-fit statistics.
     pub stats: FitStats,
