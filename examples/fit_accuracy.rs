@@ -30,8 +30,8 @@ struct Case {
     max_seeds: Option<u64>,
 }
 
-/// 17 km: 15 curves of R 350–5000 m (transitions 40–120 m, arcs 150–400 m)
-/// separated by 700 m straights.
+/// 20 km: 15 curves of R 350–5000 m (transitions 40–120 m, arcs 150–400 m)
+/// separated by 900 m straights.
 fn long_line() -> Vec<Element> {
     let mut els = vec![Element::straight(300.0)];
     let radii = [
@@ -44,7 +44,7 @@ fn long_line() -> Vec<Element> {
         els.push(t(lt, 0.0, r));
         els.push(Element::arc(la, r));
         els.push(t(lt, r, 0.0));
-        els.push(Element::straight(700.0));
+        els.push(Element::straight(900.0));
     }
     els
 }
@@ -87,14 +87,14 @@ fn cases() -> Vec<Case> {
     long_irr.irregularity_rms = 0.0015;
     vec![
         Case {
-            name: "17 km line, 15 curves R 350–5000 m, 0.25 m spacing, 0.5 mm noise",
+            name: "20 km line, 15 curves R 350–5000 m, 0.25 m spacing, 0.5 mm noise",
             elements: long_line(),
             sim: long,
             single_curve: false,
             max_seeds: Some(3),
         },
         Case {
-            name: "same 17 km line with 1.5 mm RMS irregularity",
+            name: "same 20 km line with 1.5 mm RMS irregularity",
             elements: long_line(),
             sim: long_irr,
             single_curve: false,
@@ -420,7 +420,7 @@ fn run_case(case: &Case, seeds: u64) -> Acc {
 }
 
 fn speed() {
-    // The 17 km line read every 0.25 m with a 20 m chord.
+    // The 20 km line read every 0.25 m with a 20 m chord.
     let els = long_line();
     let al = Alignment::new(Pose::default(), 0.0, els.clone());
     let mut sim = sc(20.0, 0.25, Rail::Right);

@@ -269,3 +269,26 @@ fn survey_starting_inside_a_curve() {
         "radius {rad:?}"
     );
 }
+
+#[test]
+fn broken_back_curve_is_flagged() {
+    let els = vec![
+        Element::straight(150.0),
+        tr(50.0, 0.0, 600.0),
+        Element::arc(150.0, 600.0),
+        tr(50.0, 600.0, 0.0),
+        Element::straight(60.0),
+        tr(50.0, 0.0, 700.0),
+        Element::arc(150.0, 700.0),
+        tr(50.0, 700.0, 0.0),
+        Element::straight(150.0),
+    ];
+    let (r, _) = run(&els, &noisy(20.0, 5.0, Rail::Right, 4));
+    assert_eq!(kinds(&r), [S, T, A, T, S, T, A, T, S]);
+    assert!(
+        r.elements[4].note.contains("broken-back"),
+        "{}",
+        r.elements[4].note
+    );
+    assert!(!r.elements[0].note.contains("broken-back"));
+}

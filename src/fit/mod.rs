@@ -1045,6 +1045,32 @@ pub fn fit(
             k_end: centre_k(kr1),
         });
     }
+    // A straight between two curves of the same hand: a broken-back curve
+    // (common practice: usually undesirable; say so, do not merge it away).
+    for i in 1..elements.len().saturating_sub(1) {
+        if elements[i].kind != ElementKind::Straight {
+            continue;
+        }
+        let before = elements[..i]
+            .iter()
+            .rev()
+            .map(|e| e.start_curvature)
+            .find(|k| *k != 0.0);
+        let after = elements[i + 1..]
+            .iter()
+            .map(|e| e.end_curvature)
+            .find(|k| *k != 0.0);
+        if let (Some(k0), Some(k1)) = (before, after)
+            && k0 * k1 > 0.0
+        {
+            let e = &mut elements[i];
+            if !e.note.is_empty() {
+                e.note.push_str("; ");
+            }
+            e.note
+                .push_str("straight between two curves of the same hand (broken-back curve)");
+        }
+    }
     // Make consecutive rows join exactly.
     for i in 1..elements.len() {
         let prev_end = elements[i - 1].end_chainage;
