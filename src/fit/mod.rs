@@ -108,9 +108,9 @@ pub enum FitError {
         /// The value given.
         value: f64,
     },
-    /// Chainages are not strictly increasing.
+    /// Chainages are not finite and strictly increasing.
     #[error(
-        "chainage {chainage} m at line {line} of {source_name} does not increase; sort the survey"
+        "chainage {chainage} m at line {line} of {source_name} is not a number above the one before; sort and check the survey"
     )]
     Unsorted {
         /// Where the survey came from.
@@ -487,6 +487,13 @@ pub fn fit(
         return Err(FitError::BadSetup {
             what: "gauge",
             value: setup.gauge,
+        });
+    }
+    if let Some(r) = survey.readings.iter().find(|r| !r.chainage.is_finite()) {
+        return Err(FitError::Unsorted {
+            source_name: survey.source.clone(),
+            chainage: r.chainage,
+            line: r.line,
         });
     }
     for w in survey.readings.windows(2) {
@@ -1149,7 +1156,11 @@ pub fn fit(
         let dv = chain.versine(r.chainage, a, eps) + bias_shift;
         chainages.push(r.chainage);
         design_versine.push(r.rail.chord_side(dv));
-        residual.push(r.chord_side().map(|o| r.rail.chord_side(o - dv)));
+        residual.push(
+            r.chord_side()
+                .filter(|o| o.is_finite())
+                .map(|o| r.rail.chord_side(o - dv)),
+        );
     }
     Ok((
         FitResult {
