@@ -784,12 +784,31 @@ pub fn fit(
     let resid: Vec<f64> = v.iter().zip(&model_v).map(|(o, m)| o - m).collect();
     let rss: f64 = resid.iter().map(|r| r * r).sum();
     let h_max = ((3.0 * chord / spacing).round() as usize).clamp(1, 800);
-    let gamma = stats::autocovariance(&[&resid], h_max);
-    let lag1 = if gamma[0] > 0.0 && gamma.len() > 1 {
-        gamma[1] / gamma[0]
+    let gamma_res = stats::autocovariance(&[&resid], h_max);
+    let lag1 = if gamma_res[0] > 0.0 && gamma_res.len() > 1 {
+        gamma_res[1] / gamma_res[0]
     } else {
         0.0
     };
+    // The noise autocovariance for the sandwich: from the long straights,
+    // where the truth is known to be zero, when there is enough of them (fit
+    // residuals are biased towards negative correlation by the fit itself);
+    // otherwise from the residuals.
+    let straight_runs: Vec<Vec<f64>> = runs
+        .iter()
+        .map(|&(i, j)| {
+            let m = v[i..j].iter().sum::<f64>() / (j - i) as f64;
+            v[i..j].iter().map(|x| x - m).collect()
+        })
+        .collect();
+    let gamma = if straight_n >= (4 * h_max).max(50) {
+        let sl: Vec<&[f64]> = straight_runs.iter().map(|r| r.as_slice()).collect();
+        stats::autocovariance(&sl, h_max)
+    } else {
+        gamma_res.clone()
+    };
+    let p_guess: usize = fits.iter().map(|g| n_params(&g.chain)).sum();
+    let s2_ols = rss / (n as f64 - p_guess as f64).max(1.0);
 
     // Covariance per group, assembled into a global parameter list.
     let mut gparams: Vec<(usize, lm::Param)> = Vec::new(); // (group, global param)
@@ -819,9 +838,24 @@ pub fn fit(
         };
         let (_, jf) = lm::jacobian(&g.chain, &par, &data);
         let jr = &jf * &tm;
-        let cov = match stats::sandwich(&jr, &gamma) {
-            Some(c) => &tm * c * tm.transpose(),
-            None => DMatrix::from_diagonal_element(par.len(), par.len(), f64::INFINITY),
+        // Correlation-robust covariance, never below the ordinary one: with
+        // white noise the two agree, and a noisy autocovariance estimate must
+        // not make the intervals narrower than the residual scatter allows.
+        let cov = match (
+            stats::sandwich(&jr, &gamma),
+            stats::sandwich(&jr, &[s2_ols]),
+        ) {
+            (Some(sw), Some(ols)) => {
+                let k = sw.nrows();
+                let ratio = (0..k)
+                    .filter(|&i| ols[(i, i)] > 0.0)
+                    .map(|i| sw[(i, i)] / ols[(i, i)])
+                    .sum::<f64>()
+                    / k.max(1) as f64;
+                let c = if ratio >= 1.0 { sw } else { ols };
+                &tm * c * tm.transpose()
+            }
+            _ => DMatrix::from_diagonal_element(par.len(), par.len(), f64::INFINITY),
         };
         let first = gparams.len();
         for p in &par {
