@@ -801,7 +801,8 @@ pub fn fit(
             v[i..j].iter().map(|x| x - m).collect()
         })
         .collect();
-    let gamma = if straight_n >= (4 * h_max).max(50) {
+    let gamma_from_straights = straight_n >= (4 * h_max).max(50);
+    let gamma = if gamma_from_straights {
         let sl: Vec<&[f64]> = straight_runs.iter().map(|r| r.as_slice()).collect();
         stats::autocovariance(&sl, h_max)
     } else {
@@ -852,7 +853,10 @@ pub fn fit(
                     .map(|i| sw[(i, i)] / ols[(i, i)])
                     .sum::<f64>()
                     / k.max(1) as f64;
-                let c = if ratio >= 1.0 { sw } else { ols };
+                // A flat window can make a variance implausibly small (or
+                // negative): then the ordinary covariance is used.
+                let sane = (0..k).all(|i| sw[(i, i)] >= 0.25 * ols[(i, i)]);
+                let c = if ratio >= 1.0 && sane { sw } else { ols };
                 &tm * c * tm.transpose()
             }
             _ => DMatrix::from_diagonal_element(par.len(), par.len(), f64::INFINITY),

@@ -4,8 +4,8 @@
 //! ## Reference
 //! Newey & West, "A simple, positive semi-definite, heteroskedasticity and
 //! autocorrelation consistent covariance matrix", Econometrica 55(3), 1987
-//! (Bartlett taper; from memory). SEGMENTATION.md §7 (pooled autocovariance
-//! instead of local products).
+//! (from memory). SEGMENTATION.md §7 (pooled autocovariance instead of local
+//! products).
 
 use nalgebra::DMatrix;
 use statrs::distribution::{ChiSquared, ContinuousCDF, StudentsT};
@@ -25,8 +25,12 @@ pub fn autocovariance(runs: &[&[f64]], h_max: usize) -> Vec<f64> {
     num.iter().map(|x| x / n0).collect()
 }
 
-/// `(JᵀJ)⁻¹ (JᵀΓJ) (JᵀJ)⁻¹` with `Γ_ik = γ(|i−k|)(1 − |i−k|/(H+1))` for
-/// `|i−k| ≤ H = γ.len() − 1`. With `γ = [σ²]` this is `σ²(JᵀJ)⁻¹`.
+/// `(JᵀJ)⁻¹ (JᵀΓJ) (JᵀJ)⁻¹` with `Γ_ik = γ(|i−k|)` for `|i−k| ≤ H = γ.len() − 1`
+/// (a flat window: versine noise from track irregularity is a second
+/// difference, so its autocovariance has negative lobes that a tapered window
+/// would cut, overstating the variance of long averages such as an arc's
+/// curvature; observed in `examples/fit_accuracy.rs`). The caller guards
+/// against a too-small result. With `γ = [σ²]` this is `σ²(JᵀJ)⁻¹`.
 /// Returns `None` when `JᵀJ` is singular.
 pub fn sandwich(j: &DMatrix<f64>, gamma: &[f64]) -> Option<DMatrix<f64>> {
     let p = j.ncols();
@@ -36,7 +40,6 @@ pub fn sandwich(j: &DMatrix<f64>, gamma: &[f64]) -> Option<DMatrix<f64>> {
     }
     let jtj = j.transpose() * j;
     let binv = invert_spd(&jtj)?;
-    let hmax = gamma.len().saturating_sub(1);
     let mut m = DMatrix::zeros(p, p);
     // Sparse rows: a reading informs only the parameters of nearby elements.
     let sp: Vec<Vec<(usize, f64)>> = (0..n)
@@ -52,7 +55,7 @@ pub fn sandwich(j: &DMatrix<f64>, gamma: &[f64]) -> Option<DMatrix<f64>> {
             continue;
         }
         for (h, &g) in gamma.iter().enumerate() {
-            let w = g * (1.0 - h as f64 / (hmax as f64 + 1.0));
+            let w = g;
             let k = i + h;
             if k >= n {
                 break;
