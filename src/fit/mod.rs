@@ -1161,6 +1161,15 @@ pub fn fit(
             chi2_p
         )));
     }
+    if fits.iter().any(|g| !g.converged) {
+        diags.push(
+            Diagnostic::warning(format!(
+                "the element fit stopped at its iteration limit ({}) in at least one curve; boundaries there may be less accurate than their intervals say",
+                opts.max_iterations
+            ))
+            .hint("raise max_iterations, or check the survey for a gap or a blunder in that curve"),
+        );
+    }
     let bic = rss / s2pen + p_free as f64 * ln_n;
     let stats_out = FitStats {
         n,
