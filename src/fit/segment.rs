@@ -291,10 +291,9 @@ pub fn typed_partition(s: &[f64], k: &[f64], o: &DpOptions) -> Vec<Seg> {
         .min_by(|&a, &b| f[nb][a].total_cmp(&f[nb][b]))
         .unwrap_or(1);
     if !f[nb][xi].is_finite() {
-        // Survey too short for any admissible partition: one arc-or-straight.
-        let (c, _) = p.line(0, nb);
+        // Survey too short for any admissible partition: one arc (the fit
+        // turns it into a straight if its curvature is not supported).
         let lvl = p.z[nb] / p.n[nb] * o.sigma_k;
-        let _ = c;
         return vec![Seg {
             start: pos[0],
             end: pos[nb],
