@@ -654,8 +654,9 @@ pub fn fit(
 
     // Groups separated by long straights.
     let groups = split_groups(&chain, chord);
-    let mut fits: Vec<GroupFit> = Vec::new();
-    for &(j0, j1) in &groups {
+    // Curves separated by long straights are independent: fit them on all
+    // cores for long surveys (scoped threads, results in order).
+    let fit_group = |&(j0, j1): &(usize, usize)| -> GroupFit {
         let sub = chain.sub(j0, j1);
         let w_lo = if j0 == 0 {
             f64::NEG_INFINITY
@@ -739,15 +740,48 @@ pub fn fit(
                 }
             }
         }
-        fits.push(GroupFit {
+        GroupFit {
             chain: sub,
             lo_idx,
             hi_idx,
             lo,
             hi,
             converged: out.converged,
+        }
+    };
+    let threads = std::thread::available_parallelism()
+        .map(|x| x.get())
+        .unwrap_or(1)
+        .min(groups.len());
+    let mut fits: Vec<GroupFit> = if threads <= 1 || n < 20_000 {
+        groups.iter().map(fit_group).collect()
+    } else {
+        // Interleave the curves over the threads (neighbouring curves are
+        // often alike in cost), then put the results back in order.
+        let mut done: Vec<(usize, GroupFit)> = std::thread::scope(|sc| {
+            let handles: Vec<_> = (0..threads)
+                .map(|k| {
+                    let groups = &groups;
+                    let fit_group = &fit_group;
+                    sc.spawn(move || {
+                        (k..groups.len())
+                            .step_by(threads)
+                            .map(|i| (i, fit_group(&groups[i])))
+                            .collect::<Vec<_>>()
+                    })
+                })
+                .collect();
+            handles
+                .into_iter()
+                .flat_map(|h| match h.join() {
+                    Ok(v) => v,
+                    Err(e) => std::panic::resume_unwind(e),
+                })
+                .collect()
         });
-    }
+        done.sort_by_key(|x| x.0);
+        done.into_iter().map(|x| x.1).collect()
+    };
     // Reassemble.
     // A ramp the fit shrank to (almost) nothing is a step: hold it there.
     for g in fits.iter_mut() {
