@@ -292,3 +292,25 @@ fn broken_back_curve_is_flagged() {
     );
     assert!(!r.elements[0].note.contains("broken-back"));
 }
+
+#[test]
+fn long_dense_survey_uses_every_curve() {
+    // 5.4 km read every 0.25 m (over 20 000 readings: the curves are fitted
+    // on several threads); three curves, all found.
+    let mut els = vec![Element::straight(400.0)];
+    for r in [600.0, -900.0, 1500.0] {
+        els.push(tr(60.0, 0.0, r));
+        els.push(Element::arc(250.0, r));
+        els.push(tr(60.0, r, 0.0));
+        els.push(Element::straight(1400.0));
+    }
+    let mut sim = noisy(20.0, 0.25, Rail::Right, 11);
+    sim.noise_sd = 0.0005;
+    sim.resolution = 0.0001;
+    let (r, joints) = run(&els, &sim);
+    assert_eq!(r.elements.len(), els.len(), "{:?}", kinds(&r));
+    for e in boundary_errors(&r, &joints) {
+        assert!(e.abs() < 1.0, "boundary off by {e} m");
+    }
+    assert!(r.stats.groups >= 3);
+}
