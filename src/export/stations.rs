@@ -38,19 +38,32 @@ pub struct DesignAtStation {
     pub y: f64,
 }
 
+const POW10: [f64; 10] = [1.0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9];
+
 fn num(out: &mut String, v: f64, dp: usize, col: &str, chainage: f64) -> io::Result<()> {
+    use std::fmt::Write as _;
     if !v.is_finite() {
         return Err(io::Error::new(
             io::ErrorKind::InvalidData,
             format!("stations.csv: {col} at chainage {chainage:.3} m is not a finite number"),
         ));
     }
-    let s = format!("{v:.dp$}");
-    // No "-0.000": a value that rounds to zero is written as zero.
-    if s.starts_with('-') && s[1..].bytes().all(|b| b == b'0' || b == b'.') {
-        out.push_str(&s[1..]);
+    // Fixed decimals through integers (much faster than float formatting for
+    // a million rows; deterministic). A value that rounds to zero is written
+    // without a sign.
+    let x = (v * POW10[dp]).round();
+    if x.abs() < 9e15 {
+        let xi = x.abs() as u64;
+        let p = 10u64.pow(dp as u32);
+        if x < 0.0 && xi != 0 {
+            out.push('-');
+        }
+        let _ = write!(out, "{}", xi / p);
+        if dp > 0 {
+            let _ = write!(out, ".{:0width$}", xi % p, width = dp);
+        }
     } else {
-        out.push_str(&s);
+        let _ = write!(out, "{v:.dp$}");
     }
     Ok(())
 }

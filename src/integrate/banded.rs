@@ -23,6 +23,7 @@ pub struct BandedLsq {
     /// Sum of squares of the rotated-out residual components.
     rss: f64,
     buf: Vec<f64>,
+    last_first: usize,
 }
 
 impl BandedLsq {
@@ -36,41 +37,49 @@ impl BandedLsq {
             d: vec![0.0; n],
             rss: 0.0,
             buf: vec![0.0; w],
+            last_first: 0,
         }
     }
 
     /// Add the row `Σ coef[t]·x[first+t] ≈ y` (`coef.len() ≤ w`). Rows must be
-    /// added with non-decreasing `first` for the band to hold.
+    /// added with non-decreasing `first`: then every entry of `R` that a new row
+    /// meets lies inside the row's own window, and the update costs `O(w²)`.
     pub fn add_row(&mut self, first: usize, coef: &[f64], y: f64) {
         let w = self.w;
         debug_assert!(coef.len() <= w);
-        self.buf.fill(0.0);
+        debug_assert!(
+            first >= self.last_first,
+            "rows must come in order of first column"
+        );
+        self.last_first = first;
         let m = coef.len().min(w);
         self.buf[..m].copy_from_slice(&coef[..m]);
+        self.buf[m..].fill(0.0);
         let mut yv = y;
-        let mut c = first;
-        while c < self.n {
-            let a = self.buf[0];
-            if a != 0.0 {
-                let rk = &mut self.r[c * w..(c + 1) * w];
-                let b = rk[0];
-                let h = a.hypot(b);
-                let (cs, sn) = (b / h, a / h);
-                for t in 0..w {
-                    let (rv, bv) = (rk[t], self.buf[t]);
-                    rk[t] = cs * rv + sn * bv;
-                    self.buf[t] = -sn * rv + cs * bv;
-                }
-                let dv = self.d[c];
-                self.d[c] = cs * dv + sn * yv;
-                yv = -sn * dv + cs * yv;
-            }
-            self.buf.copy_within(1.., 0);
-            self.buf[w - 1] = 0.0;
-            c += 1;
-            if self.buf.iter().all(|v| *v == 0.0) {
+        // buf[t] is the coefficient of column first + t. Eliminating it with R
+        // row c = first + t touches R[c][0..w − t] and buf[t..w]; the rest of
+        // R row c lies beyond the window and is zero by the ordering.
+        for t in 0..w {
+            let c = first + t;
+            if c >= self.n {
                 break;
             }
+            let a = self.buf[t];
+            if a == 0.0 {
+                continue;
+            }
+            let rk = &mut self.r[c * w..c * w + (w - t)];
+            let b = rk[0];
+            let h = (a * a + b * b).sqrt();
+            let (cs, sn) = (b / h, a / h);
+            for (rv, xv) in rk.iter_mut().zip(self.buf[t..].iter_mut()) {
+                let (r0, x0) = (*rv, *xv);
+                *rv = cs * r0 + sn * x0;
+                *xv = -sn * r0 + cs * x0;
+            }
+            let dv = self.d[c];
+            self.d[c] = cs * dv + sn * yv;
+            yv = -sn * dv + cs * yv;
         }
         self.rss += yv * yv;
     }

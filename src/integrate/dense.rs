@@ -116,9 +116,86 @@ pub(crate) fn linearise(
         .collect()
 }
 
-/// Solve the regularised problem for readings `s` (chainage), `v` (linearised
-/// versines, `None` in gaps), with penalty weight `rho`. Returns the curve and
-/// the data residual sum of squares in units of `sigma²`.
+/// The data rows of one stretch of readings, built once and reused while the
+/// penalty weight is searched.
+struct Rows {
+    t0: f64,
+    nk: usize,
+    w: usize,
+    first: Vec<usize>,
+    /// `w` coefficients per row (zero padded), already divided by σ.
+    coef: Vec<f64>,
+    /// Linearised versine over σ.
+    y: Vec<f64>,
+}
+
+fn grid(s: &[f64], a: f64, h: f64) -> Option<(f64, usize, usize)> {
+    let (first, last) = (*s.first()?, *s.last()?);
+    let t0 = first - a;
+    let nk = (((last + a - t0) / h) - 1e-9).ceil().max(2.0) as usize + 1;
+    let m = (a / h).ceil() as usize;
+    Some((t0, nk, 2 * m + 3))
+}
+
+fn build_rows(s: &[f64], v: &[Option<f64>], a: f64, h: f64, sigma: f64) -> Option<Rows> {
+    let (t0, nk, w) = grid(s, a, h)?;
+    let inv = 1.0 / sigma;
+    let mut rows = Rows {
+        t0,
+        nk,
+        w,
+        first: Vec::new(),
+        coef: Vec::new(),
+        y: Vec::new(),
+    };
+    let mut row = Vec::with_capacity(w);
+    for (si, vi) in s.iter().zip(v) {
+        let Some(vi) = vi else { continue };
+        let jf = kernel_row(*si, a, t0, h, nk, &mut row);
+        rows.first.push(jf);
+        let base = rows.coef.len();
+        rows.coef.resize(base + w, 0.0);
+        for (t, c) in row.iter().enumerate() {
+            rows.coef[base + t] = c * inv;
+        }
+        rows.y.push(vi * inv);
+    }
+    Some(rows)
+}
+
+/// Add the penalty rows `ρ(k_j − 2k_{j+1} + k_{j+2})` with first column below
+/// `upto` (all when `None`), continuing from `*next`.
+fn add_penalty(lsq: &mut BandedLsq, next: &mut usize, nk: usize, upto: Option<usize>, rho: f64) {
+    let pen = [rho, -2.0 * rho, rho];
+    while *next + 2 < nk && upto.is_none_or(|u| *next < u) {
+        lsq.add_row(*next, &pen, 0.0);
+        *next += 1;
+    }
+}
+
+/// Solve with cached rows; returns the knot values and the data χ².
+fn solve_rows(rows: &Rows, rho: f64) -> Option<(Vec<f64>, f64)> {
+    let mut lsq = BandedLsq::new(rows.nk, rows.w);
+    let mut next = 0;
+    for (r, &jf) in rows.first.iter().enumerate() {
+        add_penalty(&mut lsq, &mut next, rows.nk, Some(jf), rho);
+        let len = rows.w.min(rows.nk - jf);
+        lsq.add_row(jf, &rows.coef[r * rows.w..r * rows.w + len], rows.y[r]);
+    }
+    add_penalty(&mut lsq, &mut next, rows.nk, None, rho);
+    let k = lsq.solve()?;
+    let mut chi2 = 0.0;
+    for (r, &jf) in rows.first.iter().enumerate() {
+        let len = rows.w.min(rows.nk - jf);
+        let c = &rows.coef[r * rows.w..r * rows.w + len];
+        let pred: f64 = c.iter().zip(&k[jf..jf + len]).map(|(a, b)| a * b).sum();
+        chi2 += (pred - rows.y[r]).powi(2);
+    }
+    Some((k, chi2))
+}
+
+/// Solve the whole survey once, building each row as it is fed (no cache:
+/// O(n w) memory would be needless for a million readings).
 pub(crate) fn solve(
     s: &[f64],
     v: &[Option<f64>],
@@ -126,43 +203,24 @@ pub(crate) fn solve(
     h: f64,
     sigma: f64,
     rho: f64,
-) -> Option<(KnotCurve, f64)> {
-    let (first, last) = (*s.first()?, *s.last()?);
-    let t0 = first - a;
-    let nk = (((last + a - t0) / h) - 1e-9).ceil().max(2.0) as usize + 1;
-    let m = (a / h).ceil() as usize;
-    let w = 2 * m + 3;
+) -> Option<KnotCurve> {
+    let (t0, nk, w) = grid(s, a, h)?;
     let mut lsq = BandedLsq::new(nk, w);
     let mut row = Vec::with_capacity(w);
     let inv = 1.0 / sigma;
-    let mut next_pen = 0usize;
-    let pen = [rho, -2.0 * rho, rho];
+    let mut next = 0;
     for (si, vi) in s.iter().zip(v) {
         let Some(vi) = vi else { continue };
         let jf = kernel_row(*si, a, t0, h, nk, &mut row);
-        while next_pen + 2 < nk && next_pen < jf {
-            lsq.add_row(next_pen, &pen, 0.0);
-            next_pen += 1;
-        }
+        add_penalty(&mut lsq, &mut next, nk, Some(jf), rho);
         for c in row.iter_mut() {
             *c *= inv;
         }
         lsq.add_row(jf, &row, vi * inv);
     }
-    while next_pen + 2 < nk {
-        lsq.add_row(next_pen, &pen, 0.0);
-        next_pen += 1;
-    }
+    add_penalty(&mut lsq, &mut next, nk, None, rho);
     let k = lsq.solve()?;
-    // Data residual.
-    let mut rss = 0.0;
-    for (si, vi) in s.iter().zip(v) {
-        let Some(vi) = vi else { continue };
-        let jf = kernel_row(*si, a, t0, h, nk, &mut row);
-        let pred: f64 = row.iter().enumerate().map(|(t, c)| c * k[jf + t]).sum();
-        rss += ((pred - vi) * inv).powi(2);
-    }
-    Some((KnotCurve { t0, h, k }, rss))
+    Some(KnotCurve { t0, h, k })
 }
 
 /// Choose the penalty weight by the discrepancy principle on up to six
@@ -188,16 +246,17 @@ pub(crate) fn fit(
             })
             .collect()
     };
-    let nvalid: usize = windows
+    let rows: Vec<Rows> = windows
         .iter()
-        .map(|&(p, q)| v[p..q].iter().filter(|x| x.is_some()).count())
-        .sum();
+        .map(|&(lo, hi)| build_rows(&s[lo..hi], &v[lo..hi], a, h, sigma))
+        .collect::<Option<_>>()?;
+    let nvalid: usize = rows.iter().map(|r| r.y.len()).sum();
     let scale = a * h / sigma;
     let chi2 = |p: f64| -> Option<f64> {
         let rho = 10f64.powf(p) * scale;
         let mut tot = 0.0;
-        for &(lo, hi) in &windows {
-            tot += solve(&s[lo..hi], &v[lo..hi], a, h, sigma, rho)?.1;
+        for r in &rows {
+            tot += solve_rows(r, rho)?.1;
         }
         Some(tot)
     };
@@ -218,7 +277,17 @@ pub(crate) fn fit(
         }
         0.5 * (lo + hi)
     };
-    let (curve, _) = solve(s, v, a, h, sigma, 10f64.powf(p) * scale)?;
+    let rho = 10f64.powf(p) * scale;
+    let curve = if windows.len() == 1 {
+        let (k, _) = solve_rows(&rows[0], rho)?;
+        KnotCurve {
+            t0: rows[0].t0,
+            h,
+            k,
+        }
+    } else {
+        solve(s, v, a, h, sigma, rho)?
+    };
     Some((curve, p))
 }
 

@@ -70,10 +70,8 @@ pub fn versine_from_curvature(k: f64, a: f64, marking: Marking) -> f64 {
             let sh = (0.5 * k * a).sin();
             2.0 * sh * sh / k
         }
-        Marking::Wire => {
-            let r = 1.0 / k.abs();
-            k.signum() * (r - (r * r - a * a).max(0.0).sqrt())
-        }
+        // R − √(R² − a²) without cancellation on gentle curves.
+        Marking::Wire => k * a * a / (1.0 + (1.0 - (k * a).powi(2)).max(0.0).sqrt()),
     }
 }
 
