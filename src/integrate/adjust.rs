@@ -47,6 +47,9 @@ pub(crate) enum StartMode {
     TranslateRotate,
 }
 
+/// `V⁻¹`, `A` and `(AᵀV⁻¹A)⁻¹` of one linearisation.
+type Solved = (DMatrix<f64>, DMatrix<f64>, Option<DMatrix<f64>>);
+
 /// Result of the adjustment.
 #[derive(Debug, Clone)]
 pub(crate) struct Adjusted {
@@ -139,7 +142,8 @@ pub(crate) fn adjust(
     let mut order: Vec<usize> = (0..k).collect();
     order.sort_by_key(|&i| ctrl[i].j);
 
-    let mut last: Option<(DMatrix<f64>, DMatrix<f64>, Option<DMatrix<f64>>)> = None;
+    // V⁻¹, A and (AᵀV⁻¹A)⁻¹ of the last linearisation.
+    let mut last: Option<Solved> = None;
     if k > 0 {
         for _iter in 0..8 {
             let o = c[0];

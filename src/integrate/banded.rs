@@ -98,7 +98,7 @@ impl BandedLsq {
         for i in (0..n).rev() {
             let row = &self.r[i * w..(i + 1) * w];
             let piv = row[0];
-            if !(piv.abs() > 1e-14 * big) {
+            if piv.is_nan() || piv.abs() <= 1e-14 * big {
                 return None;
             }
             let mut s = self.d[i];

@@ -40,7 +40,7 @@ impl KnotCurve {
             return 0.0;
         }
         let u = (s - self.t0) / self.h;
-        if !(u > 0.0) {
+        if u.is_nan() || u <= 0.0 {
             return self.k[0];
         }
         let j = u.floor() as usize;

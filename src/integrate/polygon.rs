@@ -47,7 +47,7 @@ pub fn curvature_from_versine(v: f64, a: f64, marking: Marking) -> Option<f64> {
                 }
                 let step = f / df;
                 x -= step;
-                if !(x > 0.0) {
+                if x.is_nan() || x <= 0.0 {
                     return None;
                 }
                 if step.abs() <= 1e-16 * x {
