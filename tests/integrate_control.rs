@@ -435,3 +435,32 @@ fn default_start_is_north_at_the_origin() {
     assert!((chordline::geometry::heading_to_bearing(s.heading)).abs() < 1e-9);
     let _ = Plan::clone(&plan);
 }
+
+#[test]
+fn tiny_and_irregular_surveys_do_not_fail() {
+    let setup = Setup::new(20.0, Rail::Left);
+    for n in [1usize, 2, 3] {
+        let (plan, _) = integrate(
+            &straight_survey(n, 10.0),
+            &setup,
+            &IntegrateOptions::default(),
+        )
+        .unwrap();
+        assert_eq!(plan.stations.len(), n);
+        assert!(
+            plan.stations
+                .iter()
+                .all(|s| s.x.is_finite() && s.position_sd.is_finite())
+        );
+    }
+    // Irregular spacing (not the half chord): the regularised estimate.
+    let mut survey = straight_survey(40, 10.0);
+    for (i, r) in survey.readings.iter_mut().enumerate() {
+        r.chainage = 7.3 * i as f64 + if i % 3 == 0 { 1.1 } else { 0.0 };
+        r.versine = Some(-0.05); // bows towards the wire on the left rail: left-hand curve, R ≈ 1000 m
+    }
+    let (plan, diags) = integrate(&survey, &setup, &IntegrateOptions::default()).unwrap();
+    assert!(diags.iter().any(|d| d.message.contains("regularised")));
+    let k = plan.stations[20].curvature;
+    assert!((k * 1000.0 - 1.0).abs() < 0.01, "{k}");
+}

@@ -232,6 +232,14 @@ pub enum IntegrateError {
         /// What is wrong and what to do.
         why: String,
     },
+    /// The regularised curvature estimate could not be solved.
+    #[error(
+        "{file}: the curvature could not be estimated from the readings (the least-squares problem is singular); check that the chord length matches the survey"
+    )]
+    CurvatureFit {
+        /// Where the survey came from.
+        file: String,
+    },
     /// The adjustment with the control points could not be solved.
     #[error(
         "the control points could not be combined with the versines (the adjustment is singular); check for duplicated points with zero standard deviation"
@@ -562,7 +570,8 @@ pub fn integrate(
             *ds.select_nth_unstable_by(m, |x, y| x.total_cmp(y)).1
         };
         let h = dense::knot_spacing(a, dmed);
-        let (curve, p) = dense::fit(&s, &vlin, a, h, sigma).ok_or(IntegrateError::Singular)?;
+        let (curve, p) = dense::fit(&s, &vlin, a, h, sigma)
+            .ok_or_else(|| IntegrateError::CurvatureFit { file: src.clone() })?;
         let (pos, th, ks) = dense::integrate_curve(&curve, &s);
         let g = g_of(rd[0].rail);
         let (cx, cy, th0) = (start.x, start.y, start.heading);
