@@ -464,3 +464,44 @@ fn tiny_and_irregular_surveys_do_not_fail() {
     let k = plan.stations[20].curvature;
     assert!((k * 1000.0 - 1.0).abs() < 0.01, "{k}");
 }
+
+#[test]
+fn many_control_points_on_a_long_dense_survey() {
+    // 2.2 km read every metre with 120 control points: the sd is evaluated on a
+    // subset and interpolated (said in a note); values stay finite and honest.
+    let design = route();
+    let mut sim = SimSetup::classic(20.0, Rail::Left);
+    sim.spacing = 1.0;
+    sim.noise_sd = 1e-3;
+    let (survey, truth) = survey_of(&design, &sim);
+    let n = truth.len();
+    let idx: Vec<usize> = (0..120).map(|i| i * (n - 1) / 119).collect();
+    let obs = controls(&truth, &idx, 3e-3, 4);
+    let mut setup = Setup::new(20.0, Rail::Left);
+    setup.reading_sd = Some(1e-3);
+    let (plan, diags) = integrate(
+        &survey,
+        &setup,
+        &IntegrateOptions {
+            start: truth[0].centre,
+            position_obs: obs,
+        },
+    )
+    .unwrap();
+    assert!(
+        diags
+            .iter()
+            .any(|d| d.message.contains("interpolated linearly"))
+    );
+    let mut z2 = 0.0;
+    for (t, s) in truth.iter().zip(&plan.stations) {
+        assert!(
+            s.position_sd.is_finite() && s.position_sd > 0.0 && s.position_sd < 5e-3,
+            "{}",
+            s.position_sd
+        );
+        z2 += (lateral(t, s.x, s.y) / s.position_sd).powi(2);
+    }
+    let r = (z2 / n as f64).sqrt();
+    assert!(r < 2.0, "normalised RMS {r}");
+}

@@ -61,6 +61,8 @@ pub(crate) struct Adjusted {
     pub heading_var: Vec<f64>,
     /// Per control: (dx, dy, normalised).
     pub residuals: Vec<(f64, f64, f64)>,
+    /// Standard deviations were evaluated every this many stations (1: all).
+    pub stride: usize,
 }
 
 #[inline]
@@ -284,73 +286,177 @@ pub(crate) fn adjust(
             }
         }
     }
-    let mut lateral_var = Vec::with_capacity(n);
-    let mut heading_var = Vec::with_capacity(n);
-    let mut s = Sums::default(); // l ≤ i − 1
-    let mut hsum = 0.0; // Σ_{l<i} D_l (prior heading)
-    let mut g = DMatrix::<f64>::zeros(3, 2 * k);
-    for i in 0..n {
-        let ci_ = rel[i];
-        let (sn, cs) = theta[i].sin_cos();
-        let nrm = (-sn, cs);
-        // Prior.
-        let mut incl = s;
-        incl.add(dr[i], ci_);
-        let m = jmj(s.m(ci_, ci_));
-        let mut var_pos = [m[0], m[1], m[2], m[3]];
-        let mut var_h = if i == 0 { dr[0] } else { hsum + 0.25 * dr[i] };
-        if let Some((vinv, a, finv)) = &last {
-            // Cov(position_i, y) rows 0–1 and Cov(heading_i, y) row 2.
-            let mut half = s;
-            if i > 0 {
-                half.add(0.5 * dr[i], ci_);
-            } else {
-                half.add(dr[0], ci_);
-            }
-            for cj in 0..k {
-                let sp = if i <= ctrl[cj].j { incl } else { sums_at[cj] };
-                let mm = jmj(sp.m(ci_, pts[cj]));
-                g[(0, 2 * cj)] = mm[0];
-                g[(0, 2 * cj + 1)] = mm[1];
-                g[(1, 2 * cj)] = mm[2];
-                g[(1, 2 * cj + 1)] = mm[3];
-                let sh = if i <= ctrl[cj].j { half } else { sums_at[cj] };
-                let hv = sh.jv(pts[cj]);
-                g[(2, 2 * cj)] = hv.0;
-                g[(2, 2 * cj + 1)] = hv.1;
-            }
-            let gv = &g * vinv;
-            let red = &gv * g.transpose();
-            var_pos[0] -= red[(0, 0)];
-            var_pos[1] -= red[(0, 1)];
-            var_pos[2] -= red[(1, 0)];
-            var_pos[3] -= red[(1, 1)];
-            var_h -= red[(2, 2)];
-            if let Some(finv) = finv {
-                let p = a.ncols();
-                let mut ai = DMatrix::<f64>::zeros(3, p);
-                ai[(0, 0)] = 1.0;
-                ai[(1, 1)] = 1.0;
-                if p == 3 {
-                    ai[(0, 2)] = -ci_.1;
-                    ai[(1, 2)] = ci_.0;
-                    ai[(2, 2)] = 1.0;
-                }
-                let e = ai - &gv * a;
-                let add = &e * finv * e.transpose();
-                var_pos[0] += add[(0, 0)];
-                var_pos[1] += add[(0, 1)];
-                var_pos[2] += add[(1, 0)];
-                var_pos[3] += add[(1, 1)];
-                var_h += add[(2, 2)];
+    // With control, each station costs O(k²); on very long surveys with many
+    // control points evaluate a subset (every `stride`-th station, the
+    // control stations and 16 points between each pair of neighbouring
+    // controls) and interpolate the standard deviations linearly between them.
+    let kk2 = (2 * k) * (2 * k);
+    let stride = if last.is_some() {
+        ((n as f64 * 3.0 * kk2 as f64 / 3e8).ceil() as usize).max(1)
+    } else {
+        1
+    };
+    let mut eval = vec![stride == 1; n];
+    if stride > 1 {
+        for i in (0..n).step_by(stride) {
+            eval[i] = true;
+        }
+        eval[n - 1] = true;
+        let mut js: Vec<usize> = ctrl.iter().map(|q| q.j).collect();
+        js.sort_unstable();
+        js.dedup();
+        for &j in &js {
+            eval[j] = true;
+            eval[(j + 1).min(n - 1)] = true;
+        }
+        for w in js.windows(2) {
+            for t in 1..16 {
+                eval[w[0] + (w[1] - w[0]) * t / 16] = true;
             }
         }
-        let lat = nrm.0 * (var_pos[0] * nrm.0 + var_pos[1] * nrm.1)
-            + nrm.1 * (var_pos[2] * nrm.0 + var_pos[3] * nrm.1);
-        lateral_var.push(lat.max(0.0));
-        heading_var.push(var_h.max(0.0));
+    }
+    let (vinv_f, a_f, finv_f, p) = match &last {
+        Some((vinv, a, finv)) => (
+            (0..2 * k)
+                .flat_map(|r| (0..2 * k).map(move |c| (r, c)))
+                .map(|(r, c)| vinv[(r, c)])
+                .collect::<Vec<f64>>(),
+            (0..2 * k)
+                .flat_map(|r| (0..a.ncols()).map(move |c| (r, c)))
+                .map(|(r, c)| a[(r, c)])
+                .collect::<Vec<f64>>(),
+            finv.as_ref().map(|f| {
+                (0..f.nrows())
+                    .flat_map(|r| (0..f.ncols()).map(move |c| (r, c)))
+                    .map(|(r, c)| f[(r, c)])
+                    .collect::<Vec<f64>>()
+            }),
+            a.ncols(),
+        ),
+        None => (Vec::new(), Vec::new(), None, 0),
+    };
+    let mut lateral_var = vec![f64::NAN; n];
+    let mut heading_var = vec![f64::NAN; n];
+    let mut s = Sums::default(); // l ≤ i − 1
+    let mut hsum = 0.0; // Σ_{l<i} D_l (prior heading)
+    let mut g = vec![0.0; 3 * 2 * k];
+    let mut gv = vec![0.0; 3 * 2 * k];
+    for i in 0..n {
+        let ci_ = rel[i];
+        if eval[i] {
+            let (sn, cs) = theta[i].sin_cos();
+            let nrm = (-sn, cs);
+            // Prior.
+            let mut incl = s;
+            incl.add(dr[i], ci_);
+            let m = jmj(s.m(ci_, ci_));
+            let mut var_pos = [m[0], m[1], m[2], m[3]];
+            let mut var_h = if i == 0 { dr[0] } else { hsum + 0.25 * dr[i] };
+            if last.is_some() {
+                let w2 = 2 * k;
+                // Cov(position_i, y) rows 0–1 and Cov(heading_i, y) row 2.
+                let mut half = s;
+                if i > 0 {
+                    half.add(0.5 * dr[i], ci_);
+                } else {
+                    half.add(dr[0], ci_);
+                }
+                for cj in 0..k {
+                    let sp = if i <= ctrl[cj].j { incl } else { sums_at[cj] };
+                    let mm = jmj(sp.m(ci_, pts[cj]));
+                    g[2 * cj] = mm[0];
+                    g[2 * cj + 1] = mm[1];
+                    g[w2 + 2 * cj] = mm[2];
+                    g[w2 + 2 * cj + 1] = mm[3];
+                    let sh = if i <= ctrl[cj].j { half } else { sums_at[cj] };
+                    let hv = sh.jv(pts[cj]);
+                    g[2 * w2 + 2 * cj] = hv.0;
+                    g[2 * w2 + 2 * cj + 1] = hv.1;
+                }
+                // gv = g V⁻¹; red = gv gᵀ.
+                for r in 0..3 {
+                    let gr = &g[r * w2..(r + 1) * w2];
+                    let out = &mut gv[r * w2..(r + 1) * w2];
+                    out.fill(0.0);
+                    for (mi, gm) in gr.iter().enumerate() {
+                        if *gm != 0.0 {
+                            let vrow = &vinv_f[mi * w2..(mi + 1) * w2];
+                            for (o, v) in out.iter_mut().zip(vrow) {
+                                *o += gm * v;
+                            }
+                        }
+                    }
+                }
+                let dot = |r1: usize, r2: usize| -> f64 {
+                    gv[r1 * w2..(r1 + 1) * w2]
+                        .iter()
+                        .zip(&g[r2 * w2..(r2 + 1) * w2])
+                        .map(|(x, y)| x * y)
+                        .sum()
+                };
+                var_pos[0] -= dot(0, 0);
+                var_pos[1] -= dot(0, 1);
+                var_pos[2] -= dot(1, 0);
+                var_pos[3] -= dot(1, 1);
+                var_h -= dot(2, 2);
+                if let Some(finv) = &finv_f {
+                    // e = a_i − gv A (3 × p); add = e F⁻¹ eᵀ.
+                    let mut e = [[0.0; 3]; 3];
+                    for r in 0..3 {
+                        for c in 0..p {
+                            let mut acc = 0.0;
+                            for m in 0..w2 {
+                                acc += gv[r * w2 + m] * a_f[m * p + c];
+                            }
+                            e[r][c] = -acc;
+                        }
+                    }
+                    e[0][0] += 1.0;
+                    e[1][1] += 1.0;
+                    if p == 3 {
+                        e[0][2] += -ci_.1;
+                        e[1][2] += ci_.0;
+                        e[2][2] += 1.0;
+                    }
+                    let quad = |r1: usize, r2: usize| -> f64 {
+                        let mut acc = 0.0;
+                        for x in 0..p {
+                            for y in 0..p {
+                                acc += e[r1][x] * finv[x * p + y] * e[r2][y];
+                            }
+                        }
+                        acc
+                    };
+                    var_pos[0] += quad(0, 0);
+                    var_pos[1] += quad(0, 1);
+                    var_pos[2] += quad(1, 0);
+                    var_pos[3] += quad(1, 1);
+                    var_h += quad(2, 2);
+                }
+            }
+            let lat = nrm.0 * (var_pos[0] * nrm.0 + var_pos[1] * nrm.1)
+                + nrm.1 * (var_pos[2] * nrm.0 + var_pos[3] * nrm.1);
+            lateral_var[i] = lat.max(0.0);
+            heading_var[i] = var_h.max(0.0);
+        }
         s.add(dr[i], ci_);
         hsum += dr[i];
+    }
+    if stride > 1 {
+        // Linear interpolation of the standard deviations between evaluated stations.
+        for v in [&mut lateral_var, &mut heading_var] {
+            let mut prev = 0usize;
+            for i in 1..n {
+                if eval[i] {
+                    let (s0, s1) = (v[prev].sqrt(), v[i].sqrt());
+                    for t in prev + 1..i {
+                        let f = (t - prev) as f64 / (i - prev) as f64;
+                        v[t] = (s0 + (s1 - s0) * f).powi(2);
+                    }
+                    prev = i;
+                }
+            }
+        }
     }
 
     // Residuals of the control points.
@@ -381,6 +487,7 @@ pub(crate) fn adjust(
         lateral_var,
         heading_var,
         residuals,
+        stride,
     })
 }
 

@@ -692,6 +692,14 @@ pub fn integrate(
     }
     let adj =
         adjust::adjust(&centre, &theta, &dvar, &ctrl, mode).ok_or(IntegrateError::Singular)?;
+    if adj.stride > 1 {
+        diags.push(Diagnostic::note(format!(
+            "with {} control points on {} stations, standard deviations were computed exactly at every {}th station, at the control points and between them, and interpolated linearly elsewhere",
+            ctrl.len(),
+            n,
+            adj.stride
+        )));
+    }
 
     // Stations.
     let mut stations = Vec::with_capacity(n);
