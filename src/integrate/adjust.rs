@@ -449,9 +449,10 @@ pub(crate) fn adjust(
             for i in 1..n {
                 if eval[i] {
                     let (s0, s1) = (v[prev].sqrt(), v[i].sqrt());
-                    for t in prev + 1..i {
-                        let f = (t - prev) as f64 / (i - prev) as f64;
-                        v[t] = (s0 + (s1 - s0) * f).powi(2);
+                    let span = (i - prev) as f64;
+                    for (t, x) in v[prev + 1..i].iter_mut().enumerate() {
+                        let f = (t + 1) as f64 / span;
+                        *x = (s0 + (s1 - s0) * f).powi(2);
                     }
                     prev = i;
                 }
