@@ -505,3 +505,34 @@ fn many_control_points_on_a_long_dense_survey() {
     let r = (z2 / n as f64).sqrt();
     assert!(r < 2.0, "normalised RMS {r}");
 }
+
+#[test]
+fn many_dropouts_are_bridged_with_a_summary() {
+    // Recording-vehicle style dropouts: every 7th reading missing at 1 m spacing.
+    let design = route();
+    let mut sim = SimSetup::classic(20.0, Rail::Left);
+    sim.spacing = 1.0;
+    let (mut survey, truth) = survey_of(&design, &sim);
+    for (i, r) in survey.readings.iter_mut().enumerate() {
+        if i % 7 == 3 {
+            r.versine = None;
+        }
+    }
+    let (plan, diags) = integrate(
+        &survey,
+        &Setup::new(20.0, Rail::Left),
+        &IntegrateOptions {
+            start: truth[0].centre,
+            position_obs: vec![],
+        },
+    )
+    .unwrap();
+    let gap_msgs = diags
+        .iter()
+        .filter(|d| d.message.contains("missing reading") || d.message.contains("more gaps"))
+        .count();
+    assert_eq!(gap_msgs, 11);
+    assert!(diags.iter().any(|d| d.message.contains("more gaps")));
+    let (t, s) = (truth.last().unwrap(), plan.stations.last().unwrap());
+    assert!((s.x - t.centre.x).hypot(s.y - t.centre.y) < 1e-3);
+}

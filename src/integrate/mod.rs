@@ -530,8 +530,12 @@ pub fn integrate(
             pose = (wx - g * s2, wy + g * c2, th);
         }
         // Inflate for gaps: interpolation error of the versines at the gap's length, fully correlated.
+        let mut cache = std::collections::HashMap::new();
+        let mut gap_log = GapLog::default();
         for gp in &gaps {
-            let sd_i = interp_error(&vcs, gp.len);
+            let sd_i = *cache
+                .entry(gp.len)
+                .or_insert_with(|| interp_error(&vcs, gp.len));
             // A missing deflection at either end of the survey only turns the
             // end tangent by half of it.
             let mut g_eff = gp.len as f64;
@@ -544,8 +548,9 @@ pub fn integrate(
             let extra = (g_eff.max(0.5) * 2.0 * sd_i / a).powi(2);
             let mid = (gp.first + gp.last) / 2;
             dvar[mid] += extra;
-            push_gap_diag(&mut diags, survey, gp, sd_i, extra.sqrt());
+            gap_log.push(&mut diags, survey, gp, sd_i, extra.sqrt());
         }
+        gap_log.finish(&mut diags);
         diags.push(Diagnostic::note(format!(
             "readings every half chord: exact polygon of the marks ({} marking)",
             match setup.marking {
@@ -589,16 +594,22 @@ pub fn integrate(
                 0.5 * q_unit * (spacing_fwd[i - 1] + spacing_fwd[i])
             };
         }
+        let mut cache = std::collections::HashMap::new();
+        let mut gap_log = GapLog::default();
         for gp in gaps_of(&vcs) {
             // The kernels of the readings either side see the curvature up to
             // about a quarter chord into the gap; the rest is bridged.
             let len = gap_span(&s, &vcs, &gp);
-            let sd_k = curve_interp_error(&curve, len);
+            let key = (len / h).round() as u64;
+            let sd_k = *cache
+                .entry(key)
+                .or_insert_with(|| curve_interp_error(&curve, len));
             let extra = (sd_k * (len - a).max(0.0)).powi(2);
             let mid = (gp.first + gp.last) / 2;
             dvar[mid] += extra;
-            push_gap_diag(&mut diags, survey, &gp, sd_k, extra.sqrt());
+            gap_log.push(&mut diags, survey, &gp, sd_k, extra.sqrt());
         }
+        gap_log.finish(&mut diags);
         diags.push(Diagnostic::note(format!(
             "readings closer than the half chord (median spacing {:.3} m): regularised curvature estimate on knots every {:.3} m, penalty weight 10^{:.2} (discrepancy principle)",
             dmed, h, p
@@ -919,19 +930,55 @@ fn curve_interp_error(curve: &dense::KnotCurve, len: f64) -> f64 {
     (ss / cnt.max(1) as f64).sqrt()
 }
 
-fn push_gap_diag(diags: &mut Vec<Diagnostic>, survey: &Survey, g: &Gap, sd: f64, heading_sd: f64) {
-    let rd = &survey.readings;
-    let d = Diagnostic::warning(format!(
-        "{} missing reading{} from chainage {:.3} to {:.3} m: bridged by interpolation (not taken as zero); heading uncertainty increased by {:.3} mrad there (interpolation error {:.3e} measured on the rest of the survey)",
-        g.len,
-        if g.len == 1 { "" } else { "s" },
-        rd[g.first].chainage,
-        rd[g.last].chainage,
-        heading_sd * 1e3,
-        sd
-    ))
-    .at_opt(loc(survey, rd[g.first].line));
-    diags.push(d);
+/// Gap warnings: one per gap for the first ten, then a summary.
+#[derive(Default)]
+struct GapLog {
+    count: usize,
+    readings: usize,
+    worst_heading_sd: f64,
+}
+
+impl GapLog {
+    const SHOWN: usize = 10;
+
+    fn push(
+        &mut self,
+        diags: &mut Vec<Diagnostic>,
+        survey: &Survey,
+        g: &Gap,
+        sd: f64,
+        heading_sd: f64,
+    ) {
+        self.count += 1;
+        if self.count > Self::SHOWN {
+            self.readings += g.len;
+            self.worst_heading_sd = self.worst_heading_sd.max(heading_sd);
+            return;
+        }
+        let rd = &survey.readings;
+        let d = Diagnostic::warning(format!(
+            "{} missing reading{} from chainage {:.3} to {:.3} m: bridged by interpolation (not taken as zero); heading uncertainty increased by {:.3} mrad there (interpolation error {:.3e} measured on the rest of the survey)",
+            g.len,
+            if g.len == 1 { "" } else { "s" },
+            rd[g.first].chainage,
+            rd[g.last].chainage,
+            heading_sd * 1e3,
+            sd
+        ))
+        .at_opt(loc(survey, rd[g.first].line));
+        diags.push(d);
+    }
+
+    fn finish(self, diags: &mut Vec<Diagnostic>) {
+        if self.count > Self::SHOWN {
+            diags.push(Diagnostic::warning(format!(
+                "{} more gaps ({} missing readings) bridged the same way; the largest added heading uncertainty among them is {:.3} mrad",
+                self.count - Self::SHOWN,
+                self.readings,
+                self.worst_heading_sd * 1e3
+            )));
+        }
+    }
 }
 
 /// Rigid (rotation about the start, then translation) weighted least-squares
