@@ -279,6 +279,10 @@ pub struct FitResult {
     pub residual: Vec<Option<f64>>,
     chain: Chain,
     rail_offset: f64,
+    /// Knots of the piecewise-linear rail curvature from the design start:
+    /// (chainage, centreline distance there, rail curvature there), for
+    /// [`FitResult::centre_distance`] in O(log n).
+    centre_knots: Vec<(f64, f64, f64)>,
 }
 
 /// What a move in the simplification does.
@@ -1252,11 +1256,37 @@ pub fn fit(
             chainages,
             design_versine,
             residual,
+            centre_knots: centre_knots(&chain, start_s, d_off),
             chain,
             rail_offset: d_off,
         },
         diags,
     ))
+}
+
+/// The knot table of [`FitResult::centre_distance`]: the centreline distance
+/// `∫(1 + d k(u)) du` from `s0` at every ramp end, with `k` piecewise linear
+/// between knots (exact).
+fn centre_knots(c: &Chain, s0: f64, d: f64) -> Vec<(f64, f64, f64)> {
+    let mut xs = vec![s0];
+    for j in 0..c.ramps() {
+        xs.push(c.ramp_start(j).max(s0));
+        xs.push(c.ramp_end(j).max(s0));
+    }
+    xs.sort_by(f64::total_cmp);
+    xs.dedup();
+    let mut out = Vec::with_capacity(xs.len());
+    let mut acc = 0.0;
+    let mut prev: Option<(f64, f64)> = None;
+    for x in xs {
+        let k = c.curvature(x);
+        if let Some((x0, k0)) = prev {
+            acc += (x - x0) * (1.0 + d * 0.5 * (k0 + k));
+        }
+        out.push((x, acc, k));
+        prev = Some((x, k));
+    }
+    out
 }
 
 /// Ramp index ranges `[j0, j1)` between straights longer than `2c + 10 m`.
@@ -1334,32 +1364,19 @@ fn profile_upper(
 impl FitResult {
     /// Centreline distance from the design start to survey chainage `ch`.
     pub fn centre_distance(&self, ch: f64) -> f64 {
-        let c = &self.chain;
-        let d = self.rail_offset;
         let s0 = self.start_chainage;
-        if ch <= s0 {
+        if ch <= s0 || self.centre_knots.is_empty() {
             return ch - s0;
         }
-        // ∫ (1 + d k(u)) du from s0 to ch with k piecewise linear.
-        let mut knots = vec![s0];
-        for j in 0..c.ramps() {
-            knots.push(c.ramp_start(j).max(s0));
-            knots.push(c.ramp_end(j).max(s0));
-        }
-        knots.push(f64::INFINITY);
-        let mut acc = 0.0;
-        for w in knots.windows(2) {
-            let (x0, x1) = (w[0], w[1].min(ch));
-            if x1 > x0 {
-                let k0 = c.curvature(x0);
-                let k1 = c.curvature(x1);
-                acc += (x1 - x0) * (1.0 + d * 0.5 * (k0 + k1));
-            }
-            if w[1] >= ch {
-                break;
-            }
-        }
-        acc
+        // Last knot at or before `ch`; beyond it the curvature is linear up
+        // to the next knot (or constant after the last one).
+        let i = self.centre_knots.partition_point(|k| k.0 <= ch) - 1;
+        let (x0, acc, k0) = self.centre_knots[i];
+        let k1 = match self.centre_knots.get(i + 1) {
+            Some(&(x1, _, kn)) if x1 > x0 => k0 + (kn - k0) * (ch - x0) / (x1 - x0),
+            _ => k0,
+        };
+        acc + (ch - x0) * (1.0 + self.rail_offset * 0.5 * (k0 + k1))
     }
 
     /// Place the design centreline in the plan so that it best matches
