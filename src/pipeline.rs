@@ -11,7 +11,7 @@ use crate::export::elements::write_elements_csv;
 use crate::export::geojson::{ElementProps, GeoJsonError, GeoJsonInput, write_geojson};
 use crate::export::landxml::{LandXmlError, LandXmlFrame, LandXmlOptions, write_landxml};
 use crate::export::output_dir::{OutputDir, OutputError};
-use crate::export::stations::{DesignAtStation, write_stations};
+use crate::export::stations::{DesignAtStation, GeoAtStation, StationExtras, write_stations_with};
 use crate::fit::{FitOptions, FitResult, fit};
 use crate::geometry::{Pose, bearing_to_heading};
 use crate::georef::{
@@ -237,9 +237,32 @@ pub fn run(
     diags.append(&mut results.diagnostics);
     results.diagnostics = diags;
     let unit = results.survey.chainage_unit;
-    let design = results.design.as_ref().map(|(_, d)| d.as_slice());
+    let geo: Option<Vec<GeoAtStation>> = results.georef.as_ref().map(|g| {
+        results
+            .plan
+            .stations
+            .iter()
+            .map(|s| {
+                let (lon, lat) = g.lonlat(s.x, s.y);
+                GeoAtStation {
+                    lon,
+                    lat,
+                    true_bearing: g.true_bearing(Pose {
+                        x: s.x,
+                        y: s.y,
+                        heading: s.heading,
+                    }),
+                }
+            })
+            .collect()
+    });
+    let extras = StationExtras {
+        design: results.design.as_ref().map(|(_, d)| d.as_slice()),
+        geo: geo.as_deref(),
+        slews: None,
+    };
     dir.write_file("stations.csv", |w| {
-        write_stations(w, &results.plan, unit, design)
+        write_stations_with(w, &results.plan, unit, &extras)
     })?;
     if let Some(f) = &results.fit {
         dir.write_file("elements.csv", |w| write_elements_csv(f, unit, w))?;

@@ -97,7 +97,7 @@ fn design_columns_follow_and_bad_values_are_refused() {
         .iter()
         .map(|s| DesignAtStation {
             design_versine: 0.01,
-            residual: -0.0005,
+            residual: Some(-0.0005),
             x: s.x + 0.001,
             y: s.y,
         })

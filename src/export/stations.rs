@@ -17,6 +17,8 @@
 //! | `degree_of_curve` | ° | 4 | imperial surveys only: chord definition (100 ft), signed like the curvature |
 //! | `design_versine_mm`, `residual_mm` | mm | 2 (in: 3) | with a design: its versine and measured − design |
 //! | `design_easting_m`, `design_northing_m` | m | 4 | with a design: its centreline position |
+//! | `slew_mm`, `slew_sd_mm` | mm | 2 (in: 3) | with slews: lateral move onto the design, positive to the left, and its sd |
+//! | `longitude_deg`, `latitude_deg` | ° | 8 | placed surveys (WGS 84); `bearing_deg` is then from true north |
 //!
 //! Numbers have fixed decimals, so the same plan always gives the same bytes.
 //! A value that is not finite is refused (an error), never written as NaN.
@@ -30,8 +32,9 @@ use std::io::{self, Write};
 pub struct DesignAtStation {
     /// Design versine (field convention, like the reading), metres.
     pub design_versine: f64,
-    /// Measured minus design versine, metres.
-    pub residual: f64,
+    /// Measured minus design versine, metres; `None` where the reading is
+    /// missing (written as an empty cell).
+    pub residual: Option<f64>,
     /// Design centreline easting, metres.
     pub x: f64,
     /// Design centreline northing, metres.
@@ -98,18 +101,75 @@ pub fn write_stations(
     unit: LengthUnit,
     design: Option<&[DesignAtStation]>,
 ) -> io::Result<()> {
-    if let Some(d) = design
-        && d.len() != plan.stations.len()
-    {
-        return Err(io::Error::new(
-            io::ErrorKind::InvalidInput,
-            format!(
-                "stations.csv: the design has {} stations but the plan {}",
-                d.len(),
-                plan.stations.len()
-            ),
-        ));
+    write_stations_with(
+        w,
+        plan,
+        unit,
+        &StationExtras {
+            design,
+            ..StationExtras::default()
+        },
+    )
+}
+
+/// Where a placed survey is on the Earth at one station.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct GeoAtStation {
+    /// WGS 84 longitude of the centreline, degrees.
+    pub lon: f64,
+    /// WGS 84 latitude of the centreline, degrees.
+    pub lat: f64,
+    /// Bearing of the centreline from true north, degrees clockwise.
+    pub true_bearing: f64,
+}
+
+/// The slew at one station (lateral move onto the design).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SlewAtStation {
+    /// Slew, metres, positive to the left facing increasing chainage.
+    pub slew: f64,
+    /// Its standard deviation, metres.
+    pub sd: f64,
+}
+
+/// Optional column groups of `stations.csv`, one entry per station each.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct StationExtras<'a> {
+    /// The fitted design: `design_versine`, `residual`, `design_easting`, `design_northing`.
+    pub design: Option<&'a [DesignAtStation]>,
+    /// A placed survey: `bearing_deg` becomes the true bearing, and
+    /// `longitude_deg`, `latitude_deg` are added.
+    pub geo: Option<&'a [GeoAtStation]>,
+    /// Slews onto the design: `slew`, `slew_sd` (versine unit).
+    pub slews: Option<&'a [SlewAtStation]>,
+}
+
+/// [`write_stations`] with any of the optional column groups.
+///
+/// # Errors
+/// As [`write_stations`]; `InvalidInput` when a group has the wrong length.
+pub fn write_stations_with(
+    w: impl Write,
+    plan: &Plan,
+    unit: LengthUnit,
+    extras: &StationExtras,
+) -> io::Result<()> {
+    let n = plan.stations.len();
+    for (what, len) in [
+        ("design", extras.design.map(<[_]>::len)),
+        ("geographic", extras.geo.map(<[_]>::len)),
+        ("slew", extras.slews.map(<[_]>::len)),
+    ] {
+        if let Some(len) = len
+            && len != n
+        {
+            return Err(io::Error::new(
+                io::ErrorKind::InvalidInput,
+                format!("stations.csv: the {what} columns have {len} stations but the plan {n}"),
+            ));
+        }
     }
+    let design = extras.design;
     let mut w = io::BufWriter::new(w);
     let l = unit.suffix();
     let vu = unit.versine_unit();
@@ -128,6 +188,12 @@ pub fn write_stations(
             v = vu.suffix()
         ));
     }
+    if extras.slews.is_some() {
+        head.push_str(&format!(",slew_{v},slew_sd_{v}", v = vu.suffix()));
+    }
+    if extras.geo.is_some() {
+        head.push_str(",longitude_deg,latitude_deg");
+    }
     head.push('\n');
     w.write_all(head.as_bytes())?;
     let mut row = String::with_capacity(256);
@@ -142,7 +208,10 @@ pub fn write_stations(
         row.push(',');
         num(&mut row, s.curvature * 1e3, 6, "curvature", c)?;
         row.push(',');
-        let b = crate::geometry::heading_to_bearing(s.heading);
+        let b = match extras.geo {
+            Some(g) => g[i].true_bearing.rem_euclid(360.0),
+            None => crate::geometry::heading_to_bearing(s.heading),
+        };
         // 359.9999996 would print as 360.000000: keep bearings in [0, 360).
         let b = if format!("{b:.6}") == "360.000000" {
             0.0
@@ -182,14 +251,36 @@ pub fn write_stations(
         }
         if let Some(d) = design {
             let d = d[i];
-            for (val, col, dp) in [
-                (vu.from_m(d.design_versine), "design_versine", v_dp),
-                (vu.from_m(d.residual), "residual", v_dp),
-                (unit.from_m(d.x), "design_easting", 4),
-                (unit.from_m(d.y), "design_northing", 4),
+            row.push(',');
+            num(
+                &mut row,
+                vu.from_m(d.design_versine),
+                v_dp,
+                "design_versine",
+                c,
+            )?;
+            row.push(',');
+            if let Some(r) = d.residual {
+                num(&mut row, vu.from_m(r), v_dp, "residual", c)?;
+            }
+            for (val, col) in [
+                (unit.from_m(d.x), "design_easting"),
+                (unit.from_m(d.y), "design_northing"),
             ] {
                 row.push(',');
-                num(&mut row, val, dp, col, c)?;
+                num(&mut row, val, 4, col, c)?;
+            }
+        }
+        if let Some(sl) = extras.slews {
+            for (val, col) in [(sl[i].slew, "slew"), (sl[i].sd, "slew_sd")] {
+                row.push(',');
+                num(&mut row, vu.from_m(val), v_dp, col, c)?;
+            }
+        }
+        if let Some(g) = extras.geo {
+            for (val, col) in [(g[i].lon, "longitude"), (g[i].lat, "latitude")] {
+                row.push(',');
+                num(&mut row, val, 8, col, c)?;
             }
         }
         row.push('\n');

@@ -1458,8 +1458,7 @@ impl FitResult {
 
     /// The design columns of `stations.csv`, one per survey reading (gaps
     /// included, in survey order), for a design placed with
-    /// [`FitResult::place`]. A gap has no residual; it is written as 0 there
-    /// (use [`FitResult::station_design`] to tell gaps apart).
+    /// [`FitResult::place`]. A gap has no residual (an empty cell).
     pub fn design_at_stations(
         &self,
         placed: &Alignment,
@@ -1468,7 +1467,7 @@ impl FitResult {
             .into_iter()
             .map(|d| crate::export::stations::DesignAtStation {
                 design_versine: d.design_versine,
-                residual: d.residual.unwrap_or(0.0),
+                residual: d.residual,
                 x: d.x,
                 y: d.y,
             })

@@ -129,11 +129,7 @@ an element marked indeterminate could not be resolved by the data.</p>\n",
             .map(|(s, d)| {
                 (
                     ch(s.chainage),
-                    if s.versine.is_some() {
-                        vu.from_m(d.residual)
-                    } else {
-                        f64::NAN
-                    },
+                    d.residual.map_or(f64::NAN, |r| vu.from_m(r)),
                 )
             })
             .collect();
