@@ -401,7 +401,7 @@ pub fn slews(
             });
         }
         let j = (((f - first) / d).round() as usize).min(n - 1);
-        let lo = j.saturating_sub((m - 1) / 2).min(n - m);
+        let lo = j.saturating_sub(m / 2).min(n - m);
         for h in held.iter_mut().skip(lo).take(m) {
             *h = true;
         }
