@@ -73,14 +73,23 @@ pub struct Slews {
     /// Survey chainage of each reading, metres.
     pub chainage: Vec<f64>,
     /// Slew (sideways move to bring the track onto the adjusted design),
-    /// metres, positive to the left facing increasing chainage.
+    /// metres, positive to the left facing increasing chainage: `chord_slew`
+    /// averaged over a half chord (one reading of each interleaved chain)
+    /// when readings are closer than a half chord, `chord_slew` itself when
+    /// they are a half chord apart. 0 where the track is held.
     pub slew: Vec<f64>,
-    /// Standard deviation of each slew from the reading noise, metres
+    /// Standard deviation of each `slew` from the reading noise, metres
     /// (0 where the track is held).
     pub sd: Vec<f64>,
+    /// The slews that make every realised versine equal to the adjusted
+    /// design exactly (the chord relation solved reading by reading), metres,
+    /// positive left. With `m` readings per half chord the relation links
+    /// only readings `m` apart, so these carry `m` independent noise
+    /// patterns; `slew` averages them.
+    pub chord_slew: Vec<f64>,
     /// Whether the reading is held (survey end or fixed point).
     pub held: Vec<bool>,
-    /// Design versine actually realised after slewing (field convention, like
+    /// Design versine realised by `chord_slew` (field convention, like
     /// the readings), metres: the measured versine plus the change the slews
     /// make (track beyond the survey taken as unmoved). `None` in a gap.
     pub realised_versine: Vec<Option<f64>>,
@@ -354,7 +363,7 @@ pub fn slews(
     let tol = (0.01 * d).max(0.002);
     for w in rd.windows(2) {
         let found = w[1].chainage - w[0].chainage;
-        if !(d > 0.0) || (found - d).abs() > tol {
+        if d.is_nan() || d <= 0.0 || (found - d).abs() > tol {
             return Err(SlewError::Uneven {
                 file: file(),
                 line: w[1].line,
@@ -366,7 +375,7 @@ pub fn slews(
     let a = setup.half_chord();
     let mf = a / d;
     let m = mf.round();
-    if !(m >= 1.0) || (mf - m).abs() > 0.01 {
+    if m.is_nan() || m < 1.0 || (mf - m).abs() > 0.01 {
         return Err(SlewError::Spacing {
             file: file(),
             half_chord: a,
@@ -410,6 +419,7 @@ pub fn slews(
     let sign = |r: Rail| r.chord_side(1.0);
     let mut slew = vec![0.0; n];
     let mut var = vec![0.0; n];
+    let mut cov_next = vec![0.0; n];
     for r in 0..m {
         let idx: Vec<usize> = (r..n).step_by(m).collect();
         // Free columns of this chain.
@@ -426,8 +436,8 @@ pub fn slews(
         }
         // Rows: chain-interior readings with a versine.
         let mut qr = BandQr::new(nfree);
-        for k in 1..idx.len().saturating_sub(1) {
-            let i = idx[k];
+        let inner = idx.len().saturating_sub(2);
+        for (k, &i) in idx.iter().enumerate().skip(1).take(inner) {
             let Some(v) = rd[i].versine else { continue };
             let sg = sign(rd[i].rail);
             let mut row = [(usize::MAX, 0.0); 3];
@@ -456,15 +466,56 @@ pub fn slews(
                 });
             }
         };
-        let dv = qr.diag_inverse();
+        let band = qr.band_inverse();
         for (k, &i) in idx.iter().enumerate() {
             if col[k] != usize::MAX {
                 slew[i] = x[col[k]];
-                var[i] = dv[col[k]];
+                var[i] = band[col[k]][0];
+                if k + 1 < idx.len() && col[k + 1] != usize::MAX {
+                    cov_next[i] = band[col[k]][1];
+                }
             }
         }
     }
-    let sd: Vec<f64> = var.iter().map(|v| reading_sd * v.max(0.0).sqrt()).collect();
+    // Average over a half chord (one reading per chain): the chains carry
+    // independent noise, so this cuts it by about √m; the average of the
+    // chord-relation solution is the solution for half-chord-averaged data.
+    let (avg, avg_var) = if m == 1 {
+        (slew.clone(), var.clone())
+    } else {
+        let h = m / 2;
+        let even = m.is_multiple_of(2);
+        let wt = 1.0 / m as f64;
+        let mut a = vec![0.0; n];
+        let mut av = vec![0.0; n];
+        for i in 0..n {
+            if held[i] || i < h || i + h >= n {
+                continue;
+            }
+            let (lo, hi) = (i - h, i + h);
+            let (mut sum, mut vs) = (0.0, 0.0);
+            for j in lo..=hi {
+                let w = if even && (j == lo || j == hi) {
+                    0.5 * wt
+                } else {
+                    wt
+                };
+                sum += w * slew[j];
+                vs += w * w * var[j];
+            }
+            if even {
+                // The two end readings lie on the same chain, next to each other.
+                vs += 2.0 * (0.5 * wt) * (0.5 * wt) * cov_next[lo];
+            }
+            a[i] = sum;
+            av[i] = vs;
+        }
+        (a, av)
+    };
+    let sd: Vec<f64> = avg_var
+        .iter()
+        .map(|v| reading_sd * v.max(0.0).sqrt())
+        .collect();
     // Realised versines and design change, reading by reading (rails may differ).
     let mut realised = vec![None; n];
     let mut change = vec![0.0; n];
@@ -495,7 +546,8 @@ pub fn slews(
         .collect();
     let out = Slews {
         chainage: rd.iter().map(|r| r.chainage).collect(),
-        slew,
+        slew: avg,
+        chord_slew: slew,
         sd,
         held,
         realised_versine: realised,
@@ -749,9 +801,10 @@ impl BandQr {
         Ok(x)
     }
 
-    /// Diagonal of (RᵀR)⁻¹ by the banded selected-inverse recurrence
-    /// `Σ_ij = (δ_ij / r_ii − Σ_k r_ik Σ_kj) / r_ii` for j ≥ i, from the last row up.
-    fn diag_inverse(&self) -> Vec<f64> {
+    /// Band of (RᵀR)⁻¹ (`out[i][t]` = Σ_{i,i+t}) by the selected-inverse
+    /// recurrence `Σ_ij = (δ_ij / r_ii − Σ_k r_ik Σ_kj) / r_ii` for j ≥ i,
+    /// from the last row up.
+    fn band_inverse(&self) -> Vec<[f64; W]> {
         let n = self.r.len();
         // sig[i][t] = Σ_{i, i+t}
         let mut sig = vec![[0.0; W]; n];
@@ -769,7 +822,7 @@ impl BandQr {
                 sig[i][j - i] = s / rii;
             }
         }
-        sig.iter().map(|s| s[0]).collect()
+        sig
     }
 }
 
@@ -778,6 +831,7 @@ mod tests {
     use super::*;
 
     #[test]
+    #[allow(clippy::needless_range_loop)] // dense matrix algebra reads best indexed
     fn selected_inverse_matches_dense() {
         // Random-ish banded R; compare with the dense inverse of RᵀR.
         let n = 7;
@@ -836,14 +890,16 @@ mod tests {
                 }
             }
         }
-        let dg = qr.diag_inverse();
+        let band = qr.band_inverse();
         for i in 0..n {
-            assert!(
-                (dg[i] - inv[i][i]).abs() < 1e-9 * inv[i][i].abs().max(1.0),
-                "{i}: {} vs {}",
-                dg[i],
-                inv[i][i]
-            );
+            for t in 0..W.min(n - i) {
+                let want = inv[i][i + t];
+                assert!(
+                    (band[i][t] - want).abs() < 1e-9 * inv[i][i].abs().max(1.0),
+                    "{i},{t}: {} vs {want}",
+                    band[i][t]
+                );
+            }
         }
     }
 }
