@@ -7,7 +7,8 @@ use chordline::fit::{FitOptions, fit};
 use chordline::geometry::{Alignment, Element, Pose};
 use chordline::integrate::{IntegrateOptions, integrate};
 use chordline::realign::{
-    SlewError, SlewOptions, Slews, add_slew_columns, slews, summary_line, versine_change,
+    SlewError, SlewOptions, Slews, add_slew_columns, slews, slews_for_fit, summary_line,
+    versine_change,
 };
 use chordline::simulate::{SimSetup, Simulated, simulate};
 use chordline::survey::{Rail, Reading, Setup, Survey};
@@ -296,14 +297,8 @@ fn fitted_design_round_trip_with_irregular_track() {
     let simd = sim(5.0, 0.3e-3, 3e-3, 7);
     let setup = Setup::new(20.0, Rail::Left);
     let (f, _) = fit(&simd.survey, &setup, &FitOptions::default()).expect("fit");
-    let (s, _) = slews(
-        &simd.survey,
-        &setup,
-        &f.design_versine,
-        f.stats.reading_sd,
-        &SlewOptions::default(),
-    )
-    .expect("slews");
+    let (s, _) = slews_for_fit(&simd.survey, &setup, &f, &SlewOptions::default()).expect("slews");
+    assert_eq!(s.reading_sd, f.stats.reading_sd);
     check_consistent(&simd.survey, &f.design_versine, &s);
     // The fitted design has the surveyed total turn, so the closure needs
     // only a small change of the design versines.

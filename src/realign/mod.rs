@@ -20,12 +20,26 @@
 //!
 //! where `v` is the measured and `D` the design versine and `δ` the smallest
 //! change to the design needed so that the slews can be exactly zero where the
-//! track is held: two readings' worth of each interleaved chain at both ends
-//! of the survey (the track joins the undisturbed track beyond in position and
-//! direction) and one reading per chain at each fixed point. The slews `s`
-//! minimise `Σ δ²`, a banded linear least-squares problem solved per chain by
-//! Givens rotations; `δ` is its residual. For readings every half chord and
-//! held ends this is exactly Hallade's closure `Σe = 0`, `Σ i·e = 0`.
+//! track is held: the first and last chord length of the survey (two readings
+//! of each interleaved chain, so the track joins the undisturbed track beyond
+//! in position and direction) and the `m` readings nearest each fixed point
+//! (one per chain, half a chord in all). The slews minimise `Σ δ²`, a banded
+//! linear least-squares problem solved per chain by Givens rotations; `δ` is
+//! its residual. For readings every half chord and held ends this is exactly
+//! Hallade's closure `Σe = 0`, `Σ i·e = 0`; each fixed point adds one
+//! condition per chain.
+//!
+//! The chord relation links only readings `m` apart, so with `m > 1` the
+//! readings form `m` interleaved chains with independent noise. The reported
+//! [`Slews::slew`] averages the chains over a half chord, which is the exact
+//! solution for half-chord-averaged versine differences and cuts the noise by
+//! about `√m`; [`Slews::chord_slew`] keeps the unaveraged solution, which
+//! reproduces the adjusted design versines exactly.
+//!
+//! Standard deviations come from the reading noise alone, with the design
+//! taken as exact. They grow like `L^1.5` with the distance `L` between held
+//! points: a few hundred metres of versines fix slews only to centimetres.
+//! Give fixed points (or compute over shorter sections) where it matters.
 //!
 //! # Sign convention
 //! A slew is **positive to the left** facing increasing chainage. In a curve,
@@ -47,9 +61,10 @@ use crate::units::{LengthUnit, VersineUnit};
 #[derive(Debug, Clone, PartialEq)]
 pub struct SlewOptions {
     /// Survey chainages (metres) where the track must not move: bridges,
-    /// platforms, switches and crossings, level crossings. Each holds one
-    /// reading per interleaved chain, i.e. about a quarter chord either side.
-    /// The two ends of the survey are always held.
+    /// platforms, switches and crossings, level crossings. Each holds the
+    /// nearest reading of every interleaved chain (the `m` readings nearest,
+    /// half a chord in all; the nearest reading when readings are a half
+    /// chord apart). The first and last chord length are always held.
     pub fixed: Vec<f64>,
     /// Largest acceptable slew (metres); larger ones are warned about, by
     /// chainage. `None`: no limit checked.
@@ -630,6 +645,23 @@ fn side_word(s: &Slews, i: usize) -> &'static str {
         (None, true) => "left",
         (None, false) => "right",
     }
+}
+
+/// [`slews`] against an element fit: its design versines, and the reading
+/// standard deviation stated in `setup` or else the fit's estimate (which
+/// counts short-wave track irregularity as noise, so the sd is then on the
+/// cautious side).
+///
+/// # Errors
+/// As [`slews`].
+pub fn slews_for_fit(
+    survey: &Survey,
+    setup: &Setup,
+    fit: &crate::fit::FitResult,
+    opts: &SlewOptions,
+) -> Result<(Slews, Vec<Diagnostic>), SlewError> {
+    let sd = setup.reading_sd.unwrap_or(fit.stats.reading_sd);
+    slews(survey, setup, &fit.design_versine, sd, opts)
 }
 
 /// One terminal line: the largest slew and where, the limit if exceeded,
