@@ -410,3 +410,83 @@ fn bad_inputs_are_refused_with_context() {
         Err(SlewError::TooShort { .. })
     ));
 }
+
+#[test]
+fn imperial_summary_and_columns_use_inches_and_feet() {
+    let survey = survey_from(&V_EX, 10.0, Rail::Right);
+    let design: Vec<f64> = V_PROP.iter().map(|v| v * 1e-3).collect();
+    let opts = SlewOptions {
+        fixed: vec![],
+        max_slew: Some(0.003),
+    };
+    let (s, _) = slews(
+        &survey,
+        &Setup::new(20.0, Rail::Right),
+        &design,
+        0.5e-3,
+        &opts,
+    )
+    .expect("slews");
+    let line = summary_line(&s, LengthUnit::Foot);
+    // 4 mm = 0.157 in at 150 m = 492.1 ft; one reading beyond 3 mm = 0.118 in.
+    assert!(line.contains("largest 0.157 in"), "{line}");
+    assert!(line.contains("492.1 ft"), "{line}");
+    assert!(
+        line.contains("1 readings beyond the 0.118 in limit"),
+        "{line}"
+    );
+    let mut csv = String::from("chainage_ft\n");
+    for c in &s.chainage {
+        csv.push_str(&format!("{:.3}\n", c / 0.3048));
+    }
+    let out = add_slew_columns(&csv, &s, LengthUnit::Foot).expect("columns");
+    assert!(out.starts_with("chainage_ft,slew_in,slew_sd_in\n"), "{out}");
+    // Reading 5 (150 m): METHODS.md C5.1 s_5 = −4 mm towards the centre,
+    // i.e. to the right on this left-hand curve: −0.157 in.
+    let row = out.lines().nth(6).expect("row");
+    assert!(row.starts_with("492.126,-0.157,"), "{row}");
+}
+
+#[test]
+fn random_surveys_never_panic() {
+    // Small deterministic generator: odd spacings, gaps, fixed points anywhere.
+    let mut state = 0x2545_f491_4f6c_dd1d_u64;
+    let mut next = move || {
+        state ^= state << 13;
+        state ^= state >> 7;
+        state ^= state << 17;
+        (state >> 11) as f64 / (1u64 << 53) as f64
+    };
+    let mut solved = 0;
+    for _ in 0..300 {
+        let n = 1 + (next() * 60.0) as usize;
+        let spacing = [2.5, 5.0, 10.0, 3.0][(next() * 4.0) as usize % 4];
+        let mut v: Vec<f64> = (0..n).map(|_| (next() - 0.5) * 40.0).collect();
+        if next() < 0.3 {
+            v.reverse();
+        }
+        let mut survey = survey_from(&v, spacing, Rail::Left);
+        for r in &mut survey.readings {
+            if next() < 0.15 {
+                r.versine = None;
+            }
+            if next() < 0.02 {
+                r.chainage += next();
+            }
+        }
+        let design: Vec<f64> = (0..n).map(|_| (next() - 0.5) * 0.04).collect();
+        let opts = SlewOptions {
+            fixed: (0..(next() * 3.0) as usize)
+                .map(|_| 100.0 + next() * spacing * n as f64 * 1.2 - 5.0)
+                .collect(),
+            max_slew: Some(0.01),
+        };
+        if let Ok((s, _)) = slews(&survey, &Setup::new(20.0, Rail::Left), &design, 1e-3, &opts) {
+            assert!(s.slew.iter().chain(&s.sd).all(|x| x.is_finite()));
+            assert!(!summary_line(&s, LengthUnit::Metre).is_empty());
+            solved += 1;
+        }
+    }
+    // Not everything is refused: the generator also makes usable surveys.
+    assert!(solved > 30, "{solved} solved");
+}
