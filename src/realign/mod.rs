@@ -154,6 +154,17 @@ impl Slews {
         self.design_change.iter().fold(0.0, |m, d| m.max(d.abs()))
     }
 
+    /// The slew columns of `stations.csv` (`slew_mm`, `slew_sd_mm`; imperial
+    /// `slew_in`, `slew_sd_in`), one per reading, for
+    /// [`crate::export::stations::StationExtras::slews`].
+    pub fn at_stations(&self) -> Vec<crate::export::stations::SlewAtStation> {
+        self.slew
+            .iter()
+            .zip(&self.sd)
+            .map(|(&slew, &sd)| crate::export::stations::SlewAtStation { slew, sd })
+            .collect()
+    }
+
     /// Indices of the readings whose slew exceeds the limit.
     pub fn exceeding(&self) -> Vec<usize> {
         match self.max_slew {
@@ -728,51 +739,6 @@ pub fn summary_line(s: &Slews, unit: LengthUnit) -> String {
         " (indicative only: check clearances, fixed points and cant before moving track)",
     );
     line
-}
-
-/// Append the columns `slew_mm` and `slew_sd_mm` (imperial: `slew_in`,
-/// `slew_sd_in`) to the text of a `stations.csv` written for the same survey
-/// (one data row per reading, in order). Slews are positive to the left
-/// facing increasing chainage; decimals as the versine columns (2 for mm, 3
-/// for inches).
-///
-/// # Errors
-/// `InvalidInput` when the number of data rows differs from the slews'.
-pub fn add_slew_columns(
-    stations_csv: &str,
-    s: &Slews,
-    unit: LengthUnit,
-) -> Result<String, std::io::Error> {
-    let vu = unit.versine_unit();
-    let dp = if vu == VersineUnit::Inch { 3 } else { 2 };
-    let suf = vu.suffix();
-    let mut lines = stations_csv.lines();
-    let rows = stations_csv.lines().count().saturating_sub(1);
-    if rows != s.slew.len() {
-        return Err(std::io::Error::new(
-            std::io::ErrorKind::InvalidInput,
-            format!(
-                "stations.csv has {rows} rows but there are {} slews",
-                s.slew.len()
-            ),
-        ));
-    }
-    let mut out = String::with_capacity(stations_csv.len() + rows * 16);
-    if let Some(h) = lines.next() {
-        out.push_str(&format!("{h},slew_{suf},slew_sd_{suf}\n"));
-    }
-    let fmt = |v: f64| {
-        let t = format!("{:.dp$}", vu.from_m(v));
-        if t.starts_with('-') && t[1..].bytes().all(|b| b == b'0' || b == b'.') {
-            t[1..].to_string()
-        } else {
-            t
-        }
-    };
-    for (row, (v, sd)) in lines.zip(s.slew.iter().zip(&s.sd)) {
-        out.push_str(&format!("{row},{},{}\n", fmt(*v), fmt(*sd)));
-    }
-    Ok(out)
 }
 
 /// Sequential banded Givens QR for rows with at most `W` nonzeros starting at
