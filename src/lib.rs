@@ -10,6 +10,7 @@
 //! 3. [`fit`]: the element list (straights, clothoid transitions, arcs) by least squares.
 //! 4. [`georef`]: putting the plan on the Earth; control points.
 //! 5. [`export`]: writing CSV, GeoJSON and LandXML.
+//! 6. [`realign`]: slews that would bring the track onto the fitted design (indicative).
 //!
 //! [`pipeline`] runs the stages in order (and [`report`] summarises a run).
 //!
@@ -27,6 +28,7 @@ pub mod geometry;
 pub mod georef;
 pub mod integrate;
 pub mod pipeline;
+pub mod realign;
 pub mod report;
 pub mod simulate;
 pub mod survey;
