@@ -42,6 +42,9 @@ pub struct Options {
     /// the survey file's modification time, so that the same input gives the
     /// same bytes.
     pub created: Option<std::time::SystemTime>,
+    /// Slews onto the fitted design (`None`: not computed). The fixed
+    /// chainages are in the survey's chainage unit (as written in the file).
+    pub slew: Option<crate::realign::SlewOptions>,
 }
 
 impl Options {
@@ -54,6 +57,7 @@ impl Options {
             fit: Some(FitOptions::default()),
             georef: GeorefArgs::default(),
             created: None,
+            slew: None,
         }
     }
 }
@@ -104,6 +108,8 @@ pub struct Results {
     pub georef: Option<Georef>,
     /// The verdict on each control point (empty without control points).
     pub control_checks: Vec<ControlCheck>,
+    /// Slews onto the fitted design, when asked for and the fit succeeded.
+    pub slews: Option<crate::realign::Slews>,
     /// Warnings and notes of every stage, in stage order.
     pub diagnostics: Vec<Diagnostic>,
 }
@@ -189,7 +195,24 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
             ),
         }
     }
+    let mut slews = None;
+    if let (Some(sopts), Some(f)) = (&opts.slew, &fitted) {
+        let mut sopts = sopts.clone();
+        let to_m = survey.chainage_unit.metres();
+        sopts.fixed.iter_mut().for_each(|c| *c *= to_m);
+        match crate::realign::slews_for_fit(&survey, &setup, f, &sopts) {
+            Ok((s, mut d)) => {
+                diagnostics.append(&mut d);
+                slews = Some(s);
+            }
+            Err(e) => diagnostics.push(
+                Diagnostic::warning(format!("no slews: {e}"))
+                    .hint("stations.csv is written without the slew columns"),
+            ),
+        }
+    }
     Ok(Results {
+        slews,
         survey,
         setup,
         plan,
@@ -256,10 +279,11 @@ pub fn run(
             })
             .collect()
     });
+    let slew_cols = results.slews.as_ref().map(|s| s.at_stations());
     let extras = StationExtras {
         design: results.design.as_ref().map(|(_, d)| d.as_slice()),
         geo: geo.as_deref(),
-        slews: None,
+        slews: slew_cols.as_deref(),
     };
     dir.write_file("stations.csv", |w| {
         write_stations_with(w, &results.plan, unit, &extras)

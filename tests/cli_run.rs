@@ -244,3 +244,38 @@ fn batch_writes_one_folder_per_survey_and_reports_failures() {
         std::fs::read(out.join("good/elements.csv")).unwrap()
     );
 }
+
+#[test]
+fn slews_add_columns_and_keep_the_contract() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("out");
+    let o = chordline(&[
+        "run",
+        demo_survey().to_str().unwrap(),
+        "--chord",
+        "20m",
+        "--rail",
+        "left",
+        "--fixed",
+        "12500",
+        "--max-slew",
+        "50mm",
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("indicative"),
+        "slews must carry their caution"
+    );
+    let stations = std::fs::read_to_string(out.join("stations.csv")).unwrap();
+    let head = stations.lines().next().unwrap();
+    assert!(head.ends_with(",slew_mm,slew_sd_mm"), "{head}");
+    // Held at the fixed point: the slew there is zero.
+    let row = stations
+        .lines()
+        .find(|l| l.starts_with("12500.000,"))
+        .unwrap();
+    let slew: f64 = row.rsplit(',').nth(1).unwrap().parse().unwrap();
+    assert_eq!(slew, 0.0, "{row}");
+}

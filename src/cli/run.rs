@@ -69,6 +69,16 @@ pub struct RunArgs {
     /// Do not print warnings (the summary still counts them).
     #[arg(long, short)]
     pub quiet: bool,
+    /// Compute slews onto the fitted design (indicative only; see the README).
+    #[arg(long)]
+    pub slews: bool,
+    /// Survey chainages where the track must not move, in the survey's
+    /// chainage unit, comma separated (implies --slews).
+    #[arg(long, value_delimiter = ',', value_name = "CH,CH,..")]
+    pub fixed: Vec<f64>,
+    /// Warn where a slew exceeds this, e.g. 50mm (implies --slews).
+    #[arg(long, value_parser = small_length)]
+    pub max_slew: Option<f64>,
 }
 
 impl RunArgs {
@@ -98,6 +108,12 @@ impl RunArgs {
                 height: self.height,
             },
             created: None,
+            slew: (self.slews || !self.fixed.is_empty() || self.max_slew.is_some()).then(|| {
+                chordline::realign::SlewOptions {
+                    fixed: self.fixed.clone(),
+                    max_slew: self.max_slew,
+                }
+            }),
             fit: (!self.no_fit).then(|| chordline::fit::FitOptions {
                 reading_sd: self.reading_sd,
                 ..Default::default()
@@ -133,6 +149,12 @@ pub fn print_outcome(o: &Outcome, quiet: bool) {
         }
     }
     eprint!("{}", chordline::report::summary(&o.results));
+    if let Some(s) = &o.results.slews {
+        eprintln!(
+            "{}",
+            chordline::realign::summary_line(s, o.results.survey.chainage_unit)
+        );
+    }
     eprintln!("wrote    {} in {}", o.files.join(", "), o.folder.display());
 }
 
