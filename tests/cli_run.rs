@@ -15,6 +15,23 @@ fn demo_survey() -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/eastvale-survey.csv")
 }
 
+/// `chordline run` on the demo survey (20 m chord, left rail) into `out`, plus `extra` options.
+fn run_demo_to(out: &Path, extra: &[&str]) -> Output {
+    let survey = demo_survey();
+    let mut args = vec![
+        "run",
+        survey.to_str().unwrap(),
+        "--chord",
+        "20m",
+        "--rail",
+        "left",
+        "--out",
+        out.to_str().unwrap(),
+    ];
+    args.extend_from_slice(extra);
+    chordline(&args)
+}
+
 fn stderr(o: &Output) -> String {
     String::from_utf8_lossy(&o.stderr).into_owned()
 }
@@ -23,16 +40,7 @@ fn stderr(o: &Output) -> String {
 fn run_on_the_demo_follows_the_output_contract() {
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("out");
-    let o = chordline(&[
-        "run",
-        demo_survey().to_str().unwrap(),
-        "--chord",
-        "20m",
-        "--rail",
-        "left",
-        "--out",
-        out.to_str().unwrap(),
-    ]);
+    let o = run_demo_to(&out, &[]);
     assert!(o.status.success(), "{}", stderr(&o));
     let stations = std::fs::read_to_string(out.join("stations.csv")).unwrap();
     assert!(stations.starts_with(
@@ -179,16 +187,7 @@ fn demo_says_where_it_wrote() {
 fn the_report_is_one_self_contained_html_file() {
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("out");
-    let o = chordline(&[
-        "run",
-        demo_survey().to_str().unwrap(),
-        "--chord",
-        "20m",
-        "--rail",
-        "left",
-        "--out",
-        out.to_str().unwrap(),
-    ]);
+    let o = run_demo_to(&out, &[]);
     assert!(o.status.success(), "{}", stderr(&o));
     let html = std::fs::read_to_string(out.join("report.html")).unwrap();
     assert!(html.starts_with("<!DOCTYPE html>"));
@@ -249,20 +248,7 @@ fn batch_writes_one_folder_per_survey_and_reports_failures() {
 fn slews_add_columns_and_keep_the_contract() {
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("out");
-    let o = chordline(&[
-        "run",
-        demo_survey().to_str().unwrap(),
-        "--chord",
-        "20m",
-        "--rail",
-        "left",
-        "--fixed",
-        "12500",
-        "--max-slew",
-        "50mm",
-        "--out",
-        out.to_str().unwrap(),
-    ]);
+    let o = run_demo_to(&out, &["--fixed", "12500", "--max-slew", "50mm"]);
     assert!(o.status.success(), "{}", stderr(&o));
     assert!(
         stderr(&o).contains("indicative"),
