@@ -63,6 +63,9 @@ pub struct RunArgs {
     /// Replace the output folder if it exists.
     #[arg(long)]
     pub force: bool,
+    /// Threads for the element fit of long surveys (default: one per processor; results do not depend on it).
+    #[arg(long)]
+    pub threads: Option<usize>,
     /// Skip the element fit (stations.csv only).
     #[arg(long)]
     pub no_fit: bool,
@@ -116,6 +119,7 @@ impl RunArgs {
             }),
             fit: (!self.no_fit).then(|| chordline::fit::FitOptions {
                 reading_sd: self.reading_sd,
+                threads: self.threads,
                 ..Default::default()
             }),
         })

@@ -67,6 +67,9 @@ pub struct FitOptions {
     pub bin: Option<f64>,
     /// Iteration cap of each Levenberg–Marquardt fit.
     pub max_iterations: usize,
+    /// Threads for fitting independent curves of long surveys (`None`: one
+    /// per processor). The result does not depend on it.
+    pub threads: Option<usize>,
 }
 
 impl Default for FitOptions {
@@ -81,6 +84,7 @@ impl Default for FitOptions {
             remove_bias: false,
             bin: None,
             max_iterations: 60,
+            threads: None,
         }
     }
 }
@@ -753,9 +757,10 @@ pub fn fit(
             converged: out.converged,
         }
     };
-    let threads = std::thread::available_parallelism()
-        .map(|x| x.get())
-        .unwrap_or(1)
+    let threads = opts
+        .threads
+        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |x| x.get()))
+        .max(1)
         .min(groups.len());
     let mut fits: Vec<GroupFit> = if threads <= 1 || n < 20_000 {
         groups.iter().map(fit_group).collect()
