@@ -287,4 +287,7 @@ fn slews_add_columns_and_keep_the_contract() {
         .unwrap();
     let slew: f64 = row.rsplit(',').nth(1).unwrap().parse().unwrap();
     assert_eq!(slew, 0.0, "{row}");
+    let html = std::fs::read_to_string(out.join("report.html")).unwrap();
+    assert!(html.contains("Slews onto the design (indicative)"));
+    assert_eq!(html.matches("<svg").count(), 6, "five diagrams plus slews");
 }

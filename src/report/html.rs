@@ -192,6 +192,49 @@ an element marked indeterminate could not be resolved by the data.</p>\n",
         }
         .to_svg()
     );
+    if let Some(sl) = &r.slews {
+        let _ = write!(
+            h,
+            "<h2>Slews onto the design (indicative)</h2>\n<p class=\"caution\">Slews are for planning only: check clearances, structure gauges, fixed points and cant against local standards before any track is moved. The band is ± 2 sd.</p>\n{}\n",
+            chart(
+                "Slews",
+                &format!("slew ({}), + = move left", vu.suffix()),
+                vec![
+                    Series {
+                        name: "slew",
+                        points: sl
+                            .chainage
+                            .iter()
+                            .zip(&sl.slew)
+                            .map(|(&c, &v)| (ch(c), vu.from_m(v)))
+                            .collect(),
+                        colour: "#1f5fa8",
+                        dashed: false
+                    },
+                    Series {
+                        name: "± 2 sd",
+                        points: sl
+                            .chainage
+                            .iter()
+                            .zip(&sl.slew)
+                            .zip(&sl.sd)
+                            .map(|((&c, &v), &d)| (ch(c), vu.from_m(v + 2.0 * d)))
+                            .chain(std::iter::once((f64::NAN, 0.0)))
+                            .chain(
+                                sl.chainage
+                                    .iter()
+                                    .zip(&sl.slew)
+                                    .zip(&sl.sd)
+                                    .map(|((&c, &v), &d)| (ch(c), vu.from_m(v - 2.0 * d)))
+                            )
+                            .collect(),
+                        colour: "#888",
+                        dashed: true
+                    },
+                ]
+            )
+        );
+    }
     let _ = write!(
         h,
         "<h2>Uncertainty of position</h2>\n{}\n",

@@ -246,6 +246,14 @@ impl Chart<'_> {
                 }
             );
         }
+        // A white panel under the legend so that it stays readable over data.
+        let _ = write!(
+            o,
+            r##"<rect x="{:.1}" y="{:.1}" width="200" height="{:.1}" fill="white" fill-opacity="0.85"/>"##,
+            ML + pw - 206.0,
+            MT + 3.0,
+            16.0 * self.series.len() as f64 + 6.0
+        );
         for (i, s) in self.series.iter().enumerate() {
             let lx = ML + pw - 200.0;
             let ly = MT + 14.0 + 16.0 * i as f64;
