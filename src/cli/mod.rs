@@ -11,9 +11,11 @@ use clap::{Parser, Subcommand};
 use std::process::ExitCode;
 
 /// Turn railway versine surveys into the as-built horizontal alignment.
+/// The exit codes, as `--help` states them.
+const EXIT_CODES: &str = "Exit status: 0 success; 1 input or usage error (the message names the file, line and column and says what to fix); 2 internal error (please report it).";
+
 #[derive(Debug, Parser)]
-#[command(name = "chordline", version, about, long_about = None,
-    after_help = "Exit status: 0 success; 1 input or usage error (the message names the file, line and column and says what to fix); 2 internal error (please report it).")]
+#[command(name = "chordline", version, about, long_about = None, after_help = EXIT_CODES)]
 pub struct Cli {
     #[command(subcommand)]
     command: Command,
@@ -22,12 +24,16 @@ pub struct Cli {
 #[derive(Debug, Subcommand)]
 enum Command {
     /// Reconstruct the alignment from a versine survey file and write an output folder.
+    #[command(after_help = EXIT_CODES)]
     Run(run::RunCommand),
     /// Run many surveys with the same set-up in parallel, one output folder each.
+    #[command(after_help = EXIT_CODES)]
     Batch(batch::BatchArgs),
     /// Run the whole job on the bundled demo survey and say where it wrote.
+    #[command(after_help = EXIT_CODES)]
     Demo(demo::DemoArgs),
     /// Write the survey a chord would measure on a known design (exact geometry, optional noise).
+    #[command(after_help = EXIT_CODES)]
     Simulate(simulate::SimulateArgs),
 }
 
