@@ -363,11 +363,18 @@ fn check_target(target: &Path, force: bool, inputs: &[PathBuf]) -> Result<(), Ou
                 path: target.to_path_buf(),
             })
         }
-        Ok(_) if !force => Err(OutputError::Exists {
+        // An existing but empty folder holds nothing to lose (scripts often
+        // make the folder first): it is used without --force.
+        Ok(_) if !force && !is_empty_dir(target) => Err(OutputError::Exists {
             path: target.to_path_buf(),
         }),
         _ => Ok(()),
     }
+}
+
+/// Whether `p` is a folder with nothing in it.
+fn is_empty_dir(p: &Path) -> bool {
+    fs::read_dir(p).is_ok_and(|mut d| d.next().is_none())
 }
 
 #[cfg(test)]
@@ -402,6 +409,26 @@ mod tests {
             .filter(|n| n.contains(".chordline-"))
             .collect();
         assert!(names.is_empty(), "left behind: {names:?}");
+    }
+
+    #[test]
+    fn an_empty_existing_folder_is_used_without_force() {
+        let tmp = tempfile::tempdir().unwrap();
+        let target = tmp.path().join("out");
+        fs::create_dir(&target).unwrap();
+        let mut out = OutputDir::create(&target, false).unwrap();
+        write(&mut out, "stations.csv", "x\n");
+        out.commit().unwrap();
+        assert_eq!(
+            listing(&target),
+            [("stations.csv".to_string(), b"x\n".to_vec())]
+        );
+        // Now it holds results: refused without force.
+        assert!(matches!(
+            OutputDir::create(&target, false),
+            Err(OutputError::Exists { .. })
+        ));
+        no_leftovers(tmp.path());
     }
 
     #[test]
