@@ -50,9 +50,16 @@ impl From<MarkingArg> for Marking {
 pub struct SimulateArgs {
     /// Design file (JSON): the elements in order and, optionally, the survey set-up.
     pub design: PathBuf,
+    /// Where to write the survey CSV (or give it with --out).
+    #[arg(value_name = "OUT")]
+    pub out_positional: Option<PathBuf>,
     /// Where to write the survey CSV.
-    #[arg(long)]
-    pub out: PathBuf,
+    #[arg(
+        long,
+        conflicts_with = "out_positional",
+        required_unless_present = "out_positional"
+    )]
+    pub out: Option<PathBuf>,
     /// Chord length with unit, e.g. 20m or 62ft.
     #[arg(long)]
     pub chord: Option<Length>,
@@ -90,6 +97,11 @@ pub struct SimulateArgs {
 
 /// Run `chordline simulate`.
 pub fn run(a: SimulateArgs) -> Result<(), Failure> {
+    let Some(out) = a.out.clone().or(a.out_positional.clone()) else {
+        return Err(Failure::Input(anyhow::anyhow!(
+            "say where to write the survey: chordline simulate DESIGN.json --out SURVEY.csv"
+        )));
+    };
     let name = a.design.display().to_string();
     let text = std::fs::read_to_string(&a.design)
         .with_context(|| format!("could not read the design file {name}"))?;
@@ -144,7 +156,7 @@ pub fn run(a: SimulateArgs) -> Result<(), Failure> {
         setup.irregularity_rms * 1e3,
         setup.seed
     );
-    write_file_atomic(&a.out, a.force, |w| {
+    write_file_atomic(&out, a.force, |w| {
         write_survey_csv(w, &sim.survey, setup.resolution, &comment)
     })?;
     if let Some(t) = &a.truth {
@@ -175,8 +187,12 @@ pub fn run(a: SimulateArgs) -> Result<(), Failure> {
     }
     eprintln!(
         "wrote {} readings to {}",
-        sim.survey.readings.len(),
-        a.out.display()
+        sim.survey
+            .readings
+            .iter()
+            .filter(|r| r.versine.is_some())
+            .count(),
+        out.display()
     );
     Ok(())
 }
