@@ -21,6 +21,7 @@
 //!
 //! The library does no terminal I/O; the `chordline` binary is a thin layer over it.
 
+pub mod advice;
 pub mod diag;
 pub mod export;
 pub mod fit;

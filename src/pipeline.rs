@@ -45,6 +45,9 @@ pub struct Options {
     /// Slews onto the fitted design (`None`: not computed). The fixed
     /// chainages are in the survey's chainage unit (as written in the file).
     pub slew: Option<crate::realign::SlewOptions>,
+    /// Cant and speed advice on the fitted curves (`None`: none; advisory
+    /// only, see [`crate::advice`]). Written as `advice.csv`.
+    pub advice: Option<crate::advice::AdviceOptions>,
 }
 
 impl Options {
@@ -58,6 +61,7 @@ impl Options {
             georef: GeorefArgs::default(),
             created: None,
             slew: None,
+            advice: None,
         }
     }
 }
@@ -110,6 +114,8 @@ pub struct Results {
     pub control_checks: Vec<ControlCheck>,
     /// Slews onto the fitted design, when asked for and the fit succeeded.
     pub slews: Option<crate::realign::Slews>,
+    /// Cant and speed advice, when asked for and the fit succeeded (advisory only).
+    pub advice: Option<crate::advice::Advice>,
     /// Warnings and notes of every stage, in stage order.
     pub diagnostics: Vec<Diagnostic>,
 }
@@ -211,7 +217,19 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
             ),
         }
     }
+    let advice = match (&opts.advice, &fitted) {
+        (Some(a), Some(f)) => Some(crate::advice::advise(f, a)),
+        (Some(_), None) => {
+            diagnostics.push(
+                Diagnostic::warning("no cant and speed advice: there is no element fit")
+                    .hint("advice.csv is written only with fitted elements"),
+            );
+            None
+        }
+        _ => None,
+    };
     Ok(Results {
+        advice,
         slews,
         survey,
         setup,
@@ -290,6 +308,11 @@ pub fn run(
     })?;
     if let Some(f) = &results.fit {
         dir.write_file("elements.csv", |w| write_elements_csv(f, unit, w))?;
+    }
+    if let Some(a) = &results.advice {
+        dir.write_file("advice.csv", |w| {
+            crate::advice::write_advice_csv(w, a, unit)
+        })?;
     }
     dir.write_file("report.html", |w| {
         w.write_all(crate::report::html_report(&results).as_bytes())

@@ -3,6 +3,7 @@
 use super::Failure;
 use super::simulate::{MarkingArg, RailArg};
 use super::util::small_length;
+use chordline::advice::{AdviceOptions, Limit, PROFILE_NAMES, Profile};
 use chordline::diag::Diagnostic;
 use chordline::georef::{GeorefArgs, parse_bearing};
 use chordline::pipeline::{self, Options, Outcome};
@@ -82,9 +83,92 @@ pub struct RunArgs {
     /// Warn where a slew exceeds this, e.g. 50mm (implies --slews).
     #[arg(long, value_parser = small_length)]
     pub max_slew: Option<f64>,
+    /// Line speed for cant and speed advice, e.g. 120km/h or 75mph (writes advice.csv; advisory only).
+    #[arg(long, value_parser = speed_text, help_heading = "Cant and speed advice (advisory only)")]
+    pub speed: Option<String>,
+    /// Applied cant in the arcs, e.g. 100mm or 4in (writes advice.csv; advisory only).
+    #[arg(long, value_parser = small_length, help_heading = "Cant and speed advice (advisory only)")]
+    pub applied_cant: Option<f64>,
+    /// Limit profile: uk or us-fra (default: us-fra when --speed is in mph, else uk).
+    #[arg(long, value_name = "PROFILE", help_heading = "Cant and speed advice (advisory only)")]
+    pub limits: Option<String>,
+    /// Largest applied cant, e.g. 150mm (replaces the profile's).
+    #[arg(long, value_parser = small_length, help_heading = "Cant and speed advice (advisory only)")]
+    pub cant_limit: Option<f64>,
+    /// Largest cant deficiency, e.g. 110mm (replaces the profile's).
+    #[arg(long, value_parser = small_length, help_heading = "Cant and speed advice (advisory only)")]
+    pub deficiency_limit: Option<f64>,
+    /// Largest rate of change of cant in a transition, e.g. 35mm/s (replaces the profile's).
+    #[arg(long, value_parser = chordline::advice::parse_rate, help_heading = "Cant and speed advice (advisory only)")]
+    pub cant_rate: Option<f64>,
+    /// Largest rate of change of deficiency in a transition, e.g. 35mm/s (replaces the profile's).
+    #[arg(long, value_parser = chordline::advice::parse_rate, help_heading = "Cant and speed advice (advisory only)")]
+    pub deficiency_rate: Option<f64>,
+    /// Largest cant gradient in a transition, e.g. 1:400 or 2.5mm/m (replaces the profile's).
+    #[arg(long, value_parser = chordline::advice::parse_gradient, help_heading = "Cant and speed advice (advisory only)")]
+    pub cant_gradient: Option<f64>,
 }
 
 impl RunArgs {
+    /// The cant and speed advice asked for: `None` unless `--speed` or
+    /// `--applied-cant` is given.
+    pub fn advice(&self) -> Result<Option<AdviceOptions>, Failure> {
+        let speed = match &self.speed {
+            Some(t) => Some(
+                chordline::advice::parse_speed(t)
+                    .map_err(|e| Failure::Input(anyhow::anyhow!("--speed: {e}")))?,
+            ),
+            None => None,
+        };
+        if self.speed.is_none() && self.applied_cant.is_none() {
+            let stray = self.limits.is_some()
+                || self.cant_limit.is_some()
+                || self.deficiency_limit.is_some()
+                || self.cant_rate.is_some()
+                || self.deficiency_rate.is_some()
+                || self.cant_gradient.is_some();
+            if stray {
+                return Err(Failure::Input(anyhow::anyhow!(
+                    "the cant and speed limits need --speed or --applied-cant (e.g. --speed 120km/h)"
+                )));
+            }
+            return Ok(None);
+        }
+        let name = match &self.limits {
+            Some(n) => n.trim().to_ascii_lowercase(),
+            None if self.speed.as_deref().is_some_and(|s| s.to_ascii_lowercase().contains("mph")) => {
+                "us-fra".into()
+            }
+            None => "uk".into(),
+        };
+        let mut profile = Profile::named(&name).ok_or_else(|| {
+            Failure::Input(anyhow::anyhow!(
+                "--limits '{name}' is not a known profile: use one of {} and set any limit with --cant-limit, --deficiency-limit, --cant-rate, --deficiency-rate, --cant-gradient",
+                PROFILE_NAMES.join(", ")
+            ))
+        })?;
+        if let Some(v) = self.cant_limit {
+            profile.max_cant = Limit::user(v);
+        }
+        if let Some(v) = self.deficiency_limit {
+            profile.max_deficiency = Limit::user(v);
+        }
+        if let Some(v) = self.cant_rate {
+            profile.cant_rate = Some(Limit::user(v));
+        }
+        if let Some(v) = self.deficiency_rate {
+            profile.deficiency_rate = Some(Limit::user(v));
+        }
+        if let Some(v) = self.cant_gradient {
+            profile.cant_gradient = Some(Limit::user(v));
+        }
+        Ok(Some(AdviceOptions {
+            profile,
+            speed,
+            applied_cant: self.applied_cant,
+        }))
+    }
+
     /// The pipeline options these arguments stand for.
     pub fn options(&self) -> Result<Options, Failure> {
         let mut setup = Setup::new(
@@ -117,6 +201,7 @@ impl RunArgs {
                     max_slew: self.max_slew,
                 }
             }),
+            advice: self.advice()?,
             fit: (!self.no_fit).then(|| chordline::fit::FitOptions {
                 reading_sd: self.reading_sd,
                 threads: self.threads,
@@ -124,6 +209,11 @@ impl RunArgs {
             }),
         })
     }
+}
+
+/// Check a `--speed` value and keep its text (the unit chooses the default profile).
+fn speed_text(s: &str) -> Result<String, String> {
+    chordline::advice::parse_speed(s).map(|_| s.to_string())
 }
 
 /// Run `chordline run`.
@@ -157,6 +247,12 @@ pub fn print_outcome(o: &Outcome, quiet: bool) {
         eprintln!(
             "{}",
             chordline::realign::summary_line(s, o.results.survey.chainage_unit)
+        );
+    }
+    if let Some(a) = &o.results.advice {
+        eprint!(
+            "{}",
+            chordline::advice::advice_text(a, o.results.survey.chainage_unit)
         );
     }
     eprintln!("wrote    {} in {}", o.files.join(", "), o.folder.display());
