@@ -579,8 +579,12 @@ fn transition_row(i: usize, e: &FittedElement, o: &AdviceOptions) -> AdviceRow {
 /// Chainages in the rows are survey chainages in metres. Never fails: an
 /// element that cannot be advised on gets a row with a flag saying why.
 pub fn advise(fit: &FitResult, o: &AdviceOptions) -> Advice {
-    let rows = fit
-        .elements
+    advise_elements(&fit.elements, o)
+}
+
+/// [`advise`] on an element list (in chainage order, as in a [`FitResult`]).
+pub fn advise_elements(elements: &[FittedElement], o: &AdviceOptions) -> Advice {
+    let rows = elements
         .iter()
         .enumerate()
         .filter_map(|(i, e)| match e.kind {
