@@ -61,10 +61,16 @@ fn equilibrium_cant_worked_values() {
     let uk = Profile::named("uk").unwrap();
     for (v, r, e118, e1182) in cases {
         let a = mm(equilibrium_cant(&p118, v * KMH, r).unwrap());
-        assert!((a - e118).abs() < 0.01, "CHECKS 2.7 k=11.8 V {v} R {r}: {a}");
+        assert!(
+            (a - e118).abs() < 0.01,
+            "CHECKS 2.7 k=11.8 V {v} R {r}: {a}"
+        );
         // Either sign of radius: the size is used.
         let b = mm(equilibrium_cant(&uk, v * KMH, -r).unwrap());
-        assert!((b - e1182).abs() < 0.01, "CHECKS 2.7 k=11.82 V {v} R {r}: {b}");
+        assert!(
+            (b - e1182).abs() < 0.01,
+            "CHECKS 2.7 k=11.82 V {v} R {r}: {b}"
+        );
     }
 }
 
@@ -73,10 +79,18 @@ fn deficiency_excess_and_equilibrium_speed() {
     // CHECKS.md 2.8 (computed): R = 1000 m, E = 110 mm, V = 120 km/h, k = 11.8.
     let p = metric(11.8, 150.0, 110.0);
     let eq = mm(equilibrium_cant(&p, 120.0 * KMH, 1000.0).unwrap());
-    assert!((eq - 110.0 - 59.92).abs() < 0.01, "deficiency {}", eq - 110.0);
+    assert!(
+        (eq - 110.0 - 59.92).abs() < 0.01,
+        "deficiency {}",
+        eq - 110.0
+    );
     // Freight at 60 km/h: excess 110 − 42.48 = 67.52 mm.
     let eq60 = mm(equilibrium_cant(&p, 60.0 * KMH, 1000.0).unwrap());
-    assert!((110.0 - eq60 - 67.52).abs() < 0.01, "excess {}", 110.0 - eq60);
+    assert!(
+        (110.0 - eq60 - 67.52).abs() < 0.01,
+        "excess {}",
+        110.0 - eq60
+    );
     // Equilibrium speed √(E·R/11.8) = 96.55 km/h.
     let v = max_speed(&p, 0.110, 0.0, 1000.0).unwrap() / KMH;
     assert!((v - 96.55).abs() < 0.01, "{v}");
@@ -202,7 +216,13 @@ fn est(value: f64, se: f64) -> Estimate {
     }
 }
 
-fn element(kind: ElementKind, s0: f64, len: f64, r0: Option<Estimate>, r1: Option<Estimate>) -> FittedElement {
+fn element(
+    kind: ElementKind,
+    s0: f64,
+    len: f64,
+    r0: Option<Estimate>,
+    r1: Option<Estimate>,
+) -> FittedElement {
     FittedElement {
         kind,
         start_chainage: est(s0, 0.0),
@@ -223,7 +243,13 @@ fn element(kind: ElementKind, s0: f64, len: f64, r0: Option<Estimate>, r1: Optio
 }
 
 fn arc(r: f64, se: f64) -> FittedElement {
-    element(ElementKind::Arc, 0.0, 200.0, Some(est(r, se)), Some(est(r, se)))
+    element(
+        ElementKind::Arc,
+        0.0,
+        200.0,
+        Some(est(r, se)),
+        Some(est(r, se)),
+    )
 }
 
 #[test]
@@ -267,8 +293,18 @@ fn advice_uses_the_tighter_radius_and_rounds_down() {
         ..o
     };
     let a = advise_elements(&[arc(600.0, 0.0)], &o3);
-    assert!(a.rows[0].flags.iter().any(|f| f.contains("line speed above")));
-    assert!(a.rows[0].flags.iter().any(|f| f.contains("deficiency at line speed")));
+    assert!(
+        a.rows[0]
+            .flags
+            .iter()
+            .any(|f| f.contains("line speed above"))
+    );
+    assert!(
+        a.rows[0]
+            .flags
+            .iter()
+            .any(|f| f.contains("deficiency at line speed"))
+    );
 }
 
 #[test]
@@ -302,10 +338,20 @@ fn short_transition_is_flagged() {
     assert!(t.flags.iter().any(|f| f.contains("shorter than")));
     // 150 ± 1.96 m against 142.857 m: long enough.
     let t2 = &a.rows[2];
-    assert!(t2.flags.iter().all(|f| !f.contains("shorter")), "{:?}", t2.flags);
+    assert!(
+        t2.flags.iter().all(|f| !f.contains("shorter")),
+        "{:?}",
+        t2.flags
+    );
     // Reverse curves: the cant changes side, so the change is the sum.
     let rr = est(-1000.0, 0.0);
-    let rev = [element(ElementKind::Transition, 0.0, 300.0, Some(r), Some(rr))];
+    let rev = [element(
+        ElementKind::Transition,
+        0.0,
+        300.0,
+        Some(r),
+        Some(rr),
+    )];
     let a = advise_elements(&rev, &o);
     assert!((mm(a.rows[0].cant_change.unwrap()) - 300.0).abs() < 1e-9);
 }

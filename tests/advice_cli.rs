@@ -41,7 +41,7 @@ fn csv_rows(path: &Path) -> Vec<Vec<String>> {
     let text = std::fs::read_to_string(path).unwrap();
     text.lines()
         .filter(|l| !l.starts_with('#') && !l.is_empty())
-        .map(|l| split_csv(l))
+        .map(split_csv)
         .collect()
 }
 
@@ -159,5 +159,8 @@ fn mph_picks_the_fra_profile_and_no_speed_means_no_advice() {
     );
     assert!(o.status.success(), "{}", stderr(&o));
     let text = std::fs::read_to_string(out3.join("advice.csv")).unwrap();
-    assert!(text.contains("max cant deficiency 90.0 mm (set by the user)"), "{text}");
+    assert!(
+        text.contains("max cant deficiency 90.0 mm (set by the user)"),
+        "{text}"
+    );
 }

@@ -116,6 +116,13 @@ impl AdviceUnits {
             AdviceUnits::Imperial => "mph",
         }
     }
+    /// Decimals of a cant shown to people (and one more in files).
+    pub fn cant_decimals(self) -> usize {
+        match self {
+            AdviceUnits::Metric => 0,
+            AdviceUnits::Imperial => 2,
+        }
+    }
     /// Speed unit as shown to people: `km/h` or `mph`.
     pub fn speed_label(self) -> &'static str {
         match self {
@@ -511,7 +518,11 @@ fn transition_row(i: usize, e: &FittedElement, o: &AdviceOptions) -> AdviceRow {
     let mut row = empty_row(i, e);
     // The tighter end (for display).
     row.radius = match (&e.start_radius, &e.end_radius) {
-        (Some(a), Some(b)) => Some(if a.value.abs() <= b.value.abs() { *a } else { *b }),
+        (Some(a), Some(b)) => Some(if a.value.abs() <= b.value.abs() {
+            *a
+        } else {
+            *b
+        }),
         (a, b) => a.or(*b),
     };
     let ends = [e.start_radius.as_ref(), e.end_radius.as_ref()];
@@ -662,9 +673,7 @@ pub fn parse_rate(s: &str) -> Result<f64, String> {
     };
     match v {
         Some(v) if v.is_finite() && v > 0.0 => Ok(v),
-        _ => Err(format!(
-            "'{s}' is not a rate: write e.g. 35mm/s or 1.4in/s"
-        )),
+        _ => Err(format!("'{s}' is not a rate: write e.g. 35mm/s or 1.4in/s")),
     }
 }
 
@@ -675,7 +684,11 @@ pub fn limit_lines(p: &Profile) -> Vec<String> {
     let mut out = vec![
         format!("profile {}: {}", p.name, p.title),
         format!("equilibrium cant: {}", p.rule_basis),
-        format!("max applied cant {} ({})", c(p.max_cant.value), p.max_cant.basis),
+        format!(
+            "max applied cant {} ({})",
+            c(p.max_cant.value),
+            p.max_cant.basis
+        ),
         format!(
             "max cant deficiency {} ({})",
             c(p.max_deficiency.value),
@@ -696,7 +709,11 @@ pub fn limit_lines(p: &Profile) -> Vec<String> {
     };
     let rate = |x: f64| format!("{:.1} {}/s", x / u.cant_scale(), u.cant_suffix());
     push("max rate of change of cant", &p.cant_rate, &rate);
-    push("max rate of change of deficiency", &p.deficiency_rate, &rate);
+    push(
+        "max rate of change of deficiency",
+        &p.deficiency_rate,
+        &rate,
+    );
     push("max cant gradient", &p.cant_gradient, &|x: f64| {
         format!("1 in {:.0}", 1.0 / x)
     });

@@ -51,11 +51,7 @@ fn header_lines(a: &Advice) -> Vec<String> {
     let mut v: Vec<String> = CAUTION.iter().map(|s| s.to_string()).collect();
     v.extend(limit_lines(&o.profile));
     v.push(match o.speed {
-        Some(s) => format!(
-            "line speed {:.0} {}",
-            s / u.speed_scale(),
-            u.speed_label()
-        ),
+        Some(s) => format!("line speed {:.0} {}", s / u.speed_scale(), u.speed_label()),
         None => "line speed not given".into(),
     });
     v.push(match o.applied_cant {
@@ -86,7 +82,7 @@ pub fn write_advice_csv(w: &mut dyn Write, a: &Advice, unit: LengthUnit) -> io::
     )?;
     let len = |x: Option<f64>| num(x.map(|x| unit.from_m(x)), 3);
     let rad = |x: Option<f64>| num(x.map(|x| unit.from_m(x)), 1);
-    let cant = |x: Option<f64>| num(x.map(|x| x / u.cant_scale()), 1);
+    let cant = |x: Option<f64>| num(x.map(|x| x / u.cant_scale()), u.cant_decimals() + 1);
     let spd = |x: Option<f64>| num(x.map(|x| x / u.speed_scale()), 0);
     for r in &a.rows {
         let fields = [
@@ -122,7 +118,14 @@ pub fn write_advice_csv(w: &mut dyn Write, a: &Advice, unit: LengthUnit) -> io::
 fn row_text(r: &AdviceRow, a: &Advice, unit: LengthUnit, out: &mut String) {
     let u = a.options.profile.units;
     let lu = unit.suffix();
-    let c = |x: f64| format!("{:.0} {}", x / u.cant_scale(), u.cant_suffix());
+    let c = |x: f64| {
+        format!(
+            "{:.*} {}",
+            u.cant_decimals(),
+            x / u.cant_scale(),
+            u.cant_suffix()
+        )
+    };
     let s = |x: f64| format!("{:.0} {}", x / u.speed_scale(), u.speed_label());
     let l = |x: f64| format!("{:.1} {lu}", unit.from_m(x));
     let _ = write!(

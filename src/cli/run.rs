@@ -90,7 +90,11 @@ pub struct RunArgs {
     #[arg(long, value_parser = small_length, help_heading = "Cant and speed advice (advisory only)")]
     pub applied_cant: Option<f64>,
     /// Limit profile: uk or us-fra (default: us-fra when --speed is in mph, else uk).
-    #[arg(long, value_name = "PROFILE", help_heading = "Cant and speed advice (advisory only)")]
+    #[arg(
+        long,
+        value_name = "PROFILE",
+        help_heading = "Cant and speed advice (advisory only)"
+    )]
     pub limits: Option<String>,
     /// Largest applied cant, e.g. 150mm (replaces the profile's).
     #[arg(long, value_parser = small_length, help_heading = "Cant and speed advice (advisory only)")]
@@ -136,7 +140,11 @@ impl RunArgs {
         }
         let name = match &self.limits {
             Some(n) => n.trim().to_ascii_lowercase(),
-            None if self.speed.as_deref().is_some_and(|s| s.to_ascii_lowercase().contains("mph")) => {
+            None if self
+                .speed
+                .as_deref()
+                .is_some_and(|s| s.to_ascii_lowercase().contains("mph")) =>
+            {
                 "us-fra".into()
             }
             None => "uk".into(),
