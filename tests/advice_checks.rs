@@ -6,7 +6,7 @@
 use chordline::advice::{
     AdviceOptions, AdviceUnits, CantRule, Limit, Profile, advise_elements, degree_of_curve,
     equilibrium_cant, max_speed, parse_gradient, parse_rate, parse_speed, required_transition,
-    round_down_speed,
+    round_down_speed, speed_table,
 };
 use chordline::fit::{ElementStatus, Estimate, FittedElement};
 use chordline::geometry::ElementKind;
@@ -370,4 +370,32 @@ fn parsers() {
     assert!((parse_gradient("1 in 400").unwrap() - 0.0025).abs() < 1e-12);
     assert!(parse_gradient("1:0").is_err());
     assert!(parse_gradient("steep").is_err());
+}
+
+#[test]
+fn speed_table_by_applied_cant() {
+    // CHECKS.md 2.11 (published table, computed formula values): D = 1°,
+    // 3 in unbalance: Ea 3 in → 92.58, 4 in → 100.00, 6 in → 113.39 mph;
+    // advised (rounded down to 5 mph): 90, 100, 110.
+    let fra = Profile::named("us-fra").unwrap();
+    let r = 50.0 / 0.5_f64.to_radians().sin() * FOOT;
+    let t = speed_table(&fra, r);
+    assert_eq!(t.len(), 8, "0 to 7 in by 1 in");
+    let at = |inches: f64| {
+        t.iter()
+            .find(|(c, _)| (c / INCH - inches).abs() < 1e-9)
+            .map(|(_, v)| v / MPH)
+            .unwrap()
+    };
+    assert!((at(3.0) - 90.0).abs() < 1e-9, "{}", at(3.0));
+    assert!((at(4.0) - 100.0).abs() < 1e-9, "{}", at(4.0));
+    assert!((at(6.0) - 110.0).abs() < 1e-9, "{}", at(6.0));
+    // Speeds never fall as cant rises; the last row is the profile's limit.
+    assert!(t.windows(2).all(|w| w[1].1 >= w[0].1));
+    assert!((t[7].0 - fra.max_cant.value).abs() < 1e-12);
+    // A limit off the step grid is still the last row: 0, 25, .., 125, 140 mm.
+    let p = metric(11.8, 140.0, 110.0);
+    let t = speed_table(&p, 1000.0);
+    let cants: Vec<f64> = t.iter().map(|(c, _)| (c * 1e3).round()).collect();
+    assert_eq!(cants, vec![0.0, 25.0, 50.0, 75.0, 100.0, 125.0, 140.0]);
 }

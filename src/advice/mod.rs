@@ -293,6 +293,29 @@ pub fn round_down_speed(units: AdviceUnits, v: f64) -> f64 {
     steps * 5.0 * s
 }
 
+/// Advised highest speed (m/s, rounded down) on `radius` (m) by applied cant
+/// (m): no cant, then steps of 25 mm (1 in for an imperial profile), then the
+/// profile's largest cant. Empty where the rule cannot be evaluated.
+pub fn speed_table(p: &Profile, radius: f64) -> Vec<(f64, f64)> {
+    let step = match p.units {
+        AdviceUnits::Metric => 0.025,
+        AdviceUnits::Imperial => INCH,
+    };
+    let emax = p.max_cant.value;
+    let mut cants: Vec<f64> = (0..)
+        .map(|i| f64::from(i) * step)
+        .take_while(|c| *c < emax - 1e-9 && *c <= 1.0)
+        .collect();
+    cants.push(emax);
+    cants
+        .into_iter()
+        .filter_map(|c| {
+            max_speed(p, c, p.max_deficiency.value, radius)
+                .map(|v| (c, round_down_speed(p.units, v)))
+        })
+        .collect()
+}
+
 /// The shortest transition the rules of `p` allow (m) for a change of cant
 /// `d_cant` (m) and of deficiency `d_def` (m) run at `v` (m/s), with the rule
 /// that governs. `None` when the profile has no rule.
@@ -372,6 +395,9 @@ pub struct AdviceRow {
     /// Arc: advised highest speed with the profile's largest cant (m/s,
     /// rounded down).
     pub max_speed_cant_limit: Option<f64>,
+    /// Arc: advised highest speed (m/s, rounded down) by applied cant (m),
+    /// from no cant to the profile's largest in steps of 25 mm (1 in).
+    pub speed_table: Vec<(f64, f64)>,
     /// Transition: change of cant along it (m).
     pub cant_change: Option<f64>,
     /// Transition: change of deficiency along it (m).
@@ -418,6 +444,7 @@ fn empty_row(i: usize, e: &FittedElement) -> AdviceRow {
         max_speed: None,
         max_speed_no_cant: None,
         max_speed_cant_limit: None,
+        speed_table: Vec::new(),
         cant_change: None,
         deficiency_change: None,
         required_length: None,
@@ -454,6 +481,7 @@ fn arc_row(i: usize, e: &FittedElement, o: &AdviceOptions) -> AdviceRow {
     if let Some(a) = applied {
         row.max_speed = down(max_speed(p, a, imax, r));
     }
+    row.speed_table = speed_table(p, r);
     if let Some(v) = o.speed {
         row.speed = Some(v);
         let eq = equilibrium_cant(p, v, r);

@@ -180,6 +180,19 @@ fn row_text(r: &AdviceRow, a: &Advice, unit: LengthUnit, out: &mut String) {
             if !parts.is_empty() {
                 let _ = writeln!(out, "        {}", parts.join("; "));
             }
+            if !r.speed_table.is_empty() {
+                let cells: Vec<String> = r
+                    .speed_table
+                    .iter()
+                    .map(|(ct, v)| format!("{} {:.0}", c(*ct), v / u.speed_scale()))
+                    .collect();
+                let _ = writeln!(
+                    out,
+                    "        max {} by applied cant: {}",
+                    u.speed_label(),
+                    cells.join(", ")
+                );
+            }
         }
         ElementKind::Transition | ElementKind::Straight => {
             let _ = write!(
