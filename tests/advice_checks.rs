@@ -343,6 +343,18 @@ fn short_transition_is_flagged() {
         "{:?}",
         t2.flags
     );
+    // A transition cut by the survey end is not judged on its length.
+    let mut cut = els[3].clone();
+    cut.ends_at_survey_end = true;
+    cut.length = est(20.0, 0.0);
+    let a = advise_elements(&[cut], &o);
+    assert!(a.rows[0].flags.iter().all(|f| !f.contains("shorter")));
+    assert!(
+        a.rows[0]
+            .flags
+            .iter()
+            .any(|f| f.contains("cut by the survey end"))
+    );
     // Reverse curves: the cant changes side, so the change is the sum.
     let rr = est(-1000.0, 0.0);
     let rev = [element(

@@ -428,6 +428,10 @@ fn tight_radius(r: &Estimate) -> Option<f64> {
 }
 
 fn empty_row(i: usize, e: &FittedElement) -> AdviceRow {
+    let mut flags = Vec::new();
+    if e.status == crate::fit::ElementStatus::Indeterminate {
+        flags.push("not resolved by the chord: read the intervals, not the values".to_string());
+    }
     AdviceRow {
         element: i + 1,
         kind: e.kind,
@@ -448,7 +452,7 @@ fn empty_row(i: usize, e: &FittedElement) -> AdviceRow {
         cant_change: None,
         deficiency_change: None,
         required_length: None,
-        flags: Vec::new(),
+        flags,
     }
 }
 
@@ -592,6 +596,9 @@ fn transition_row(i: usize, e: &FittedElement, o: &AdviceOptions) -> AdviceRow {
     match row.required_length {
         None => row.flags.push(
             "the profile has no transition rule: give --cant-rate, --deficiency-rate or --cant-gradient".into(),
+        ),
+        Some(_) if e.starts_at_survey_end || e.ends_at_survey_end => row.flags.push(
+            "cut by the survey end: its full length is not known, compare it yourself".into(),
         ),
         Some((req, _)) => {
             if e.length.value < req {
