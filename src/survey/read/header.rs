@@ -57,6 +57,59 @@ fn base_and_unit(name: &str) -> Option<(&'static str, Option<String>)> {
 
 /// Read the header cells.
 ///
+/// A header error and the 0-based field it concerns.
+type HeaderError = (Option<usize>, SurveyErrorKind);
+
+/// The unit of column `i` (`name`, unit suffix `unit`) read by `parse`;
+/// a missing or unknown unit is an error naming the accepted names.
+fn column_unit<U>(
+    i: usize,
+    name: &str,
+    unit: Option<&str>,
+    expected: &'static str,
+    parse: impl Fn(&str) -> Option<U>,
+) -> Result<U, HeaderError> {
+    let Some(unit) = unit else {
+        return Err((
+            Some(i),
+            SurveyErrorKind::NoUnit {
+                name: name.to_string(),
+                expected,
+            },
+        ));
+    };
+    parse(unit).ok_or_else(|| {
+        (
+            Some(i),
+            SurveyErrorKind::UnknownUnit {
+                name: name.to_string(),
+                unit: unit.to_string(),
+                expected,
+            },
+        )
+    })
+}
+
+/// Record column `i` with unit `u` as the `what` column, refusing a second one.
+fn claim<U>(
+    slot: &mut Option<(usize, U)>,
+    i: usize,
+    u: U,
+    what: &'static str,
+) -> Result<(), HeaderError> {
+    if let Some((first, _)) = slot {
+        return Err((
+            Some(i),
+            SurveyErrorKind::DuplicateColumn {
+                what,
+                first: *first + 1,
+            },
+        ));
+    }
+    *slot = Some((i, u));
+    Ok(())
+}
+
 /// Errors carry the 0-based field they concern, if any.
 pub(crate) fn parse_header(
     cells: &[Cow<'_, str>],
@@ -82,74 +135,21 @@ pub(crate) fn parse_header(
         let lower = name.trim().to_lowercase();
         if let Some((base, unit)) = base_and_unit(name) {
             if base == "chainage" {
-                let u = match unit.as_deref() {
-                    None => {
-                        return Err((
-                            Some(i),
-                            SurveyErrorKind::NoUnit {
-                                name: name.clone(),
-                                expected: CHAINAGE_NAMES,
-                            },
-                        ));
-                    }
-                    Some("m") => LengthUnit::Metre,
-                    Some("ft") => LengthUnit::Foot,
-                    Some(other) => {
-                        return Err((
-                            Some(i),
-                            SurveyErrorKind::UnknownUnit {
-                                name: name.clone(),
-                                unit: other.to_string(),
-                                expected: CHAINAGE_NAMES,
-                            },
-                        ));
-                    }
-                };
-                if let Some((first, _)) = chainage {
-                    return Err((
-                        Some(i),
-                        SurveyErrorKind::DuplicateColumn {
-                            what: "chainage",
-                            first: first + 1,
-                        },
-                    ));
-                }
-                chainage = Some((i, u));
+                let u = column_unit(i, name, unit.as_deref(), CHAINAGE_NAMES, |u| match u {
+                    "m" => Some(LengthUnit::Metre),
+                    "ft" => Some(LengthUnit::Foot),
+                    _ => None,
+                })?;
+                claim(&mut chainage, i, u, "chainage")?;
             } else {
-                let u = match unit.as_deref() {
-                    None => {
-                        return Err((
-                            Some(i),
-                            SurveyErrorKind::NoUnit {
-                                name: name.clone(),
-                                expected: VERSINE_NAMES,
-                            },
-                        ));
-                    }
-                    Some(s) => match VersineUnit::from_suffix(s) {
-                        Some(u) => u,
-                        None => {
-                            return Err((
-                                Some(i),
-                                SurveyErrorKind::UnknownUnit {
-                                    name: name.clone(),
-                                    unit: s.to_string(),
-                                    expected: VERSINE_NAMES,
-                                },
-                            ));
-                        }
-                    },
-                };
-                if let Some((first, _)) = versine {
-                    return Err((
-                        Some(i),
-                        SurveyErrorKind::DuplicateColumn {
-                            what: "versine",
-                            first: first + 1,
-                        },
-                    ));
-                }
-                versine = Some((i, u));
+                let u = column_unit(
+                    i,
+                    name,
+                    unit.as_deref(),
+                    VERSINE_NAMES,
+                    VersineUnit::from_suffix,
+                )?;
+                claim(&mut versine, i, u, "versine")?;
             }
         } else if lower == "side" {
             if let Some(first) = side {
