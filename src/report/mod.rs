@@ -77,12 +77,41 @@ pub fn summary(r: &Results) -> String {
             "none (straight)".into()
         }
     );
+    match &r.georef {
+        None => {
+            let _ = writeln!(
+                s,
+                "frame    local, not placed on the Earth: first station at E 0, N 0, bearing {:.4} deg (give --start-lonlat and --start-bearing, or --control, to place it)",
+                heading_to_bearing(first.heading)
+            );
+        }
+        Some(g) => {
+            let o = g.placement.origin();
+            let how = if g.controls.is_some() {
+                "by control points"
+            } else {
+                "by start point and bearing"
+            };
+            let _ = writeln!(
+                s,
+                "frame    placed {how}: local E/N are ground metres from the origin at WGS 84 longitude,latitude {o}; bearings from true north"
+            );
+        }
+    }
+    let end_bearing = match &r.georef {
+        Some(g) => g.true_bearing(crate::geometry::Pose {
+            x: last.x,
+            y: last.y,
+            heading: last.heading,
+        }),
+        None => heading_to_bearing(last.heading),
+    };
     let _ = writeln!(
         s,
         "end      E {:.3} N {:.3} {lu}, bearing {:.4} deg, position sd {:.3} {lu}",
         u.from_m(last.x),
         u.from_m(last.y),
-        heading_to_bearing(last.heading),
+        end_bearing,
         u.from_m(last.position_sd)
     );
     if let Some(f) = &r.fit {
