@@ -38,7 +38,7 @@ pub fn summary(r: &Results) -> String {
         r.survey.source,
         n_read,
         if n_gap > 0 {
-            format!(" and {n_gap} gaps")
+            format!(" and {n_gap} gap{}", if n_gap == 1 { "" } else { "s" })
         } else {
             String::new()
         },
