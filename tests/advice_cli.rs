@@ -2,39 +2,11 @@
 //! transition, caution in its header), the output contract still holds, and
 //! no advice file unless asked for.
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+mod common;
 
-fn chordline(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_chordline"))
-        .args(args)
-        .output()
-        .expect("run chordline")
-}
-
-fn demo_survey() -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/eastvale-survey.csv")
-}
-
-fn run_demo(out: &Path, extra: &[&str]) -> Output {
-    let survey = demo_survey();
-    let mut args = vec![
-        "run",
-        survey.to_str().unwrap(),
-        "--chord",
-        "20m",
-        "--rail",
-        "left",
-        "--out",
-        out.to_str().unwrap(),
-    ];
-    args.extend_from_slice(extra);
-    chordline(&args)
-}
-
-fn stderr(o: &Output) -> String {
-    String::from_utf8_lossy(&o.stderr).into_owned()
-}
+use common::{run_demo_to, stderr};
+use std::path::Path;
+use std::process::Command;
 
 /// Data rows (not `#` comments) of a CSV file, header first.
 fn csv_rows(path: &Path) -> Vec<Vec<String>> {
@@ -62,7 +34,7 @@ fn split_csv(line: &str) -> Vec<String> {
 fn speed_writes_advice_with_one_row_per_arc_and_transition() {
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("out");
-    let o = run_demo(&out, &["--speed", "100km/h"]);
+    let o = run_demo_to(&out, &["--speed", "100km/h"]);
     assert!(o.status.success(), "{}", stderr(&o));
     let err = stderr(&o);
     assert!(err.contains("ADVISORY ONLY"), "{err}");
@@ -131,21 +103,21 @@ fn speed_writes_advice_with_one_row_per_arc_and_transition() {
 fn mph_picks_the_fra_profile_and_no_speed_means_no_advice() {
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("mph");
-    let o = run_demo(&out, &["--speed", "60mph", "--applied-cant", "4in"]);
+    let o = run_demo_to(&out, &["--speed", "60mph", "--applied-cant", "4in"]);
     assert!(o.status.success(), "{}", stderr(&o));
     let text = std::fs::read_to_string(out.join("advice.csv")).unwrap();
     assert!(text.contains("profile us-fra"), "{text}");
     assert!(text.contains("max_speed_mph") && text.contains("equilibrium_cant_in"));
     // Without --speed or --applied-cant: no advice file.
     let out2 = dir.path().join("plain");
-    let o = run_demo(&out2, &[]);
+    let o = run_demo_to(&out2, &[]);
     assert!(o.status.success(), "{}", stderr(&o));
     assert!(!out2.join("advice.csv").exists());
     // A limit without a speed or cant is refused, as is an unknown profile.
-    let o = run_demo(&dir.path().join("x"), &["--cant-limit", "150mm"]);
+    let o = run_demo_to(&dir.path().join("x"), &["--cant-limit", "150mm"]);
     assert!(!o.status.success());
     assert!(stderr(&o).contains("--speed"), "{}", stderr(&o));
-    let o = run_demo(
+    let o = run_demo_to(
         &dir.path().join("y"),
         &["--speed", "100km/h", "--limits", "mars"],
     );
@@ -153,7 +125,7 @@ fn mph_picks_the_fra_profile_and_no_speed_means_no_advice() {
     assert!(stderr(&o).contains("uk, us-fra"), "{}", stderr(&o));
     // Overrides are named as the user's in the file.
     let out3 = dir.path().join("over");
-    let o = run_demo(
+    let o = run_demo_to(
         &out3,
         &["--applied-cant", "100mm", "--deficiency-limit", "90mm"],
     );

@@ -1,40 +1,11 @@
 //! `chordline run` and `chordline demo` end to end: the output contract, exit
 //! codes, never losing earlier results, determinism.
 
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+mod common;
 
-fn chordline(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_chordline"))
-        .args(args)
-        .output()
-        .expect("run chordline")
-}
-
-fn demo_survey() -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/eastvale-survey.csv")
-}
-
-/// `chordline run` on the demo survey (20 m chord, left rail) into `out`, plus `extra` options.
-fn run_demo_to(out: &Path, extra: &[&str]) -> Output {
-    let survey = demo_survey();
-    let mut args = vec![
-        "run",
-        survey.to_str().unwrap(),
-        "--chord",
-        "20m",
-        "--rail",
-        "left",
-        "--out",
-        out.to_str().unwrap(),
-    ];
-    args.extend_from_slice(extra);
-    chordline(&args)
-}
-
-fn stderr(o: &Output) -> String {
-    String::from_utf8_lossy(&o.stderr).into_owned()
-}
+use common::{chordline, demo_survey, run_demo_to, stderr};
+use std::path::Path;
+use std::process::Command;
 
 #[test]
 fn run_on_the_demo_follows_the_output_contract() {

@@ -1,0 +1,42 @@
+//! Helpers shared by the tests that run the `chordline` binary.
+//! Use from a test crate with `mod common;`.
+
+#![allow(dead_code, reason = "each test crate uses a different part")]
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+/// Run the built binary with `args`.
+pub fn chordline(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_chordline"))
+        .args(args)
+        .output()
+        .expect("run chordline")
+}
+
+/// The bundled demo survey.
+pub fn demo_survey() -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/eastvale-survey.csv")
+}
+
+/// `chordline run` on the demo survey (20 m chord, left rail) into `out`, plus `extra` options.
+pub fn run_demo_to(out: &Path, extra: &[&str]) -> Output {
+    let survey = demo_survey();
+    let mut args = vec![
+        "run",
+        survey.to_str().unwrap(),
+        "--chord",
+        "20m",
+        "--rail",
+        "left",
+        "--out",
+        out.to_str().unwrap(),
+    ];
+    args.extend_from_slice(extra);
+    chordline(&args)
+}
+
+/// What the run wrote to stderr.
+pub fn stderr(o: &Output) -> String {
+    String::from_utf8_lossy(&o.stderr).into_owned()
+}
