@@ -16,7 +16,7 @@
 //! would otherwise turn NaN into `null` silently); the file is built in memory
 //! and written in one go, so an error leaves the writer untouched.
 //!
-//! There is no way to call this without a [`Placement`]: an unplaced survey
+//! There is no way to call this without a [`Placement`](crate::georef::Placement): an unplaced survey
 //! gets no GeoJSON.
 //!
 //! ## Reference

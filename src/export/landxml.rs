@@ -9,8 +9,8 @@
 //!   a clothoid whose curvature changes sign is written as two spirals split
 //!   at the inflection point (a LandXML spiral has one sense of rotation).
 //!
-//! Coordinates are in the local ground frame ([`LandXmlFrame::Local`]), or in
-//! a projected grid ([`LandXmlFrame::Grid`], with a `CoordinateSystem`
+//! Coordinates are in the local ground frame ([`LandXmlFrame::Local`](crate::export::landxml::LandXmlFrame::Local)), or in
+//! a projected grid ([`LandXmlFrame::Grid`](crate::export::landxml::LandXmlFrame::Grid), with a `CoordinateSystem`
 //! element carrying the EPSG code). In a grid, every point is the grid image
 //! of the exact local point; directions are grid bearings (from grid north),
 //! and lengths and radii are multiplied by the element's combined scale
