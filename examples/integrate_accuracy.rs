@@ -19,21 +19,11 @@ use rand::SeedableRng;
 use rand_distr::{Distribution, Normal};
 
 fn survey_of(design: &Alignment, sim: &SimSetup) -> (Survey, Vec<Truth>) {
-    let s = simulate(design, sim).expect("simulate");
-    let keep: Vec<usize> = (0..s.truth.len())
-        .filter(|&i| s.truth[i].versine.is_some())
-        .collect();
-    let mut survey = s.survey.clone();
-    survey.readings = keep.iter().map(|&i| s.survey.readings[i].clone()).collect();
-    (survey, keep.iter().map(|&i| s.truth[i]).collect())
+    simulate(design, sim).expect("simulate").read_marks()
 }
 
 fn setup_of(sim: &SimSetup, sd: Option<f64>) -> Setup {
-    let mut s = Setup::new(sim.chord, sim.rail);
-    s.gauge = sim.gauge;
-    s.marking = sim.marking;
-    s.reading_sd = sd;
-    s
+    sim.survey_setup(sd)
 }
 
 fn max_errors(truth: &[Truth], plan: &Plan) -> (f64, f64) {

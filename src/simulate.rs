@@ -178,6 +178,36 @@ pub struct Simulated {
     pub truth: Vec<Truth>,
 }
 
+impl Simulated {
+    /// Only the marks that have a reading (the first and last half chord,
+    /// where the wire would run off the design, are dropped), with their
+    /// truth: station 0 of the returned survey is the first read mark.
+    pub fn read_marks(&self) -> (Survey, Vec<Truth>) {
+        let keep: Vec<usize> = (0..self.truth.len())
+            .filter(|&i| self.truth[i].versine.is_some())
+            .collect();
+        let mut survey = self.survey.clone();
+        survey.readings = keep
+            .iter()
+            .map(|&i| self.survey.readings[i].clone())
+            .collect();
+        (survey, keep.iter().map(|&i| self.truth[i]).collect())
+    }
+}
+
+impl SimSetup {
+    /// The set-up a surveyor would give for this simulated survey (chord,
+    /// rail, gauge, marking), with the reading standard deviation `reading_sd`
+    /// stated or not.
+    pub fn survey_setup(&self, reading_sd: Option<f64>) -> crate::survey::Setup {
+        let mut s = crate::survey::Setup::new(self.chord, self.rail);
+        s.gauge = self.gauge;
+        s.marking = self.marking;
+        s.reading_sd = reading_sd;
+        s
+    }
+}
+
 /// Simulate a survey of `design` (the track centreline) taken with `setup`.
 ///
 /// Marks run from the start of the design to its end along the measured

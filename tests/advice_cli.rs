@@ -4,9 +4,8 @@
 
 mod common;
 
-use common::{run_demo_to, stderr};
+use common::{check_contract, run_demo_to, stderr};
 use std::path::Path;
-use std::process::Command;
 
 /// Data rows (not `#` comments) of a CSV file, header first.
 fn csv_rows(path: &Path) -> Vec<Vec<String>> {
@@ -77,26 +76,8 @@ fn speed_writes_advice_with_one_row_per_arc_and_transition() {
         let v: f64 = r[vmax].parse().unwrap();
         assert_eq!(v % 5.0, 0.0, "{v}");
     }
-    // The team's contract checker still passes (skip where absent).
-    let checker = Path::new(env!("CARGO_MANIFEST_DIR")).join("../shared/tools/check-outputs");
-    if !checker.exists() {
-        eprintln!(
-            "skipped the contract checker: {} is absent (no ../shared in this clone)",
-            checker.display()
-        );
-        return;
-    }
-    let c = Command::new("python3")
-        .arg(&checker)
-        .arg(&out)
-        .output()
-        .expect("run python3");
-    assert!(
-        c.status.success(),
-        "check-outputs: {}{}",
-        String::from_utf8_lossy(&c.stdout),
-        String::from_utf8_lossy(&c.stderr)
-    );
+    // The team's output-contract checker (skips where ../shared is absent).
+    check_contract(&out);
 }
 
 #[test]

@@ -3,9 +3,7 @@
 
 mod common;
 
-use common::{chordline, demo_survey, run_demo_to, stderr};
-use std::path::Path;
-use std::process::Command;
+use common::{check_contract, chordline, demo_survey, run_demo_to, stderr};
 
 #[test]
 fn run_on_the_demo_follows_the_output_contract() {
@@ -17,26 +15,8 @@ fn run_on_the_demo_follows_the_output_contract() {
     assert!(stations.starts_with(
         "chainage_m,versine_mm,curvature_1_per_km,bearing_deg,easting_m,northing_m,position_sd_m"
     ));
-    // The team's contract checker (Python, standard library): skip where absent.
-    let checker = Path::new(env!("CARGO_MANIFEST_DIR")).join("../shared/tools/check-outputs");
-    if !checker.exists() {
-        eprintln!(
-            "skipped the contract checker: {} is absent (no ../shared in this clone)",
-            checker.display()
-        );
-        return;
-    }
-    let c = Command::new("python3")
-        .arg(&checker)
-        .arg(&out)
-        .output()
-        .unwrap();
-    assert!(
-        c.status.success(),
-        "check-outputs: {}{}",
-        String::from_utf8_lossy(&c.stdout),
-        String::from_utf8_lossy(&c.stderr)
-    );
+    // The team's output-contract checker (skips where ../shared is absent).
+    check_contract(&out);
 }
 
 #[test]

@@ -39,13 +39,7 @@ fn route() -> Alignment {
 }
 
 fn survey_of(design: &Alignment, sim: &SimSetup) -> (Survey, Vec<Truth>) {
-    let s = simulate(design, sim).expect("simulate");
-    let keep: Vec<usize> = (0..s.truth.len())
-        .filter(|&i| s.truth[i].versine.is_some())
-        .collect();
-    let mut survey = s.survey.clone();
-    survey.readings = keep.iter().map(|&i| s.survey.readings[i].clone()).collect();
-    (survey, keep.iter().map(|&i| s.truth[i]).collect())
+    simulate(design, sim).expect("simulate").read_marks()
 }
 
 fn lateral(t: &Truth, x: f64, y: f64) -> f64 {

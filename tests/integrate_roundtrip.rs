@@ -9,24 +9,12 @@ use chordline::survey::{Marking, Rail, Setup, Survey};
 use chordline::units::{FOOT, INCH, LengthUnit, VersineUnit};
 use std::f64::consts::{FRAC_PI_2, PI, TAU};
 
-/// Simulate and keep only the marks that have a reading (the simulator leaves
-/// the first and last half chord unread), so station 0 is a read mark.
 fn survey_of(design: &Alignment, sim: &SimSetup) -> (Survey, Vec<Truth>) {
-    let s = simulate(design, sim).expect("simulate");
-    let keep: Vec<usize> = (0..s.truth.len())
-        .filter(|&i| s.truth[i].versine.is_some())
-        .collect();
-    let mut survey = s.survey.clone();
-    survey.readings = keep.iter().map(|&i| s.survey.readings[i].clone()).collect();
-    (survey, keep.iter().map(|&i| s.truth[i]).collect())
+    simulate(design, sim).expect("simulate").read_marks()
 }
 
 fn setup_of(sim: &SimSetup, sd: Option<f64>) -> Setup {
-    let mut setup = Setup::new(sim.chord, sim.rail);
-    setup.gauge = sim.gauge;
-    setup.marking = sim.marking;
-    setup.reading_sd = sd;
-    setup
+    sim.survey_setup(sd)
 }
 
 fn run(design: &Alignment, sim: &SimSetup, sd: Option<f64>) -> (Vec<Truth>, Plan) {

@@ -40,3 +40,30 @@ pub fn run_demo_to(out: &Path, extra: &[&str]) -> Output {
 pub fn stderr(o: &Output) -> String {
     String::from_utf8_lossy(&o.stderr).into_owned()
 }
+
+/// Run the team's output-contract checker (`../shared/tools/check-outputs`,
+/// Python standard library) on `dir` and assert that it passes. Returns
+/// `false`, after saying why, where the checker is absent (a user's clone has
+/// no `../shared`).
+pub fn check_contract(dir: &Path) -> bool {
+    let checker = Path::new(env!("CARGO_MANIFEST_DIR")).join("../shared/tools/check-outputs");
+    if !checker.exists() {
+        eprintln!(
+            "skipped the contract checker: {} is absent (no ../shared in this clone)",
+            checker.display()
+        );
+        return false;
+    }
+    let c = Command::new("python3")
+        .arg(&checker)
+        .arg(dir)
+        .output()
+        .expect("run python3");
+    assert!(
+        c.status.success(),
+        "check-outputs: {}{}",
+        String::from_utf8_lossy(&c.stdout),
+        String::from_utf8_lossy(&c.stderr)
+    );
+    true
+}
