@@ -31,6 +31,7 @@ pub mod integrate;
 pub mod pipeline;
 pub mod realign;
 pub mod report;
+pub mod results;
 pub mod simulate;
 pub mod survey;
 pub mod units;

@@ -11,13 +11,12 @@ use crate::export::elements::write_elements_csv;
 use crate::export::geojson::{ElementProps, GeoJsonError, GeoJsonInput, write_geojson};
 use crate::export::landxml::{LandXmlError, LandXmlFrame, LandXmlOptions, write_landxml};
 use crate::export::output_dir::{OutputDir, OutputError};
-use crate::export::stations::{DesignAtStation, GeoAtStation, StationExtras, write_stations_with};
-use crate::fit::{FitOptions, FitResult, fit};
+use crate::export::stations::{GeoAtStation, StationExtras, write_stations_with};
+use crate::fit::{FitOptions, fit};
 use crate::geometry::{Pose, bearing_to_heading};
-use crate::georef::{
-    ControlCheck, Georef, GeorefArgs, GeorefError, leave_one_out, prepare, write_checks_csv,
-};
-use crate::integrate::{IntegrateError, IntegrateOptions, Plan, integrate};
+use crate::georef::{Georef, GeorefArgs, GeorefError, leave_one_out, prepare, write_checks_csv};
+use crate::integrate::{IntegrateError, IntegrateOptions, integrate};
+pub use crate::results::Results;
 use crate::survey::read::{ReadOptions, SurveyError, read_survey_file};
 use crate::survey::{Rail, Setup, Survey};
 use std::path::{Path, PathBuf};
@@ -92,32 +91,6 @@ impl RunError {
             RunError::Survey(_) | RunError::Integrate(_) | RunError::Georef(_) => false,
         }
     }
-}
-
-/// All results of a run, before anything is written.
-#[derive(Debug, Clone)]
-pub struct Results {
-    /// The survey as read.
-    pub survey: Survey,
-    /// The set-up used.
-    pub setup: Setup,
-    /// The reconstructed plan.
-    pub plan: Plan,
-    /// The element fit, when it ran and succeeded.
-    pub fit: Option<FitResult>,
-    /// The design placed in the plan frame and its values at every station
-    /// (with `fit`).
-    pub design: Option<(crate::geometry::Alignment, Vec<DesignAtStation>)>,
-    /// The placement on the Earth, when one was asked for.
-    pub georef: Option<Georef>,
-    /// The verdict on each control point (empty without control points).
-    pub control_checks: Vec<ControlCheck>,
-    /// Slews onto the fitted design, when asked for and the fit succeeded.
-    pub slews: Option<crate::realign::Slews>,
-    /// Cant and speed advice, when asked for and the fit succeeded (advisory only).
-    pub advice: Option<crate::advice::Advice>,
-    /// Warnings and notes of every stage, in stage order.
-    pub diagnostics: Vec<Diagnostic>,
 }
 
 /// Run every stage on a survey already in memory (no file system).

@@ -4,7 +4,7 @@
 
 use super::svg::{Chart, Series};
 use crate::diag::Severity;
-use crate::pipeline::Results;
+use crate::results::Results;
 use std::fmt::Write as _;
 
 fn esc(s: &str) -> String {

@@ -10,7 +10,7 @@ pub use html::html_report;
 use crate::diag::Severity;
 use crate::geometry::heading_to_bearing;
 use crate::integrate::NoiseSource;
-use crate::pipeline::Results;
+use crate::results::Results;
 use crate::units::LengthUnit;
 use std::fmt::Write as _;
 
