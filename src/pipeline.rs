@@ -14,7 +14,7 @@ use crate::export::output_dir::{OutputDir, OutputError};
 use crate::export::stations::{GeoAtStation, StationExtras, write_stations_with};
 use crate::fit::{FitOptions, fit};
 use crate::geometry::{Pose, bearing_to_heading};
-use crate::georef::{Georef, GeorefArgs, GeorefError, leave_one_out, prepare, write_checks_csv};
+use crate::georef::{Georef, GeorefArgs, GeorefError, leave_one_out, prepare};
 use crate::integrate::{IntegrateError, IntegrateOptions, integrate};
 pub use crate::results::Results;
 use crate::survey::read::{ReadOptions, SurveyError, read_survey_file};
@@ -284,7 +284,7 @@ pub fn run(
     }
     if let Some(a) = &results.advice {
         dir.write_file("advice.csv", |w| {
-            crate::advice::write_advice_csv(w, a, unit)
+            crate::export::advice::write_advice_csv(w, a, unit)
         })?;
     }
     dir.write_file("report.html", |w| {
@@ -310,7 +310,7 @@ pub fn run(
         })?;
         if g.controls.is_some() {
             dir.write_file("controls.csv", |w| {
-                write_checks_csv(w, &results.control_checks)
+                crate::export::controls::write_checks_csv(w, &results.control_checks)
             })?;
         }
     }

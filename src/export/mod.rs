@@ -1,5 +1,9 @@
 //! Writing results: the only serialisation layer. Every writer takes `impl Write`.
 
+/// `advice.csv`: cant and speed advice (advisory only).
+pub mod advice;
+/// `controls.csv`: the verdict on each control point.
+pub mod controls;
 /// `elements.csv`: the fitted elements, and the terminal element table.
 pub mod elements;
 /// `alignment.geojson`: the placed survey as RFC 7946 GeoJSON.

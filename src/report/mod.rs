@@ -2,9 +2,11 @@
 //! self-contained HTML report. The library returns strings; the command-line
 //! tool prints or writes them.
 
+mod advice_text;
 mod html;
 pub mod svg;
 
+pub use advice_text::advice_text;
 pub use html::html_report;
 
 use crate::diag::Severity;
