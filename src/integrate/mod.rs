@@ -34,7 +34,7 @@ use crate::geometry::Pose;
 use crate::survey::{Marking, Rail, Setup, Survey};
 
 mod adjust;
-pub mod banded;
+mod banded;
 mod dense;
 mod noise;
 mod polygon;
