@@ -56,6 +56,7 @@
 //! ```
 
 pub mod advice;
+pub mod chord;
 pub mod diag;
 pub mod export;
 pub mod fit;

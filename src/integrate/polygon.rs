@@ -1,79 +1,8 @@
 //! The exact polygon of marks at the classic half-chord spacing (METHODS §2).
 
+use crate::chord::{curvature_from_versine, versine_from_curvature};
 use crate::survey::Marking;
 
-/// Largest `(1 − cos x)/x` over `x > 0` (at x ≈ 2.3311): a taped versine
-/// above this fraction of the half chord has no circle.
-const TAPED_MAX_RATIO: f64 = 0.724_611_353_776_708;
-
-/// Curvature (1/m, signed like `v`) of the circle on which a chord-side
-/// versine `v` (metres) is read with half chord `a` (metres): marks taped at
-/// arc length `a` either side (`v = (1 − cos κa)/κ`) or a straight wire of
-/// length `2a` (`v = R − √(R² − a²)`, so `κ = 2v/(a² + v²)`).
-/// `None` when no circle gives that versine (|v| too large for the chord).
-///
-/// # Examples
-/// ```
-/// use chordline::integrate::curvature_from_versine;
-/// use chordline::survey::Marking;
-/// // CHECKS.md 1.4: R = 500 m, c = 20 m: exact string 100.0100 mm, marks on the arc 99.9967 mm.
-/// let k = curvature_from_versine(0.100_010_0, 10.0, Marking::Wire).unwrap();
-/// assert!((1.0 / k - 500.0).abs() < 0.01);
-/// let k = curvature_from_versine(0.099_996_7, 10.0, Marking::Taped).unwrap();
-/// assert!((1.0 / k - 500.0).abs() < 0.01);
-/// ```
-pub fn curvature_from_versine(v: f64, a: f64, marking: Marking) -> Option<f64> {
-    if !(v.is_finite() && a.is_finite() && a > 0.0) {
-        return None;
-    }
-    if v == 0.0 {
-        return Some(0.0);
-    }
-    match marking {
-        Marking::Wire => (v.abs() <= a).then(|| 2.0 * v / (a * a + v * v)),
-        Marking::Taped => {
-            let r = v.abs() / a;
-            if r >= TAPED_MAX_RATIO {
-                return None;
-            }
-            // Solve f(x) = 2 sin²(x/2)/x = r by Newton from the small-angle guess.
-            let mut x = 2.0 * r;
-            for _ in 0..60 {
-                let sh = (0.5 * x).sin();
-                let f = 2.0 * sh * sh / x - r;
-                let df = (x * x.sin() - 2.0 * sh * sh) / (x * x);
-                if df <= 0.0 {
-                    return None;
-                }
-                let step = f / df;
-                x -= step;
-                if x.is_nan() || x <= 0.0 {
-                    return None;
-                }
-                if step.abs() <= 1e-16 * x {
-                    break;
-                }
-            }
-            Some(v.signum() * x / a)
-        }
-    }
-}
-
-/// Versine (metres) read on a circle of curvature `k` (1/m) with half chord
-/// `a`, for the given marking; the inverse of [`curvature_from_versine`].
-pub fn versine_from_curvature(k: f64, a: f64, marking: Marking) -> f64 {
-    if k == 0.0 {
-        return 0.0;
-    }
-    match marking {
-        Marking::Taped => {
-            let sh = (0.5 * k * a).sin();
-            2.0 * sh * sh / k
-        }
-        // R − √(R² − a²) without cancellation on gentle curves.
-        Marking::Wire => k * a * a / (1.0 + (1.0 - (k * a).powi(2)).max(0.0).sqrt()),
-    }
-}
 
 /// Chord of an arc of length `s` and curvature `k`.
 pub(crate) fn chord_of_arc(k: f64, s: f64) -> f64 {
