@@ -39,11 +39,11 @@ mod dense;
 mod noise;
 mod polygon;
 
-pub use noise::{detect_resolution, estimate_noise};
 pub use crate::chord::{
     curvature_from_versine, degree_of_curve, radius_from_degree_of_curve, radius_from_versine,
     radius_from_versine_approx, versine_from_curvature, versine_from_radius,
 };
+pub use noise::{detect_resolution, estimate_noise};
 
 /// A known position of the track centreline at a chainage, in the local plan
 /// frame (metres), used as an observation together with the versines.

@@ -3,7 +3,6 @@
 use crate::chord::{curvature_from_versine, versine_from_curvature};
 use crate::survey::Marking;
 
-
 /// Chord of an arc of length `s` and curvature `k`.
 pub(crate) fn chord_of_arc(k: f64, s: f64) -> f64 {
     let x = 0.5 * k * s;
