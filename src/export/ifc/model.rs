@@ -484,7 +484,7 @@ fn header(opts: &IfcOptions) -> Header {
     let (date, time) = crate::export::landxml::date_time(opts.created);
     let me = format!("chordline {}", env!("CARGO_PKG_VERSION"));
     Header {
-        view: "ViewDefinition [Alignment-basedReferenceView]".into(),
+        view: "ViewDefinition [Alignment-basedView]".into(),
         name: "alignment.ifc".into(),
         time_stamp: format!("{date}T{time}"),
         preprocessor: me.clone(),

@@ -227,7 +227,7 @@ impl Data {
 /// The HEADER section's values.
 #[derive(Debug, Clone)]
 pub struct Header {
-    /// The view definition, e.g. `ViewDefinition [Alignment-basedReferenceView]`.
+    /// The view definition, e.g. `ViewDefinition [Alignment-basedView]`.
     pub view: String,
     /// File name.
     pub name: String,
