@@ -10,7 +10,7 @@
 //!   nesting an `IfcAlignmentHorizontal` whose `IfcAlignmentSegment`s carry one
 //!   `IfcAlignmentHorizontalSegment` per fitted element (`LINE`, `CLOTHOID`,
 //!   `CIRCULARARC`): start point, start direction (counter-clockwise from the
-//!   x axis, radians), start and end radius (signed: positive turning
+//!   x axis, radians in [0, 2π)), start and end radius (signed: positive turning
 //!   counter-clockwise, i.e. left; 0 for a straight end) and length, then the
 //!   zero-length `LINE` the standard puts at the end of a layout;
 //! * the alignment's geometry, representation `Axis`/`Curve2D`: an
@@ -255,7 +255,7 @@ fn segments(alignment: &Alignment, frame: &Frame) -> Result<(Vec<Seg>, EndPose),
             kind: SegKind::of(e),
             x,
             y,
-            dir: fin(dir, &what)?,
+            dir: fin(dir, &what)?.rem_euclid(std::f64::consts::TAU),
             k0: fin(frame.unit.to_m(e.k_start) / scale, &what)?,
             k1: fin(frame.unit.to_m(e.k_end) / scale, &what)?,
             len: fin(frame.unit.from_m(e.length * scale), &what)?,
@@ -263,7 +263,8 @@ fn segments(alignment: &Alignment, frame: &Frame) -> Result<(Vec<Seg>, EndPose),
         });
         if i + 1 == els.len() {
             let (xe, ye) = frame.point(p1.x, p1.y, "end of the alignment")?;
-            end = (xe, ye, fin(p1.heading + (dir - p0.heading), &what)?);
+            let end_dir = fin(p1.heading + (dir - p0.heading), &what)?;
+            end = (xe, ye, end_dir.rem_euclid(std::f64::consts::TAU));
         }
     }
     Ok((segs, end))
