@@ -119,7 +119,12 @@ impl<'a> Diagrams<'a> {
         let st = &self.r.plan.stations;
         let mut c = self.chart(
             "Curvature of the centreline".into(),
-            format!("curvature (1/1000 {}), + = curving left", u.suffix()),
+            match u {
+                crate::units::LengthUnit::Metre => "curvature (1/km), + = curving left".to_string(),
+                crate::units::LengthUnit::Foot => {
+                    "curvature (1/1000 ft), + = curving left".to_string()
+                }
+            },
             range,
             label_joints,
         );
@@ -234,23 +239,30 @@ impl<'a> Diagrams<'a> {
                     style: Style::new(VERMILLION, Dash::DashDot, 1.6),
                 });
             }
-            let over: Vec<Mark> = sl
-                .exceeding()
-                .into_iter()
-                .map(|i| Mark {
-                    x: self.ch(sl.chainage[i]),
-                    y: self.v(sl.slew[i]),
-                    label: String::new(),
-                    vector: None,
-                })
-                .collect();
+            // The stretches beyond the limit, drawn as a thick line under the slew.
+            let over = sl.exceeding();
             if !over.is_empty() {
-                c.marks.push(MarkSet {
-                    name: "beyond the limit".into(),
-                    marker: Marker::Circle,
-                    colour: VERMILLION,
-                    marks: over,
-                });
+                let points = sl
+                    .chainage
+                    .iter()
+                    .zip(&sl.slew)
+                    .map(|(&ch, &s)| {
+                        let y = if s.abs() > sl.max_slew.unwrap_or(f64::INFINITY) {
+                            self.v(s)
+                        } else {
+                            f64::NAN
+                        };
+                        (self.ch(ch), y)
+                    })
+                    .collect();
+                c.series.insert(
+                    0,
+                    Series {
+                        name: format!("beyond the limit ({} readings)", over.len()),
+                        points,
+                        style: Style::new(VERMILLION, Dash::Solid, 5.0),
+                    },
+                );
             }
         }
         let fixed = self.fixed_points();

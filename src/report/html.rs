@@ -32,7 +32,7 @@ th,td{border:1px solid #b8b8b8;padding:.3em .5em;vertical-align:top}\
 th{background:#ececec;text-align:left}\
 table.facts{width:100%}table.facts th{width:8.5em}\
 table.num td{text-align:right;font-variant-numeric:tabular-nums}table.num td.k{text-align:left}\
-tr.arc td{background:#f3f3f3}tr{break-inside:avoid;page-break-inside:avoid}\
+tr.arc td{background:#f3f3f3}tr.flag td{font-size:.9em;border-top:none}tr{break-inside:avoid;page-break-inside:avoid}\
 .pm{font-size:.86em;color:#3a3a3a;white-space:nowrap}.cut{font-size:.84em;font-style:italic}\
 code{font-family:monospace;font-size:.92em}code.cmd{white-space:pre-wrap;overflow-wrap:anywhere}\
 .comments{font-family:monospace;font-size:.9em;white-space:pre-wrap;overflow-wrap:anywhere}\
@@ -108,6 +108,9 @@ fn head(h: &mut String, r: &Results, rec: &RunRecord) {
         h,
         "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><meta name=\"viewport\" content=\"width=device-width, initial-scale=1\"><title>chordline report: {t}</title><style>{CSS}</style></head><body><main>\n<h1>Track alignment from versines</h1>\n<p class=\"sub\"><code>{t}</code>"
     );
+    if let Some(first) = rec.header_comments.iter().find(|c| !c.is_empty()) {
+        let _ = write!(h, " · {}", esc(first));
+    }
     if let Some((time, _)) = &rec.date {
         let (d, _) = crate::export::landxml::date_time(*time);
         let _ = write!(h, " · {d}");
@@ -129,10 +132,9 @@ pub fn html_report(r: &Results, rec: &RunRecord) -> String {
     let mut h = String::new();
     head(&mut h, r, rec);
     let mut toc = vec![
-        ("run", "How it was made"),
         ("summary", "Summary"),
-        ("elements", "Elements"),
         ("track", "Along the track"),
+        ("elements", "Elements"),
         ("plan", "Plan"),
         ("uncertainty", "Uncertainty"),
     ];
@@ -142,6 +144,7 @@ pub fn html_report(r: &Results, rec: &RunRecord) -> String {
     if r.advice.is_some() {
         toc.push(("advice", "Cant and speed advice"));
     }
+    toc.push(("run", "How it was made"));
     if !r.diagnostics.is_empty() {
         toc.push(("notes", "Warnings and notes"));
     }
@@ -150,19 +153,7 @@ pub fn html_report(r: &Results, rec: &RunRecord) -> String {
         let _ = write!(h, "<a href=\"#{id}\">{name}</a>");
     }
     h.push_str("</nav>\n");
-    let _ = write!(
-        h,
-        "<h2 id=\"run\">How it was made</h2>\n{}<h2 id=\"summary\">Summary</h2>\n{}",
-        tables::about(r, rec),
-        tables::summary(r)
-    );
-    if let Some(f) = &r.fit {
-        let _ = write!(
-            h,
-            "<h2 id=\"elements\">Elements</h2>\n{}",
-            tables::elements(f, u)
-        );
-    }
+    let _ = write!(h, "<h2 id=\"summary\">Summary</h2>\n{}", tables::summary(r));
     let d = Diagrams::new(r);
     h.push_str("<h2 id=\"track\">Along the track</h2>\n<p class=\"note\">Above each diagram: the fitted elements with their radius and length (as many words as there is room for; the element table has them all). Through it: arcs shaded, transitions hatched, each joint a line inside its grey 95&nbsp;% interval.</p>\n");
     let st = &r.plan.stations;
@@ -174,6 +165,13 @@ pub fn html_report(r: &Results, rec: &RunRecord) -> String {
         along_track(&mut h, &d, None);
     } else {
         sectioned(&mut h, &d, &parts, lu);
+    }
+    if let Some(f) = &r.fit {
+        let _ = write!(
+            h,
+            "<h2 id=\"elements\">Elements</h2>\n{}",
+            tables::elements(f, u)
+        );
     }
     let (plan, caption) = d.plan();
     h.push_str("<h2 id=\"plan\">Plan</h2>\n");
@@ -198,6 +196,11 @@ pub fn html_report(r: &Results, rec: &RunRecord) -> String {
             tables::advice(a, u)
         );
     }
+    let _ = write!(
+        h,
+        "<h2 id=\"run\">How it was made</h2>\n{}",
+        tables::about(r, rec)
+    );
     if let Some(t) = tables::diagnostics(r) {
         let _ = write!(h, "<h2 id=\"notes\">Warnings and notes</h2>\n{t}");
     }

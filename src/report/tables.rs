@@ -133,7 +133,13 @@ pub(super) fn summary(r: &Results) -> String {
     h.push_str("</table>\n");
     if let (Some(t), Some(f)) = (&table, &r.fit) {
         h.push_str("<ul class=\"stats\">\n");
-        for line in t.lines().skip(1 + f.elements.len()) {
+        // The terminal table's closing note concerns its own marks; the
+        // HTML element table has its own note.
+        for line in t
+            .lines()
+            .skip(1 + f.elements.len())
+            .filter(|l| !l.starts_with("Chainages along"))
+        {
             let _ = writeln!(h, "<li>{}</li>", esc(line));
         }
         h.push_str("</ul>\n");
@@ -244,56 +250,96 @@ pub(super) fn controls(r: &Results) -> Option<String> {
     Some(h)
 }
 
-fn advice_row(r: &AdviceRow, a: &Advice, u: LengthUnit) -> String {
-    let au = a.options.profile.units;
-    let c = |x: Option<f64>| {
+/// Formatting of advice values in the profile's units.
+struct AdviceFmt {
+    cant_scale: f64,
+    cant_decimals: usize,
+    speed_scale: f64,
+    unit: LengthUnit,
+}
+
+impl AdviceFmt {
+    fn cant(&self, x: Option<f64>) -> String {
         x.map_or("—".to_string(), |v| {
-            format!("{:.*}", au.cant_decimals(), v / au.cant_scale())
+            format!("{:.*}", self.cant_decimals, v / self.cant_scale)
         })
-    };
-    let s = |x: Option<f64>| {
+    }
+    fn speed(&self, x: Option<f64>) -> String {
         x.map_or("—".to_string(), |v| {
-            format!("{:.0}", v / au.speed_scale())
+            format!("{:.0}", v / self.speed_scale)
         })
-    };
-    let l = |x: f64| format!("{:.1}", u.from_m(x));
-    let radius = match (&r.radius, r.radius_used) {
-        (Some(e), Some(used)) => format!(
-            "{:.0}<br><span class=\"pm\">uses {:.0}</span>",
-            u.from_m(e.value),
-            u.from_m(used)
-        ),
-        (Some(e), None) => format!(
-            "{:.0}<br><span class=\"pm\">not determined</span>",
-            u.from_m(e.value)
-        ),
-        _ => "—".into(),
-    };
-    let required = r.required_length.map_or("—".to_string(), |(len, rule)| {
-        format!("{}<br><span class=\"pm\">{}</span>", l(len), esc(rule))
-    });
-    let flags: Vec<String> = r.flags.iter().map(|f| esc(f)).collect();
-    format!(
-        "<tr><td>{}</td><td class=\"k\">{}</td><td>{}–{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td class=\"k\">{}</td></tr>",
-        r.element,
-        r.kind.name(),
-        l(r.start_chainage),
-        l(r.end_chainage),
-        radius,
-        s(r.speed),
-        c(r.equilibrium_cant),
-        c(r.min_applied_cant),
-        c(r.deficiency),
-        s(r.max_speed),
-        s(r.max_speed_no_cant),
-        s(r.max_speed_cant_limit),
-        required,
-        if flags.is_empty() {
-            String::new()
-        } else {
-            format!("<b>{}</b>", flags.join("; "))
+    }
+    fn len(&self, x: f64) -> String {
+        format!("{:.1}", self.unit.from_m(x))
+    }
+    fn radius(&self, r: &AdviceRow) -> String {
+        let u = self.unit;
+        match (&r.radius, r.radius_used) {
+            (Some(e), Some(used)) => format!(
+                "{:.0}<br><span class=\"pm\">uses {:.0}</span>",
+                u.from_m(e.value),
+                u.from_m(used)
+            ),
+            (Some(e), None) => format!(
+                "{:.0}<br><span class=\"pm\">not determined</span>",
+                u.from_m(e.value)
+            ),
+            _ => "—".into(),
         }
-    )
+    }
+    /// The row's flags on a row of their own under it.
+    fn flags(r: &AdviceRow, columns: usize) -> String {
+        if r.flags.is_empty() {
+            return String::new();
+        }
+        let flags: Vec<String> = r.flags.iter().map(|f| esc(f)).collect();
+        format!(
+            "<tr class=\"flag\"><td></td><td class=\"k\" colspan=\"{}\"><b>flag:</b> {}</td></tr>\n",
+            columns - 1,
+            flags.join("; ")
+        )
+    }
+
+    fn arc_row(&self, r: &AdviceRow) -> String {
+        format!(
+            "<tr><td>{}</td><td>{}–{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>\n{}",
+            r.element,
+            self.len(r.start_chainage),
+            self.len(r.end_chainage),
+            self.radius(r),
+            self.speed(r.speed),
+            self.cant(r.equilibrium_cant),
+            self.cant(r.min_applied_cant),
+            self.cant(r.deficiency),
+            self.speed(r.max_speed),
+            self.speed(r.max_speed_no_cant),
+            self.speed(r.max_speed_cant_limit),
+            Self::flags(r, 10)
+        )
+    }
+
+    fn transition_row(&self, r: &AdviceRow) -> String {
+        let required = r.required_length.map_or("—".to_string(), |(len, rule)| {
+            format!(
+                "{}<br><span class=\"pm\">{}</span>",
+                self.len(len),
+                esc(rule)
+            )
+        });
+        format!(
+            "<tr><td>{}</td><td>{}–{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>\n{}",
+            r.element,
+            self.len(r.start_chainage),
+            self.len(r.end_chainage),
+            self.len(r.length.value),
+            self.radius(r),
+            self.speed(r.speed),
+            self.cant(r.cant_change),
+            self.cant(r.deficiency_change),
+            required,
+            Self::flags(r, 8)
+        )
+    }
 }
 
 /// Cant and speed advice: the caution, the limits with their sources, one
@@ -328,15 +374,43 @@ pub(super) fn advice(a: &Advice, u: LengthUnit) -> String {
         h.push_str("<p>No arcs or transitions were fitted: nothing to advise on.</p>\n");
         return h;
     }
-    let _ = writeln!(
-        h,
-        "<div class=\"wide\"><table class=\"num\"><thead><tr><th>#</th><th>element</th><th>chainage ({lu})</th><th>radius ({lu})</th><th>speed ({su})</th><th>equilibrium cant ({cu})</th><th>least applied cant ({cu})</th><th>deficiency ({cu})</th><th>max speed, applied cant</th><th>max speed, no cant</th><th>max speed, cant limit</th><th>least transition length ({lu})</th><th>flags</th></tr></thead><tbody>"
-    );
-    for r in &a.rows {
-        h.push_str(&advice_row(r, a, u));
-        h.push('\n');
+    let f = AdviceFmt {
+        cant_scale: au.cant_scale(),
+        cant_decimals: au.cant_decimals(),
+        speed_scale: au.speed_scale(),
+        unit: u,
+    };
+    let arcs: Vec<&AdviceRow> = a
+        .rows
+        .iter()
+        .filter(|r| r.kind == ElementKind::Arc)
+        .collect();
+    if !arcs.is_empty() {
+        let _ = writeln!(
+            h,
+            "<h3>Arcs</h3>\n<div class=\"wide\"><table class=\"num\"><thead><tr><th>#</th><th>chainage ({lu})</th><th>radius ({lu})</th><th>speed ({su})</th><th>equilibrium cant ({cu})</th><th>least applied cant ({cu})</th><th>deficiency ({cu})</th><th>highest speed with the applied cant ({su})</th><th>with no cant ({su})</th><th>with the largest cant ({su})</th></tr></thead><tbody>"
+        );
+        for r in arcs {
+            h.push_str(&f.arc_row(r));
+        }
+        h.push_str("</tbody></table></div>\n");
     }
-    h.push_str("</tbody></table></div>\n<p class=\"note\">Radii at the tighter end of their 95&nbsp;% interval; speeds rounded down to 5. A dash: does not apply or not determined. The same figures are in <code>advice.csv</code>.</p>\n");
+    let transitions: Vec<&AdviceRow> = a
+        .rows
+        .iter()
+        .filter(|r| r.kind != ElementKind::Arc)
+        .collect();
+    if !transitions.is_empty() {
+        let _ = writeln!(
+            h,
+            "<h3>Transitions</h3>\n<div class=\"wide\"><table class=\"num\"><thead><tr><th>#</th><th>chainage ({lu})</th><th>length ({lu})</th><th>radius at the tighter end ({lu})</th><th>speed ({su})</th><th>change of cant ({cu})</th><th>change of deficiency ({cu})</th><th>least length by the rules ({lu})</th></tr></thead><tbody>"
+        );
+        for r in transitions {
+            h.push_str(&f.transition_row(r));
+        }
+        h.push_str("</tbody></table></div>\n");
+    }
+    h.push_str("<p class=\"note\"># is the element number. Radii at the tighter end of their 95&nbsp;% interval; speeds rounded down to 5. A dash: does not apply or not determined. The same figures are in <code>advice.csv</code>.</p>\n");
     h
 }
 
