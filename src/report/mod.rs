@@ -184,7 +184,7 @@ pub fn summary_short(r: &Results) -> String {
     };
     let _ = writeln!(
         s,
-        "survey   {}: {} readings from {:.1} to {:.1} {lu} ({:.3} {lu} long)",
+        "survey   {}: {} readings from {:.1} to {:.1} {lu} ({:.1} {lu} long)",
         r.survey.source,
         r.survey.readings.len(),
         u.from_m(first.chainage),
