@@ -278,7 +278,7 @@ impl<'a> Diagrams<'a> {
         );
         if band_reach > top {
             caption.push_str(&format!(
-                " The ± 2 sd band reaches {band_reach:.0} {vs} and is cut at the plot edge so that the slews stay readable; read slew_sd in stations.csv."
+                " The ± 2 sd band reaches {band_reach:.0} {vs} and is cut at the plot edge so that the slews stay readable; read slew_sd_mm (or slew_sd_in) in stations.csv."
             ));
         }
         Some((c.to_svg(), caption))

@@ -216,7 +216,7 @@ impl Strip {
                 last = px;
                 let _ = write!(
                     o,
-                    r##"<text transform="translate({:.1} {:.1}) rotate(-90)" font-size="10">{}</text>"##,
+                    r##"<text transform="translate({:.1} {:.1}) rotate(-90)" font-size="10.5">{}</text>"##,
                     px + 3.5,
                     f.top - 3.0,
                     esc(&j.label)
