@@ -75,14 +75,15 @@ impl<'a> Diagrams<'a> {
         }
     }
 
-    /// Measured and design versines.
-    pub(super) fn versines(&self, range: Range, label_joints: bool) -> String {
+    /// Measured and design versines; an `overview` (a long survey drawn
+    /// whole) has the measured line only and no joint chainages.
+    pub(super) fn versines(&self, range: Range, overview: bool) -> String {
         let st = &self.r.plan.stations;
         let mut c = self.chart(
             "Versines".into(),
             format!("versine ({}), + = rail bows away from wire", self.vs()),
             range,
-            label_joints,
+            !overview,
         );
         c.series.push(Series {
             name: "measured".into(),
@@ -97,7 +98,7 @@ impl<'a> Diagrams<'a> {
                 .collect(),
             style: MEASURED,
         });
-        if let Some((_, d)) = &self.r.design {
+        if let Some((_, d)) = self.r.design.as_ref().filter(|_| !overview) {
             c.series.push(Series {
                 name: "design (fitted elements)".into(),
                 points: st
@@ -111,8 +112,9 @@ impl<'a> Diagrams<'a> {
         c.to_svg()
     }
 
-    /// Curvature from the versines and of the fitted elements.
-    pub(super) fn curvature(&self, range: Range, label_joints: bool) -> String {
+    /// Curvature from the versines and of the fitted elements; an
+    /// `overview` has the fitted line only (solid) and no joint chainages.
+    pub(super) fn curvature(&self, range: Range, overview: bool) -> String {
         let u = self.r.survey.chainage_unit;
         // 1/km or 1/(1000 ft): curvature per thousand chainage units.
         let per = 1000.0 * u.metres();
@@ -126,16 +128,18 @@ impl<'a> Diagrams<'a> {
                 }
             },
             range,
-            label_joints,
+            !overview,
         );
-        c.series.push(Series {
-            name: "from the versines".into(),
-            points: st
-                .iter()
-                .map(|s| (self.ch(s.chainage), s.curvature * per))
-                .collect(),
-            style: MEASURED,
-        });
+        if !(overview && self.r.design.is_some()) {
+            c.series.push(Series {
+                name: "from the versines".into(),
+                points: st
+                    .iter()
+                    .map(|s| (self.ch(s.chainage), s.curvature * per))
+                    .collect(),
+                style: MEASURED,
+            });
+        }
         if let (Some(f), Some((placed, _))) = (&self.r.fit, &self.r.design) {
             c.series.push(Series {
                 name: "fitted elements".into(),
@@ -146,7 +150,11 @@ impl<'a> Diagrams<'a> {
                         (self.ch(s.chainage), k * per)
                     })
                     .collect(),
-                style: DESIGN,
+                style: if overview {
+                    Style::new(VERMILLION, Dash::Solid, 1.3)
+                } else {
+                    DESIGN
+                },
             });
         }
         c.to_svg()

@@ -62,8 +62,8 @@ const SLEW_CAUTION: &str = "<p class=\"caution\"><b>Caution.</b> Slews are indic
 
 /// Versines, curvature, residuals and slews over one range.
 fn along_track(h: &mut String, d: &Diagrams<'_>, range: Range) {
-    h.push_str(&figure(&d.versines(range, true), None));
-    h.push_str(&figure(&d.curvature(range, true), None));
+    h.push_str(&figure(&d.versines(range, false), None));
+    h.push_str(&figure(&d.curvature(range, false), None));
     if let Some(s) = d.residuals(range) {
         h.push_str(&figure(&s, None));
     }
@@ -80,8 +80,8 @@ fn sectioned(h: &mut String, d: &Diagrams<'_>, parts: &[Section], lu: &str) {
         parts.len()
     );
     h.push_str("<h3>Overview of the whole survey</h3>\n");
-    h.push_str(&figure(&d.versines(None, false), None));
-    h.push_str(&figure(&d.curvature(None, false), None));
+    h.push_str(&figure(&d.versines(None, true), None));
+    h.push_str(&figure(&d.curvature(None, true), None));
     h.push_str("<nav class=\"toc\">Sections: ");
     for (i, s) in parts.iter().enumerate() {
         let _ = write!(h, "<a href=\"#s{}\">{:.0}–{:.0}</a> ", i + 1, s.from, s.to);

@@ -148,6 +148,18 @@ impl Strip {
         BLOCK_H + 6.0 + if self.label_joints { JOINT_ROW } else { 0.0 }
     }
 
+    /// Whether the joints in `x0..x1` are too close to draw on a plot `pw`
+    /// wide (under 6 px apart on average): the strip then shows the shading
+    /// only, without borders, labels or joint lines.
+    pub fn dense(&self, x0: f64, x1: f64, pw: f64) -> bool {
+        let n = self
+            .joints
+            .iter()
+            .filter(|j| j.x >= x0 && j.x <= x1)
+            .count();
+        n as f64 * 6.0 > pw
+    }
+
     /// Whether any element is an arc.
     pub fn has_arcs(&self) -> bool {
         self.blocks.iter().any(|b| b.kind == ElementKind::Arc)
@@ -171,6 +183,12 @@ impl Strip {
     /// The blocks, their labels and the joint chainages, above the plot.
     pub fn draw_above(&self, o: &mut String, f: &Frame, id: &str) {
         let top = f.top - self.height();
+        let dense = self.dense(f.x0, f.x1, f.pw);
+        let stroke = if dense {
+            r#"stroke="none""#
+        } else {
+            r##"stroke="#666" stroke-width="0.8""##
+        };
         for b in &self.blocks {
             let (a, c) = (b.x0.max(f.x0), b.x1.min(f.x1));
             if c <= a {
@@ -179,10 +197,13 @@ impl Strip {
             let (px0, px1) = (f.sx(a), f.sx(c));
             let _ = write!(
                 o,
-                r##"<rect x="{px0:.1}" y="{top:.1}" width="{:.1}" height="{BLOCK_H}" {} stroke="#666" stroke-width="0.8"/>"##,
+                r##"<rect x="{px0:.1}" y="{top:.1}" width="{:.1}" height="{BLOCK_H}" {} {stroke}/>"##,
                 px1 - px0,
                 Self::fill(b.kind, id)
             );
+            if dense {
+                continue;
+            }
             if b.cut_start && b.x0 >= f.x0 {
                 ragged(o, px0, top);
             }
@@ -203,7 +224,14 @@ impl Strip {
                 }
             }
         }
-        if self.label_joints {
+        if dense {
+            let _ = write!(
+                o,
+                r##"<rect x="{:.1}" y="{top:.1}" width="{:.1}" height="{BLOCK_H}" fill="none" stroke="#666" stroke-width="0.8"/>"##,
+                f.left, f.pw
+            );
+        }
+        if self.label_joints && !dense {
             let mut last = f64::NEG_INFINITY;
             for j in &self.joints {
                 if !(j.x >= f.x0 && j.x <= f.x1) {
@@ -245,6 +273,9 @@ impl Strip {
                 Self::fill(b.kind, id).replace("0.09", "0.06")
             );
         }
+        if self.dense(f.x0, f.x1, f.pw) {
+            return;
+        }
         for j in &self.joints {
             if !(j.hi >= f.x0 && j.lo <= f.x1) {
                 continue;
@@ -276,4 +307,50 @@ fn ragged(o: &mut String, x: f64, top: f64) {
         o,
         r##"<path d="{d}" fill="none" stroke="#000" stroke-width="1.6"/>"##
     );
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn strip(joints: usize) -> Strip {
+        Strip {
+            blocks: Vec::new(),
+            joints: (0..joints)
+                .map(|i| {
+                    let x = 1000.0 * (i as f64 + 0.5) / joints as f64;
+                    Joint {
+                        x,
+                        lo: x - 1.0,
+                        hi: x + 1.0,
+                        label: String::new(),
+                    }
+                })
+                .collect(),
+            label_joints: true,
+        }
+    }
+
+    #[test]
+    fn joints_closer_than_six_pixels_are_not_drawn() {
+        assert!(!strip(10).dense(0.0, 1000.0, 740.0));
+        assert!(strip(200).dense(0.0, 1000.0, 740.0));
+        // The same joints are drawn on a section a tenth as long.
+        assert!(!strip(200).dense(0.0, 100.0, 740.0));
+        let f = Frame {
+            x0: 0.0,
+            x1: 1000.0,
+            y0: 0.0,
+            y1: 1.0,
+            left: 60.0,
+            top: 100.0,
+            pw: 740.0,
+            ph: 200.0,
+        };
+        let (mut sparse, mut dense) = (String::new(), String::new());
+        strip(10).draw_in_plot(&mut sparse, &f, "t");
+        strip(200).draw_in_plot(&mut dense, &f, "t");
+        assert_eq!(sparse.matches("<line").count(), 10);
+        assert_eq!(dense.matches("<line").count(), 0);
+    }
 }

@@ -24,7 +24,7 @@ use std::fmt::Write as _;
 /// Drawing width of every chart (SVG user units; the page scales it).
 pub const W: f64 = 820.0;
 const ML: f64 = 64.0;
-const MR: f64 = 14.0;
+const MR: f64 = 24.0;
 const PLOT_H: f64 = 220.0;
 const LEGEND_ROW: f64 = 17.0;
 const FONT: f64 = 12.0;
@@ -299,7 +299,7 @@ impl Chart<'_> {
         e
     }
 
-    fn legend_entries(&self) -> Vec<(String, Swatch)> {
+    fn legend_entries(&self, dense: bool) -> Vec<(String, Swatch)> {
         let mut v: Vec<(String, Swatch)> = Vec::new();
         for s in &self.series {
             v.push((s.name.clone(), Swatch::Line(s.style)));
@@ -315,7 +315,12 @@ impl Chart<'_> {
         for m in &self.marks {
             v.push((m.name.clone(), Swatch::Mark(m.marker, m.colour)));
         }
-        for m in &self.vmarks {
+        let shown = |x: f64| self.x_range.is_none_or(|(a, b)| x >= a && x <= b);
+        for m in self
+            .vmarks
+            .iter()
+            .filter(|m| m.at.iter().any(|p| shown(p.0)))
+        {
             v.push((m.name.clone(), Swatch::Mark(Marker::Triangle, m.colour)));
         }
         if let Some(s) = self.strip {
@@ -325,7 +330,7 @@ impl Chart<'_> {
             if s.has_transitions() {
                 v.push(("transition (hatched)".into(), Swatch::Hatch));
             }
-            if !s.joints.is_empty() {
+            if !s.joints.is_empty() && !dense {
                 v.push(("joint, 95 % interval".into(), Swatch::Joint));
             }
         }
@@ -334,10 +339,10 @@ impl Chart<'_> {
 
     /// Lay the legend out in rows across the width; returns the entries
     /// with their (x, row) and the number of rows.
-    fn legend_layout(&self) -> (Vec<(String, Swatch, f64, usize)>, usize) {
+    fn legend_layout(&self, dense: bool) -> (Vec<(String, Swatch, f64, usize)>, usize) {
         let mut out = Vec::new();
         let (mut x, mut row) = (ML, 0);
-        for (name, sw) in self.legend_entries() {
+        for (name, sw) in self.legend_entries(dense) {
             let w = 30.0 + text_width(&name, FONT) + 18.0;
             if x + w > W - MR && x > ML {
                 x = ML;
@@ -354,10 +359,11 @@ impl Chart<'_> {
     pub fn to_svg(&self) -> String {
         let series = self.prepared();
         let mut e = self.extent(&series);
-        let (legend, rows) = self.legend_layout();
+        let pw = W - ML - MR;
+        let dense = self.strip.is_some_and(|s| s.dense(e.x0, e.x1, pw));
+        let (legend, rows) = self.legend_layout(dense);
         let strip_h = self.strip.map_or(0.0, |s| s.height());
         let top = 26.0 + LEGEND_ROW * rows as f64 + 4.0 + strip_h;
-        let pw = W - ML - MR;
         let ph = if self.equal_axes {
             // Tall enough for the route's shape, within reason.
             let aspect = (e.y1 - e.y0) / (e.x1 - e.x0);
@@ -774,7 +780,7 @@ mod tests {
                 .collect(),
             ..Default::default()
         };
-        let (legend, rows) = c.legend_layout();
+        let (legend, rows) = c.legend_layout(false);
         assert!(rows >= 3, "eight long entries wrap over several rows");
         assert!(legend.iter().all(|l| l.2 + 30.0 < W));
         let svg = c.to_svg();
