@@ -28,6 +28,7 @@ use crate::units::{LengthUnit, VersineUnit};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use rand_distr::{Distribution, Normal};
+use serde::de::IgnoredAny;
 use std::io::{self, Write};
 
 /// How the simulated survey is taken.
@@ -134,6 +135,48 @@ pub enum SimulateError {
         /// The value given.
         value: f64,
     },
+    /// The design and spacing would give more marks than simulate writes.
+    #[error(
+        "the design is {length:.0} m long along the rail with a mark every {spacing} m, {marks} marks: more than the {max} that simulate writes; shorten the design or widen --spacing"
+    )]
+    TooManyMarks {
+        /// Rail length, metres.
+        length: f64,
+        /// Mark spacing, metres.
+        spacing: f64,
+        /// Marks it would take.
+        marks: f64,
+        /// The most allowed.
+        max: usize,
+    },
+    /// A curve sharper than the chord and the rail offset can be laid on.
+    #[error(
+        "element {element} has a radius of {radius} m, too sharp for a chord of {chord} m read {offset} m from the centreline: the chord would not fit on the rail; give radii of at least {min} m"
+    )]
+    TooSharp {
+        /// 1-based element number.
+        element: usize,
+        /// The sharpest radius in it, metres.
+        radius: f64,
+        /// Chord, metres.
+        chord: f64,
+        /// Rail offset from the centreline, metres.
+        offset: f64,
+        /// The smallest radius allowed, metres.
+        min: f64,
+    },
+    /// A start chainage so large that marks a spacing apart would share a chainage.
+    #[error(
+        "start_chainage_m {value} is too large: at that size marks {spacing} m apart cannot be told apart in a chainage; give a start chainage of at most {max} m"
+    )]
+    HugeChainage {
+        /// The value given.
+        value: f64,
+        /// Mark spacing, metres.
+        spacing: f64,
+        /// The largest allowed.
+        max: f64,
+    },
     /// A fixed-length wire could not be placed (curve too sharp for the chord).
     #[error(
         "a {chord} m wire cannot rest on the rail at chainage {chainage:.3} m: the curve is too sharp for this chord"
@@ -232,6 +275,7 @@ impl SimSetup {
 /// [`SimulateError`] when the set-up is inconsistent or the design too short.
 pub fn simulate(design: &Alignment, setup: &SimSetup) -> Result<Simulated, SimulateError> {
     check_setup(setup)?;
+    check_limits(design, setup)?;
     let m = setup.steps_per_half_chord().ok_or_else(|| {
         let half = 0.5 * setup.chord;
         SimulateError::SpacingDoesNotFit {
@@ -357,6 +401,58 @@ fn check_setup(s: &SimSetup) -> Result<(), SimulateError> {
         return Err(SimulateError::BadImperfection {
             what: "the bias",
             value: s.bias,
+        });
+    }
+    Ok(())
+}
+
+/// The most marks one simulation writes (ten times the million readings of a
+/// 250 km recording-vehicle route, about a gigabyte of truth in memory).
+pub const MAX_MARKS: usize = 10_000_000;
+
+/// The largest start chainage: beyond it, doubles lose the millimetres of
+/// a chainage (a double has 15–16 significant digits).
+pub const MAX_START_CHAINAGE: f64 = 1e9;
+
+/// Refuse designs the simulation cannot measure honestly: too many marks,
+/// curves too sharp for the chord on the offset rail, chainages too large to
+/// keep marks apart.
+fn check_limits(design: &Alignment, s: &SimSetup) -> Result<(), SimulateError> {
+    let length = design.length();
+    let marks = length / s.spacing + 1.0;
+    if marks.is_nan() || marks > MAX_MARKS as f64 {
+        return Err(SimulateError::TooManyMarks {
+            length,
+            spacing: s.spacing,
+            marks: marks.round(),
+            max: MAX_MARKS,
+        });
+    }
+    let offset = 0.5 * s.gauge;
+    // The chord's half must fit inside the rail's circle with room to spare
+    // (a wire of length c on a circle of radius R needs c < 2R).
+    let min = 0.5 * s.chord + offset;
+    for (i, e) in design.elements().iter().enumerate() {
+        let k = e.k_start.abs().max(e.k_end.abs());
+        if k > 0.0 && 1.0 / k < min {
+            return Err(SimulateError::TooSharp {
+                element: i + 1,
+                radius: 1.0 / k,
+                chord: s.chord,
+                offset,
+                min,
+            });
+        }
+    }
+    let first = design.start_chainage().abs().max(s.start_chainage.abs());
+    let far = first + length;
+    // Keep a millionth of the spacing resolvable at the far end.
+    let ulp = far * f64::EPSILON;
+    if far.is_nan() || far > MAX_START_CHAINAGE || ulp > 1e-6 * s.spacing {
+        return Err(SimulateError::HugeChainage {
+            value: s.start_chainage,
+            spacing: s.spacing,
+            max: MAX_START_CHAINAGE,
         });
     }
     Ok(())
@@ -572,6 +668,18 @@ pub enum DesignError {
         /// The parser's message.
         msg: String,
     },
+    /// A key the design format does not have (often a misspelling).
+    #[error("{file}: line {line}, column {column}: {msg}")]
+    UnknownKey {
+        /// File name.
+        file: String,
+        /// 1-based line.
+        line: usize,
+        /// 1-based column.
+        column: usize,
+        /// What is wrong and what to do.
+        msg: String,
+    },
     /// A value is missing or of the wrong kind.
     #[error("{file}: {place}: {msg}")]
     Bad {
@@ -605,6 +713,81 @@ pub struct Design {
     pub setup: SimSetup,
 }
 
+/// The keys a design file may have (values are read by [`Design::from_json`]):
+/// a derived type with `deny_unknown_fields`, so that a misspelt key
+/// (`radus`, `chord`) is refused with its line and column instead of being
+/// ignored.
+#[derive(serde::Deserialize)]
+#[serde(deny_unknown_fields)]
+#[allow(dead_code, reason = "only the names of the keys are checked here")]
+struct DesignKeys {
+    elements: Option<Vec<serde_json::Value>>,
+    chord_m: Option<IgnoredAny>,
+    spacing_m: Option<IgnoredAny>,
+    rail: Option<IgnoredAny>,
+    gauge_m: Option<IgnoredAny>,
+    noise_mm: Option<IgnoredAny>,
+    bias_mm: Option<IgnoredAny>,
+    resolution_mm: Option<IgnoredAny>,
+    irregularity_mm: Option<IgnoredAny>,
+    seed: Option<IgnoredAny>,
+    units: Option<IgnoredAny>,
+    marking: Option<IgnoredAny>,
+    start_chainage_m: Option<IgnoredAny>,
+    /// Free text for the reader of the file.
+    description: Option<IgnoredAny>,
+}
+
+/// The keys an element may have.
+#[derive(serde::Deserialize)]
+#[serde(deny_unknown_fields)]
+#[allow(dead_code, reason = "only the names of the keys are checked here")]
+struct ElementKeys {
+    kind: Option<IgnoredAny>,
+    length: Option<IgnoredAny>,
+    radius: Option<IgnoredAny>,
+    r_start: Option<IgnoredAny>,
+    r_end: Option<IgnoredAny>,
+}
+
+/// Refuse unknown keys, at the top level (with line and column) and in each
+/// element. Errors of other kinds are left to the reading that follows.
+fn check_design_keys(file: &str, text: &str) -> Result<(), DesignError> {
+    let unknown = |e: &serde_json::Error| e.to_string().starts_with("unknown field");
+    let hint = "check the spelling, or remove the key (the keys are listed in the README, section Design files)";
+    let keys: DesignKeys = match serde_json::from_str(text) {
+        Ok(k) => k,
+        Err(e) if unknown(&e) => {
+            let msg = e.to_string();
+            let msg = msg
+                .split(" at line ")
+                .next()
+                .unwrap_or(&msg)
+                .replace('`', "\"");
+            return Err(DesignError::UnknownKey {
+                file: file.to_string(),
+                line: e.line(),
+                column: e.column(),
+                msg: format!("{msg}; {hint}"),
+            });
+        }
+        Err(_) => return Ok(()),
+    };
+    for (i, el) in keys.elements.iter().flatten().enumerate() {
+        if let Err(e) = serde_json::from_value::<ElementKeys>(el.clone())
+            && unknown(&e)
+        {
+            let msg = e.to_string().replace('`', "\"");
+            return Err(DesignError::Bad {
+                file: file.to_string(),
+                place: format!("element {}", i + 1),
+                msg: format!("{msg}; {hint}"),
+            });
+        }
+    }
+    Ok(())
+}
+
 impl Design {
     /// The design centreline placed at the origin heading north.
     pub fn alignment(&self) -> Alignment {
@@ -625,6 +808,7 @@ impl Design {
     /// [`DesignError`] naming the line and column of a JSON error, or the
     /// element and key that is missing or wrong.
     pub fn from_json(file: &str, text: &str) -> Result<Design, DesignError> {
+        check_design_keys(file, text)?;
         let v: serde_json::Value = serde_json::from_str(text).map_err(|e| DesignError::Json {
             file: file.to_string(),
             line: e.line(),

@@ -3,7 +3,7 @@
 
 mod common;
 
-use common::{check_contract, chordline, demo_survey, run_demo_to, stderr};
+use common::{check_contract, chordline, demo_survey, run_demo_to, stderr, stdout};
 
 #[test]
 fn run_on_the_demo_follows_the_output_contract() {
@@ -150,9 +150,9 @@ fn demo_says_where_it_wrote() {
     let o = chordline(&["demo", "--out", out.to_str().unwrap()]);
     assert!(o.status.success(), "{}", stderr(&o));
     assert!(
-        stderr(&o).contains(&format!("in {}", out.display())),
+        stdout(&o).contains(&format!("in {}", out.display())),
         "{}",
-        stderr(&o)
+        stdout(&o)
     );
     assert!(out.join("stations.csv").exists());
 }
@@ -225,7 +225,7 @@ fn slews_add_columns_and_keep_the_contract() {
     let o = run_demo_to(&out, &["--fixed", "12500", "--max-slew", "50mm"]);
     assert!(o.status.success(), "{}", stderr(&o));
     assert!(
-        stderr(&o).contains("indicative"),
+        (stdout(&o) + &stderr(&o)).contains("indicative"),
         "slews must carry their caution"
     );
     let stations = std::fs::read_to_string(out.join("stations.csv")).unwrap();

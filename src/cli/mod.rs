@@ -74,16 +74,32 @@ pub fn main() -> ExitCode {
     match result {
         Ok(()) => ExitCode::SUCCESS,
         Err(Failure::Input(e)) => {
-            eprintln!("error: {e:#}");
+            eprintln!("error: {}", chain_text(&e));
             ExitCode::from(1)
         }
         Err(Failure::Internal(e)) => {
             eprintln!(
-                "internal error: {e:#}\nThis is a bug in chordline; please report it with the input that caused it."
+                "internal error: {}\nThis is a bug in chordline; please report it with the input that caused it.",
+                chain_text(&e)
             );
             ExitCode::from(2)
         }
     }
+}
+
+/// An error and its causes, each cause once: a cause whose text the message
+/// already holds (many messages quote the operating system's error) is not
+/// repeated.
+fn chain_text(e: &anyhow::Error) -> String {
+    let mut text = e.to_string();
+    for cause in e.chain().skip(1) {
+        let c = cause.to_string();
+        if !text.contains(&c) {
+            text.push_str(": ");
+            text.push_str(&c);
+        }
+    }
+    text
 }
 
 #[cfg(test)]

@@ -215,7 +215,13 @@ impl Alignment {
     }
     /// Total length, metres.
     pub fn length(&self) -> f64 {
-        self.elements.iter().map(|e| e.length).sum()
+        // The running sum of `new` (the same additions in the same order as
+        // summing the lengths), in constant time: `pose_at` calls this for
+        // every query.
+        match (self.starts.last(), self.elements.last()) {
+            (Some(s), Some(e)) => s + e.length,
+            _ => 0.0,
+        }
     }
     /// Distance from the alignment start to the start of element `i`.
     pub fn element_start(&self, i: usize) -> f64 {

@@ -90,12 +90,29 @@ impl std::error::Error for SurveyError {
 #[derive(Debug, thiserror::Error)]
 #[non_exhaustive]
 pub enum SurveyErrorKind {
-    /// The file could not be opened or read.
-    #[error("cannot read the file: {source}; check the path and that you may read it")]
+    /// The file could not be opened or read. (The operating system's error
+    /// is in the message, so it is not also a `source`: printed with its
+    /// chain it would appear twice.)
+    #[error("cannot read the file: {error}; check the path and that you may read it")]
     Io {
         /// The operating system's error.
-        #[source]
-        source: std::io::Error,
+        error: std::io::Error,
+    },
+    /// A symbolic link to something that does not exist.
+    #[error(
+        "this is a symbolic link to '{target}', which does not exist; point the link at the survey file, or give the survey file's own path"
+    )]
+    DanglingLink {
+        /// Where the link points.
+        target: String,
+    },
+    /// A folder where a survey file was expected.
+    #[error(
+        "this is a folder, not a survey file; give the path of a CSV file in it (e.g. {example})"
+    )]
+    IsFolder {
+        /// An example path.
+        example: String,
     },
     /// The chord given is zero, negative or not a number.
     #[error(

@@ -42,9 +42,11 @@ use crate::units::{LengthUnit, VersineUnit};
 mod checks;
 mod error;
 mod header;
+mod source;
 mod text;
 
 pub use error::{ColumnRef, SurveyError, SurveyErrorKind};
+pub use source::{STDIN_NAME, read_survey_input};
 
 use header::Columns;
 use text::{LineKind, NumProblem};
@@ -86,8 +88,7 @@ pub fn read_survey_file(
     opts: &ReadOptions,
 ) -> Result<(Survey, Vec<Diagnostic>), SurveyError> {
     let name = path.display().to_string();
-    let bytes = std::fs::read(path)
-        .map_err(|source| SurveyError::file(&name, SurveyErrorKind::Io { source }))?;
+    let bytes = source::read_bytes(path)?;
     read_survey_bytes(&name, &bytes, opts)
 }
 
