@@ -242,3 +242,60 @@ fn slews_add_columns_and_keep_the_contract() {
     assert!(html.contains("Slews onto the design (indicative)"));
     assert_eq!(html.matches("<svg").count(), 6, "five diagrams plus slews");
 }
+
+#[test]
+fn run_dash_reads_standard_input_and_results_go_to_standard_output() {
+    use std::io::Write;
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("out");
+    let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_chordline"))
+        .args(["run", "-", "--chord", "20m", "--rail", "L", "--out"])
+        .arg(&out)
+        .stdin(std::process::Stdio::piped())
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    let survey = std::fs::read(demo_survey()).unwrap();
+    child.stdin.take().unwrap().write_all(&survey).unwrap();
+    let o = child.wait_with_output().unwrap();
+    assert!(o.status.success(), "{}", stderr(&o));
+    let results = stdout(&o);
+    assert!(
+        results.starts_with("survey   standard input: 116 readings"),
+        "{results}"
+    );
+    assert!(results.contains("wrote    stations.csv"), "{results}");
+    // Diagnostics stay on stderr.
+    assert!(!results.contains("warning:"), "{results}");
+    assert!(stderr(&o).contains("warning:"), "{}", stderr(&o));
+    assert!(out.join("stations.csv").exists());
+}
+
+#[test]
+fn simulate_writes_standard_output_and_never_half_of_two_files() {
+    let dir = tempfile::tempdir().unwrap();
+    let design =
+        std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/eastvale-design.json");
+    let o = chordline(&["simulate", design.to_str().unwrap(), "-"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(
+        stdout(&o).contains("chainage_m,versine_mm"),
+        "{}",
+        stdout(&o)
+    );
+    // --truth naming an existing file: refused before the survey is written.
+    let survey = dir.path().join("s.csv");
+    let truth = dir.path().join("t.csv");
+    std::fs::write(&truth, "keep").unwrap();
+    let o = chordline(&[
+        "simulate",
+        design.to_str().unwrap(),
+        survey.to_str().unwrap(),
+        "--truth",
+        truth.to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    assert!(!survey.exists());
+    assert_eq!(std::fs::read(&truth).unwrap(), b"keep");
+}

@@ -75,6 +75,14 @@ impl ReadOptions {
     }
 }
 
+/// Longest chord accepted, metres: hand chords are 10–30 m, long-chord
+/// measurements a few hundred metres at most (common practice, from memory).
+pub const MAX_CHORD: f64 = 1000.0;
+
+/// Largest chainage accepted, metres (a million kilometres): beyond about
+/// 1e9 m a double keeps too few decimals to tell readings apart.
+pub const MAX_CHAINAGE: f64 = 1e9;
+
 /// Read a survey file.
 ///
 /// The path is used as written in messages. See the [module docs](self) for
@@ -124,6 +132,15 @@ pub fn read_survey_bytes(
         return Err(SurveyError::file(
             name,
             SurveyErrorKind::ChordNotPositive { chord: opts.chord },
+        ));
+    }
+    if opts.chord > MAX_CHORD {
+        return Err(SurveyError::file(
+            name,
+            SurveyErrorKind::ChordTooLong {
+                chord: opts.chord,
+                max: MAX_CHORD,
+            },
         ));
     }
     let text = text::decode(bytes).map_err(|(line, kind)| match line {
@@ -237,16 +254,31 @@ impl<'a> Reader<'a> {
         // Unnamed columns (often trailing empty cells of a spreadsheet) get a
         // warning only when a line has something in them.
         let mut unnamed: Vec<usize> = Vec::new();
+        let mut unused = 0usize;
         for &i in &cols.unknown {
             if cols.names[i].is_empty() {
                 unnamed.push(i);
                 continue;
             }
-            let what = format!("column '{}' (field {}) is not used", cols.names[i], i + 1);
+            unused += 1;
+            if unused > checks::MAX_LISTED {
+                continue;
+            }
+            let col = crate::diag::quote_capped(&cols.names[i]);
+            let what = format!("column '{col}' (field {}) is not used", i + 1);
             let d = Diagnostic::warning(what)
-                .at(self.loc(header_line, Some(&cols.names[i])))
+                .at(self.loc(header_line, Some(&col)))
                 .hint("the columns read are chainage_m|chainage_ft, versine_mm|versine_m|versine_in|versine_ft, side and note");
             self.diags.push(d);
+        }
+        if unused > checks::MAX_LISTED {
+            self.diags.push(
+                Diagnostic::warning(format!(
+                    "{} more columns are not used (not listed)",
+                    unused - checks::MAX_LISTED
+                ))
+                .at(self.loc(header_line, None)),
+            );
         }
         if cols.side.is_none() && self.opts.rail.is_none() {
             return Err(SurveyError::file(name, SurveyErrorKind::NoRail));
@@ -396,6 +428,12 @@ impl<'a> Reader<'a> {
                 }
             };
             let chainage = cols.chainage_unit.to_m(chainage_file);
+            if chainage.abs() > MAX_CHAINAGE {
+                let max = fmt_num(cols.chainage_unit.from_m(MAX_CHAINAGE).round());
+                let text = crate::diag::quote_capped(ch_text);
+                let kind = SurveyErrorKind::ChainageTooLarge { text, max };
+                return Err(self.cell_err(&cols, no, cols.chainage, kind));
+            }
             if decimal_comma && looks_like_thousands(ch_text) {
                 stats.thousands_like += 1;
             }
@@ -482,7 +520,7 @@ impl<'a> Reader<'a> {
                             i,
                             SurveyErrorKind::RailContradicts {
                                 given: given.name(),
-                                text: s.to_string(),
+                                text: crate::diag::quote_capped(s),
                             },
                         ));
                     }
@@ -579,8 +617,10 @@ impl<'a> Reader<'a> {
             cols: &cols,
             chord: self.opts.chord,
             marking: self.opts.marking,
+            thousands_like: decimal_comma && stats.thousands_like == readings.len(),
         };
-        let regular = checks::spacing(&ctx, &readings, &mut self.diags)?;
+        let (regular, s_nom) = checks::spacing(&ctx, &readings, &mut self.diags)?;
+        let (readings, regular) = checks::fill_gaps(readings, regular, s_nom);
         checks::units(
             &ctx,
             &readings,
@@ -634,7 +674,7 @@ fn parse_side(s: &str) -> Result<Rail, SurveyErrorKind> {
         "r" | "right" => Ok(Rail::Right),
         "" => Err(SurveyErrorKind::EmptySide),
         other => Err(SurveyErrorKind::BadSide {
-            text: s.to_string(),
+            text: crate::diag::quote_capped(s),
             extra: if matches!(
                 other,
                 "inner" | "outer" | "in" | "out" | "i" | "o" | "high" | "low"
@@ -703,7 +743,16 @@ fn number_error(p: NumProblem, text: &str, q: Quantity, delim: char) -> SurveyEr
             "write the versine in {word}, e.g. {example}, or leave the cell empty for a missing reading"
         ),
     };
-    let text = text.to_string();
+    if text.contains('\u{2212}') {
+        return SurveyErrorKind::NotANumber {
+            todo: format!(
+                "it has a typographic minus sign (\u{2212}, U+2212), which word processors write; type the minus as a hyphen ({})",
+                crate::diag::quote_capped(&text.replace('\u{2212}', "-"))
+            ),
+            text: crate::diag::quote_capped(text),
+        };
+    }
+    let text = crate::diag::quote_capped(text);
     let todo = match p {
         NumProblem::NotFinite => return SurveyErrorKind::NotFinite { text, todo: base },
         NumProblem::Garbage => base,
@@ -717,10 +766,22 @@ fn number_error(p: NumProblem, text: &str, q: Quantity, delim: char) -> SurveyEr
         NumProblem::Separators => format!(
             "write numbers without thousands separators and with one decimal separator, e.g. {example}"
         ),
-        NumProblem::DecimalCommaInCommaFile => format!(
-            "this file separates fields with commas, so write a decimal point ({})",
-            text.replace(',', ".")
-        ),
+        NumProblem::DecimalCommaInCommaFile => {
+            let point = text.replace(',', ".");
+            // `1,010` may be 1.01 with a decimal comma or 1010 with a
+            // thousands separator: say both.
+            let three = text
+                .rsplit_once(',')
+                .is_some_and(|(_, d)| d.len() == 3 && d.bytes().all(|b| b.is_ascii_digit()));
+            if three {
+                format!(
+                    "this file separates fields with commas: if the comma is a decimal comma, write a decimal point ({point}); if it separates thousands, leave it out ({})",
+                    text.replace(',', "")
+                )
+            } else {
+                format!("this file separates fields with commas, so write a decimal point ({point})")
+            }
+        }
         NumProblem::StationPlus => match q {
             Quantity::Chainage(_) => format!(
                 "write the chainage as one number of {word} ({} is {})",
