@@ -167,7 +167,7 @@ const CASES: &[(&str, &str, Option<Rail>, &str)] = &[
         "bad/feet_spacing_metre_chord.csv",
         "20m",
         L,
-        "bad/feet_spacing_metre_chord.csv: the readings are 31 ft apart, and half the chord of 20 m (65.617 ft) is not a whole number of such spacings (1.06 of them); readings must be every half chord or a whole fraction of it (32.808 ft, 16.404 ft, 8.202 ft, ...); check --chord (a chord of 62 ft fits this spacing)",
+        "bad/feet_spacing_metre_chord.csv: the readings are 31 ft apart, and half the chord of 20 m (65.617 ft), that is 32.808 ft, is not a whole number of such spacings (1.06 of them); readings must be every half chord or a whole fraction of it (32.808 ft, 16.404 ft, 8.202 ft, ...); check --chord (a chord of 62 ft fits this spacing)",
     ),
     (
         "bad/header_only.csv",

@@ -119,10 +119,18 @@ fn design_text() -> impl Strategy<Value = String> {
         prop_oneof![-2000.0..2000.0f64, Just(0.5), Just(0.0)],
         prop::sample::select(vec!["radius", "radus", "r_start", "r_end"]),
     )
-        .prop_map(|(k, l, r, key)| format!("{{\"kind\": \"{k}\", \"length\": {l}, \"{key}\": {r}}}"));
+        .prop_map(|(k, l, r, key)| {
+            format!("{{\"kind\": \"{k}\", \"length\": {l}, \"{key}\": {r}}}")
+        });
     (
         prop::collection::vec(el, 0..6),
-        prop::sample::select(vec!["chord_m", "chord", "spacing_m", "start_chainage_m", "noise_mm"]),
+        prop::sample::select(vec![
+            "chord_m",
+            "chord",
+            "spacing_m",
+            "start_chainage_m",
+            "noise_mm",
+        ]),
         prop_oneof![0.001..100.0f64, any::<f64>(), Just(1e15)],
     )
         .prop_map(|(els, key, v)| format!("{{\"{key}\": {v}, \"elements\": [{}]}}", els.join(", ")))

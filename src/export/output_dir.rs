@@ -155,6 +155,18 @@ pub enum OutputError {
         #[source]
         source: io::Error,
     },
+    /// A writer refused its content (e.g. GeoJSON of a track across the
+    /// 180th meridian): not a disk problem.
+    #[error("{source}; no output folder was written (earlier results were left as they were)")]
+    Content {
+        /// The file name.
+        name: String,
+        /// The target folder.
+        path: PathBuf,
+        /// The writer's error (kind `InvalidData` or `InvalidInput`).
+        #[source]
+        source: io::Error,
+    },
     /// Moving the finished folder into place failed.
     #[error(
         "cannot move the finished results into '{}': {source}; earlier results were left as they were",
@@ -478,10 +490,23 @@ impl OutputDir {
                 name: name.to_string(),
             });
         }
-        let werr = |source| OutputError::Write {
-            name: name.to_string(),
-            path: self.target.clone(),
-            source,
+        let werr = |source: io::Error| {
+            if matches!(
+                source.kind(),
+                io::ErrorKind::InvalidData | io::ErrorKind::InvalidInput
+            ) {
+                OutputError::Content {
+                    name: name.to_string(),
+                    path: self.target.clone(),
+                    source,
+                }
+            } else {
+                OutputError::Write {
+                    name: name.to_string(),
+                    path: self.target.clone(),
+                    source,
+                }
+            }
         };
         let path = self.staging.join(name);
         let file = File::create(&path).map_err(werr)?;

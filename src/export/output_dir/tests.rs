@@ -326,3 +326,19 @@ fn names_must_be_plain() {
     let e = OutputDir::create(tmp.path(), false).unwrap_err();
     assert!(!e.is_internal());
 }
+
+#[test]
+fn a_writer_refusing_its_content_is_not_called_a_disk_problem() {
+    let tmp = tempfile::tempdir().unwrap();
+    let mut out = OutputDir::create(&tmp.path().join("out"), false).unwrap();
+    let e = out
+        .write_file("alignment.geojson", |_| {
+            Err(io::Error::new(
+                io::ErrorKind::InvalidData,
+                "cannot write alignment.geojson: the track crosses the 180th meridian",
+            ))
+        })
+        .unwrap_err();
+    assert!(matches!(e, OutputError::Content { .. }), "{e}");
+    assert!(!e.to_string().contains("disk"), "{e}");
+}

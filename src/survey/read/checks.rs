@@ -82,6 +82,15 @@ impl Context<'_> {
         fmt_num(self.cols.chainage_unit.from_m(metres))
     }
     /// The chord in metres, and in feet too for an imperial file.
+    /// For feet surveys, the half chord in feet (", that is 32.808 ft,"),
+    /// so that a metric chord is not misread; empty for metres.
+    fn half_note(&self) -> String {
+        match self.cols.chainage_unit {
+            crate::units::LengthUnit::Metre => String::new(),
+            crate::units::LengthUnit::Foot => format!(", that is {},", self.len(0.5 * self.chord)),
+        }
+    }
+
     fn chord_text(&self) -> String {
         let m = format!("{} m", fmt_num((self.chord * 1e4).round() / 1e4));
         match self.cols.chainage_unit {
@@ -161,16 +170,18 @@ pub(crate) fn spacing(
     }
     if ratio < 1.0 - FIT_TOL {
         return Err(misfit(format!(
-            "the readings are {} apart, more than half the chord of {}",
+            "the readings are {} apart, more than half the chord of {}{}",
             ctx.len(s_med),
-            ctx.chord_text()
+            ctx.chord_text(),
+            ctx.half_note()
         )));
     }
     if (s_med - s_nom).abs() > FIT_TOL * s_nom {
         return Err(misfit(format!(
-            "the readings are {} apart, and half the chord of {} is not a whole number of such spacings ({} of them)",
+            "the readings are {} apart, and half the chord of {}{} is not a whole number of such spacings ({} of them)",
             ctx.len(s_med),
             ctx.chord_text(),
+            ctx.half_note(),
             fmt_num((ratio * 100.0).round() / 100.0)
         )));
     }
