@@ -344,17 +344,24 @@ impl OutputDir {
         let inputs: Vec<PathBuf> = inputs.iter().map(|p| p.to_path_buf()).collect();
         let real = check_target(target, force, &inputs)?;
         let parent = parent_of(&real);
-        let made_parents = create_parents(&parent).map_err(|source| OutputError::Stage {
+        let staging = sibling(&real, "chordline-partial");
+        let stage_err = |source| OutputError::Stage {
             path: target.to_path_buf(),
             source,
-        })?;
-        let staging = sibling(&real, "chordline-partial");
-        if let Err(source) = fs::create_dir(&staging) {
+        };
+        // Twice: a failed run of a batch may remove a parent folder it made
+        // just as another run finds it there.
+        let mut made_parents = create_parents(&parent).map_err(stage_err)?;
+        if let Err(first) = fs::create_dir(&staging) {
             remove_made(&made_parents);
-            return Err(OutputError::Stage {
-                path: target.to_path_buf(),
-                source,
-            });
+            if first.kind() != io::ErrorKind::NotFound {
+                return Err(stage_err(first));
+            }
+            made_parents = create_parents(&parent).map_err(stage_err)?;
+            if let Err(source) = fs::create_dir(&staging) {
+                remove_made(&made_parents);
+                return Err(stage_err(source));
+            }
         }
         let mut dir = OutputDir {
             target: target.to_path_buf(),
