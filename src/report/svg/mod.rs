@@ -1,6 +1,6 @@
 //! SVG line charts for the HTML report: round-numbered axes, lines, shaded
 //! bands, reference lines, point marks, vertical marks, and an element strip
-//! (see [`super::strip`]) with the joints drawn through the plot. The legend
+//! (see [`super::Strip`]) with the joints drawn through the plot. The legend
 //! sits above the plot, never on the data.
 //!
 //! Hand-written rather than taken from a plotting crate (plotters, say):
