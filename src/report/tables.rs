@@ -67,7 +67,7 @@ pub(super) fn about(r: &Results, rec: &RunRecord) -> String {
         row(
             "command",
             format!(
-                "<code class=\"cmd\">{}</code><br><small>options that do not change the results (output folder, threads, --force, --quiet, --summary) are left out</small>",
+                "<code class=\"cmd\">{}</code><br><small>options that do not change the results (output folder, threads, jobs, --force, --quiet, --summary) are left out</small>",
                 esc(&shell_words(&rec.command_line))
             ),
         );

@@ -209,6 +209,7 @@ enum Swatch {
     Hatch,
     Shade,
     Joint,
+    Ragged,
 }
 
 struct Extent {
@@ -332,6 +333,9 @@ impl Chart<'_> {
             }
             if !s.joints.is_empty() && !dense {
                 v.push(("joint, 95 % interval".into(), Swatch::Joint));
+            }
+            if s.has_cut_in(self.x_range) {
+                v.push(("element cut by the survey end".into(), Swatch::Ragged));
             }
         }
         v
@@ -462,6 +466,9 @@ impl Chart<'_> {
                         r##"<rect x="{x:.1}" y="{:.1}" width="26" height="10" fill="#000" fill-opacity="0.09" stroke="#999" stroke-width="0.5"/>"##,
                         y - 5.0
                     );
+                }
+                Swatch::Ragged => {
+                    super::strip::ragged_edge(o, x + 10.0, y - 7.0, 14.0);
                 }
                 Swatch::Joint => {
                     let _ = write!(
