@@ -11,13 +11,12 @@ use crate::export::elements::write_elements_csv;
 use crate::export::geojson::{ElementProps, GeoJsonError, GeoJsonInput, write_geojson};
 use crate::export::landxml::{LandXmlError, LandXmlFrame, LandXmlOptions, write_landxml};
 use crate::export::output_dir::{OutputDir, OutputError};
-use crate::export::stations::{DesignAtStation, GeoAtStation, StationExtras, write_stations_with};
-use crate::fit::{FitOptions, FitResult, fit};
+use crate::export::stations::{GeoAtStation, StationExtras, write_stations_with};
+use crate::fit::{FitOptions, fit};
 use crate::geometry::{Pose, bearing_to_heading};
-use crate::georef::{
-    ControlCheck, Georef, GeorefArgs, GeorefError, leave_one_out, prepare, write_checks_csv,
-};
-use crate::integrate::{IntegrateError, IntegrateOptions, Plan, integrate};
+use crate::georef::{Georef, GeorefArgs, GeorefError, leave_one_out, prepare};
+use crate::integrate::{IntegrateError, IntegrateOptions, integrate};
+pub use crate::results::Results;
 use crate::survey::read::{ReadOptions, SurveyError, SurveyErrorKind, read_survey_bytes};
 use crate::survey::{Rail, Setup, Survey};
 use std::path::{Path, PathBuf};
@@ -97,32 +96,6 @@ impl RunError {
             RunError::Survey(_) | RunError::Integrate(_) | RunError::Georef(_) => false,
         }
     }
-}
-
-/// All results of a run, before anything is written.
-#[derive(Debug, Clone)]
-pub struct Results {
-    /// The survey as read.
-    pub survey: Survey,
-    /// The set-up used.
-    pub setup: Setup,
-    /// The reconstructed plan.
-    pub plan: Plan,
-    /// The element fit, when it ran and succeeded.
-    pub fit: Option<FitResult>,
-    /// The design placed in the plan frame and its values at every station
-    /// (with `fit`).
-    pub design: Option<(crate::geometry::Alignment, Vec<DesignAtStation>)>,
-    /// The placement on the Earth, when one was asked for.
-    pub georef: Option<Georef>,
-    /// The verdict on each control point (empty without control points).
-    pub control_checks: Vec<ControlCheck>,
-    /// Slews onto the fitted design, when asked for and the fit succeeded.
-    pub slews: Option<crate::realign::Slews>,
-    /// Cant and speed advice, when asked for and the fit succeeded (advisory only).
-    pub advice: Option<crate::advice::Advice>,
-    /// Warnings and notes of every stage, in stage order.
-    pub diagnostics: Vec<Diagnostic>,
 }
 
 /// Run every stage on a survey already in memory (no file system).
@@ -328,7 +301,7 @@ pub fn run(
     }
     if let Some(a) = &results.advice {
         dir.write_file("advice.csv", |w| {
-            crate::advice::write_advice_csv(w, a, unit)
+            crate::export::advice::write_advice_csv(w, a, unit)
         })?;
     }
     dir.write_file("report.html", |w| {
@@ -354,7 +327,7 @@ pub fn run(
         })?;
         if g.controls.is_some() {
             dir.write_file("controls.csv", |w| {
-                write_checks_csv(w, &results.control_checks)
+                crate::export::controls::write_checks_csv(w, &results.control_checks)
             })?;
         }
     }
@@ -379,6 +352,11 @@ pub fn run(
         };
         dir.write_file("alignment.xml", |w| {
             write_landxml(w, placed, &props, frame, &lopts).map_err(LandXmlError::into_io)
+        })?;
+        dir.write_file("alignment.ifc", |w| {
+            let o = crate::export::ifc::IfcOptions::from(&lopts);
+            crate::export::ifc::write_ifc(w, placed, &props, frame, &o)
+                .map_err(crate::export::ifc::IfcError::into_io)
         })?;
     }
     let files = dir.files().to_vec();

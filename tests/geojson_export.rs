@@ -1,6 +1,8 @@
 //! alignment.geojson: structure, RFC 7946 rules, values against CHECKS.md 5.6,
 //! and a read by GDAL's ogrinfo when it is installed.
 
+#[path = "support/skip.rs"]
+mod skip;
 use std::process::Command;
 
 use chordline::export::geojson::{ElementProps, GeoJsonError, GeoJsonInput, write_geojson};
@@ -265,7 +267,10 @@ fn gdal_reads_the_file() {
             .output()
             .is_ok_and(|o| o.status.success());
     if !found {
-        eprintln!("skipping gdal_reads_the_file: GDAL's ogrinfo is not installed");
+        skip::skipped(
+            "gdal_reads_the_file",
+            "GDAL's ogrinfo is not installed (apt-get install gdal-bin)",
+        );
         return;
     }
     let c = case();

@@ -2,6 +2,8 @@
 //! the Earth by a start point or by control points, integrated, and compared
 //! with the design mapped through an independent placement.
 
+#[path = "support/skip.rs"]
+mod skip;
 use std::path::Path;
 
 use chordline::geometry::heading_to_bearing;
@@ -52,7 +54,10 @@ fn worst(plan: &Plan, pl: &Placement, sim: &Simulated) -> f64 {
 #[test]
 fn start_point_and_bearing_place_the_survey() {
     let Some((d, sim)) = eastvale() else {
-        eprintln!("skipping: demo-data/eastvale-design.json is absent");
+        skip::skipped(
+            "georef_end_to_end",
+            "demo-data/eastvale-design.json is absent",
+        );
         return;
     };
     let t0 = sim.truth[0].centre;
@@ -98,7 +103,10 @@ fn control_file(sim: &Simulated, picks: &[usize], shift: Option<(usize, f64)>) -
 #[test]
 fn control_points_place_the_survey_and_catch_a_bad_one() {
     let Some((d, sim)) = eastvale() else {
-        eprintln!("skipping: demo-data/eastvale-design.json is absent");
+        skip::skipped(
+            "georef_end_to_end",
+            "demo-data/eastvale-design.json is absent",
+        );
         return;
     };
     let n = sim.truth.len();
@@ -160,7 +168,10 @@ fn control_points_place_the_survey_and_catch_a_bad_one() {
 fn noisy_survey_with_good_control_points_raises_no_flags() {
     let p = Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/eastvale-design.json");
     let Ok(text) = std::fs::read_to_string(&p) else {
-        eprintln!("skipping: demo-data/eastvale-design.json is absent");
+        skip::skipped(
+            "georef_end_to_end",
+            "demo-data/eastvale-design.json is absent",
+        );
         return;
     };
     // The demo's own noise: 0.8 mm readings, 1 mm rounding, 1 mm RMS irregularity.
@@ -203,7 +214,10 @@ fn fitted_design_goes_onto_the_map_and_into_the_grid() {
     use chordline::export::landxml::{LandXmlFrame, LandXmlOptions, build_landxml};
     use chordline::fit::{FitOptions, fit};
     let Some((d, _)) = eastvale() else {
-        eprintln!("skipping: demo-data/eastvale-design.json is absent");
+        skip::skipped(
+            "georef_end_to_end",
+            "demo-data/eastvale-design.json is absent",
+        );
         return;
     };
     // Control points in ETRS89 / UTM 32N.
@@ -339,8 +353,9 @@ fn fitted_design_goes_onto_the_map_and_into_the_grid() {
             .unwrap();
         assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     } else {
-        eprintln!(
-            "skipping schema validation: xmllint or ../shared/standards/LandXML-1.2.xsd absent"
+        skip::skipped(
+            "LandXML schema validation (georef_end_to_end)",
+            "xmllint or ../shared/standards/LandXML-1.2.xsd is absent",
         );
     }
     let p0 = placed.element_pose(0);

@@ -1,6 +1,8 @@
 //! The `stations.csv` writer: column contract, units, fixed decimals, gaps,
 //! design columns, refusal of non-finite values, and the shared contract checker.
 
+#[path = "support/skip.rs"]
+mod skip;
 use chordline::export::stations::{DesignAtStation, write_stations};
 use chordline::geometry::{Alignment, Element, Pose};
 use chordline::integrate::{IntegrateOptions, Plan, integrate};
@@ -125,7 +127,10 @@ fn passes_the_shared_output_contract_checker() {
     let shared = Path::new(env!("CARGO_MANIFEST_DIR")).join("../shared");
     let tool = shared.join("tools/check-outputs");
     if !tool.exists() {
-        eprintln!("skipping: {} not found", tool.display());
+        skip::skipped(
+            "stations.csv contract",
+            &format!("{} not found", tool.display()),
+        );
         return;
     }
     for imperial in [false, true] {
@@ -144,7 +149,10 @@ fn passes_the_shared_output_contract_checker() {
         {
             Ok(o) => o,
             Err(e) => {
-                eprintln!("skipping: python3 not runnable ({e})");
+                skip::skipped(
+                    "stations.csv contract",
+                    &format!("python3 not runnable ({e})"),
+                );
                 return;
             }
         };

@@ -1,6 +1,8 @@
 //! alignment.xml: LandXML 1.2 schema validation (xmllint), round trip with a
 //! small reader, LandXML conventions (CHECKS.md 6.1), grid output (CHECKS.md 5.9).
 
+#[path = "support/skip.rs"]
+mod skip;
 use std::path::Path;
 use std::process::Command;
 
@@ -104,7 +106,10 @@ fn read_back(xml: &str) -> (Vec<Read>, roxmltree::Document<'_>) {
 fn schema() -> Option<std::path::PathBuf> {
     let s = Path::new(env!("CARGO_MANIFEST_DIR")).join("../shared/standards/LandXML-1.2.xsd");
     if !s.exists() {
-        eprintln!("skipping schema validation: {} is absent", s.display());
+        skip::skipped(
+            "LandXML schema validation",
+            &format!("{} is absent", s.display()),
+        );
         return None;
     }
     let ok = Command::new("xmllint")
@@ -112,7 +117,10 @@ fn schema() -> Option<std::path::PathBuf> {
         .output()
         .is_ok_and(|o| o.status.success());
     if !ok {
-        eprintln!("skipping schema validation: xmllint is not installed");
+        skip::skipped(
+            "LandXML schema validation",
+            "xmllint is not installed (apt-get install libxml2-utils)",
+        );
         return None;
     }
     Some(s)

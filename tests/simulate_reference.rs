@@ -5,15 +5,20 @@
 //!
 //! Skips (passing, with a message) when ../shared, python3 or numpy is absent.
 
+#[path = "support/skip.rs"]
+mod skip;
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
 fn reference_tool() -> Option<PathBuf> {
     let tool = Path::new(env!("CARGO_MANIFEST_DIR")).join("../shared/tools/reference-survey");
     if !tool.exists() {
-        eprintln!(
-            "skipped: {} is absent (a user's clone has no ../shared)",
-            tool.display()
+        skip::skipped(
+            "simulate against the reference generator",
+            &format!(
+                "{} is absent (a user's clone has no ../shared)",
+                tool.display()
+            ),
         );
         return None;
     }
@@ -23,7 +28,10 @@ fn reference_tool() -> Option<PathBuf> {
         .map(|s| s.success())
         .unwrap_or(false);
     if !ok {
-        eprintln!("skipped: python3 with numpy is not available to run the reference generator");
+        skip::skipped(
+            "simulate against the reference generator",
+            "python3 with numpy is not available (pip install numpy)",
+        );
         return None;
     }
     Some(tool)

@@ -3,6 +3,8 @@
 //! noisy surveys raise no warnings (no false outliers at element joins, no
 //! false unit or spacing complaints).
 
+#[path = "support/skip.rs"]
+mod skip;
 use std::path::Path;
 
 use chordline::geometry::{Alignment, Pose};
@@ -112,7 +114,10 @@ fn imperial_survey_reads_back_quietly() {
 fn demo_survey_reads() {
     let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/eastvale-survey.csv");
     if !path.exists() {
-        println!("skipping: {} is not there", path.display());
+        skip::skipped(
+            "survey_read_roundtrip",
+            &format!("{} is not there", path.display()),
+        );
         return;
     }
     let opts = ReadOptions {

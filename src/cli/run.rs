@@ -298,7 +298,7 @@ pub fn print_outcome(o: &Outcome, quiet: bool) {
     if let Some(a) = &o.results.advice {
         eprint!(
             "{}",
-            chordline::advice::advice_text(a, o.results.survey.chainage_unit)
+            chordline::report::advice_text(a, o.results.survey.chainage_unit)
         );
     }
     eprintln!("wrote    {} in {}", o.files.join(", "), o.folder.display());

@@ -174,6 +174,8 @@ pub struct Alignment {
     poses: Vec<Pose>,
     /// Heading change from the start to the start of each element.
     turns: Vec<f64>,
+    /// Total length (kept so that a query costs a binary search, not a sum).
+    total: f64,
 }
 
 impl Alignment {
@@ -199,6 +201,7 @@ impl Alignment {
             starts,
             poses,
             turns,
+            total: s,
         }
     }
     /// The elements in order.
@@ -215,7 +218,7 @@ impl Alignment {
     }
     /// Total length, metres.
     pub fn length(&self) -> f64 {
-        self.elements.iter().map(|e| e.length).sum()
+        self.total
     }
     /// Distance from the alignment start to the start of element `i`.
     pub fn element_start(&self, i: usize) -> f64 {

@@ -14,7 +14,7 @@ use super::diagrams::{Diagrams, Range};
 use super::sections::{Section, sections};
 use super::svg::esc;
 use super::tables;
-use crate::pipeline::Results;
+use crate::results::Results;
 use std::fmt::Write as _;
 
 const CSS: &str = "*{box-sizing:border-box}\

@@ -2,20 +2,21 @@
 //! self-contained HTML report. The library returns strings; the command-line
 //! tool prints or writes them.
 
+mod advice_text;
 mod diagrams;
 mod html;
 mod sections;
 mod strip;
-pub mod svg;
+mod svg;
 mod tables;
 
+pub use advice_text::advice_text;
 pub use html::html_report;
-pub use strip::{Block, Joint, Strip};
 
 use crate::diag::Severity;
 use crate::geometry::heading_to_bearing;
 use crate::integrate::NoiseSource;
-use crate::pipeline::Results;
+use crate::results::Results;
 use crate::units::LengthUnit;
 use std::fmt::Write as _;
 

@@ -8,7 +8,7 @@ use crate::advice::{Advice, AdviceRow, CAUTION, limit_lines};
 use crate::diag::Severity;
 use crate::fit::{ElementStatus, Estimate, FitResult, FittedElement};
 use crate::geometry::ElementKind;
-use crate::pipeline::Results;
+use crate::results::Results;
 use crate::survey::Marking;
 use crate::units::LengthUnit;
 use std::fmt::Write as _;

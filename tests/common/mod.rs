@@ -48,9 +48,12 @@ pub fn stderr(o: &Output) -> String {
 pub fn check_contract(dir: &Path) -> bool {
     let checker = Path::new(env!("CARGO_MANIFEST_DIR")).join("../shared/tools/check-outputs");
     if !checker.exists() {
-        eprintln!(
-            "skipped the contract checker: {} is absent (no ../shared in this clone)",
-            checker.display()
+        crate::skip::skipped(
+            "output contract checker",
+            &format!(
+                "{} is absent (no ../shared in this clone)",
+                checker.display()
+            ),
         );
         return false;
     }

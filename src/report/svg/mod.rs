@@ -763,7 +763,7 @@ mod tests {
             series: vec![Series {
                 name: "s".into(),
                 points: vec![(0.0, 1.0), (f64::NAN, 2.0), (2.0, 3.0)],
-                style: Style::new(BLUE, Dash::Solid, 1.0),
+                style: Style::new(BLUE, Pattern::Solid, 1.0),
             }],
             ..Default::default()
         };
@@ -782,7 +782,7 @@ mod tests {
                 .map(|i| Series {
                     name: format!("a rather long legend entry {i}"),
                     points: vec![(0.0, 0.0), (1.0, 1.0)],
-                    style: Style::new(BLUE, Dash::Solid, 1.0),
+                    style: Style::new(BLUE, Pattern::Solid, 1.0),
                 })
                 .collect(),
             ..Default::default()
