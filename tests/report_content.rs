@@ -4,6 +4,8 @@
 //! advice with its caution, sections on long surveys, byte-determinism.
 
 mod common;
+#[path = "support/skip.rs"]
+mod skip;
 
 use common::{chordline, run_demo_to, stderr};
 use std::process::Command;

@@ -235,10 +235,10 @@ pub enum SummaryLength {
 }
 
 /// The command line for the report, without the options that do not change
-/// the results (output folder, threads, --force, --quiet, --summary), so that
-/// the same input and options give the same report.
+/// the results (output folder, threads, batch jobs, --force, --quiet,
+/// --summary), so that the same input and options give the same report.
 fn recorded_command_line() -> Vec<String> {
-    const WITH_VALUE: [&str; 3] = ["--out", "--threads", "--summary"];
+    const WITH_VALUE: [&str; 4] = ["--out", "--threads", "--jobs", "--summary"];
     const FLAGS: [&str; 3] = ["--force", "--quiet", "-q"];
     let mut out = vec!["chordline".to_string()];
     let mut args = std::env::args_os()
