@@ -303,9 +303,7 @@ pub fn execute(survey: &Path, opts: &Options, out: &Path, force: bool) -> Result
 /// `> summary.txt` keeps the results and the terminal still shows warnings.
 pub fn print_outcome(o: &Outcome, quiet: bool) {
     if !quiet {
-        for d in &o.results.diagnostics {
-            eprintln!("{}", fmt_diag(d));
-        }
+        print_diagnostics(&o.results.diagnostics, " (report.html lists them all)");
     }
     let mut text = chordline::report::summary(&o.results);
     if let Some(s) = &o.results.slews {
@@ -330,6 +328,25 @@ pub fn print_outcome(o: &Outcome, quiet: bool) {
     // A closed pipe (e.g. `| head`) is not a failure of the run: the
     // results are already in the folder.
     let _ = out.write_all(text.as_bytes()).and_then(|()| out.flush());
+}
+
+/// Most diagnostics printed on the terminal; the rest are counted.
+const MAX_PRINTED: usize = 200;
+
+/// Print diagnostics to standard error, at most [`MAX_PRINTED`] of them.
+/// `rest` says where the others can be read.
+pub fn print_diagnostics(diags: &[Diagnostic], rest: &str) {
+    let mut err = std::io::stderr().lock();
+    for d in diags.iter().take(MAX_PRINTED) {
+        let _ = writeln!(err, "{}", fmt_diag(d));
+    }
+    if diags.len() > MAX_PRINTED {
+        let _ = writeln!(
+            err,
+            "... and {} more warnings and notes, not printed{rest}",
+            diags.len() - MAX_PRINTED
+        );
+    }
 }
 
 fn fmt_diag(d: &Diagnostic) -> String {
