@@ -9,8 +9,6 @@
 //! also copies the screenshot to `docs/report-demo.png` (shown in the README).
 
 mod common;
-#[path = "support/skip.rs"]
-mod skip;
 
 use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
@@ -67,7 +65,7 @@ fn near(p: &[u8], c: [u8; 3], tol: u8) -> bool {
 #[test]
 fn the_demo_report_renders_in_headless_chromium() {
     if !Path::new(CHROMIUM).exists() {
-        skip::skipped(
+        common::skip::skipped(
             "report rendering in Chromium",
             &format!("{CHROMIUM} is absent (apt-get install chromium)"),
         );

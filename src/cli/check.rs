@@ -43,9 +43,7 @@ pub fn run(a: CheckArgs) -> Result<(), Failure> {
         match check_one(path, &a) {
             Ok((text, diags)) => {
                 if !a.quiet {
-                    for d in &diags {
-                        eprintln!("{d}");
-                    }
+                    super::run::print_diagnostics(&diags, "");
                 }
                 out.push_str(&text);
             }

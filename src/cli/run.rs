@@ -341,9 +341,7 @@ pub fn execute(survey: &Path, opts: &Options, out: &Path, force: bool) -> Result
 /// `> summary.txt` keeps the results and the terminal still shows warnings.
 pub fn print_outcome(o: &Outcome, quiet: bool) {
     if !quiet {
-        for d in &o.results.diagnostics {
-            eprintln!("{}", fmt_diag(d));
-        }
+        print_diagnostics(&o.results.diagnostics, " (report.html lists them all)");
     }
     let mut text = chordline::report::summary(&o.results);
     if let Some(s) = &o.results.slews {
@@ -370,15 +368,39 @@ pub fn print_outcome(o: &Outcome, quiet: bool) {
     let _ = out.write_all(text.as_bytes()).and_then(|()| out.flush());
 }
 
-/// Print the warnings and the short summary (`--summary short`) to stderr.
+/// Most diagnostics printed on the terminal; the rest are counted.
+const MAX_PRINTED: usize = 200;
+
+/// Print diagnostics to standard error, at most [`MAX_PRINTED`] of them.
+/// `rest` says where the others can be read.
+pub fn print_diagnostics(diags: &[Diagnostic], rest: &str) {
+    let mut err = std::io::stderr().lock();
+    for d in diags.iter().take(MAX_PRINTED) {
+        let _ = writeln!(err, "{}", fmt_diag(d));
+    }
+    if diags.len() > MAX_PRINTED {
+        let _ = writeln!(
+            err,
+            "... and {} more warnings and notes, not printed{rest}",
+            diags.len() - MAX_PRINTED
+        );
+    }
+}
+
+/// Print the warnings (stderr) and the short summary (`--summary short`, stdout).
 pub fn print_short(o: &Outcome, quiet: bool) {
     if !quiet {
-        for d in &o.results.diagnostics {
-            eprintln!("{}", fmt_diag(d));
-        }
+        print_diagnostics(&o.results.diagnostics, " (report.html lists them all)");
     }
-    eprint!("{}", chordline::report::summary_short(&o.results));
-    eprintln!("wrote    {} in {}", o.files.join(", "), o.folder.display());
+    let mut text = chordline::report::summary_short(&o.results);
+    text.push_str(&format!(
+        "wrote    {} in {}\n",
+        o.files.join(", "),
+        o.folder.display()
+    ));
+    let mut out = std::io::stdout().lock();
+    // A closed pipe is not a failure of the run: the results are in the folder.
+    let _ = out.write_all(text.as_bytes()).and_then(|()| out.flush());
 }
 
 fn fmt_diag(d: &Diagnostic) -> String {
