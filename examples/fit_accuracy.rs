@@ -499,7 +499,18 @@ fn main() {
         "| case | runs | boundary RMS / worst (m) | SE ratio, 95 % cover (boundaries) | radius error RMS / worst (%) | SE ratio, cover (radii) | extra / missing joints | element count right | indeterminate | practitioner: boundary RMS (m), radius RMS (%) | ms per fit |"
     );
     println!("|---|---|---|---|---|---|---|---|---|---|---|");
+    let only = args
+        .iter()
+        .position(|a| a == "--only")
+        .and_then(|i| args.get(i + 1))
+        .cloned();
     for case in cases() {
+        if only
+            .as_ref()
+            .is_some_and(|o| !case.name.contains(o.as_str()))
+        {
+            continue;
+        }
         let a = run_case(&case, seeds);
         let base = if case.single_curve && !a.base_berr.is_empty() {
             format!("{:.2}, {:.2}", rms(&a.base_berr), 100.0 * rms(&a.base_rerr))

@@ -307,6 +307,19 @@ pub fn project(c: &mut Chain, lo: f64, hi: f64) {
     }
 }
 
+/// Why a fit stopped.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Termination {
+    /// The possible gain (Gauss–Newton decrement) or the relative change of
+    /// the residual sum of squares fell below tolerance.
+    Converged,
+    /// No step along the damped directions lowered the residual sum of
+    /// squares: a minimum to rounding, or a stall at a bound.
+    NoImprovingStep,
+    /// The iteration cap was reached while the fit was still improving.
+    IterationLimit,
+}
+
 /// How a fit ended.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Outcome {
@@ -314,9 +327,30 @@ pub struct Outcome {
     pub rss: f64,
     /// Iterations used.
     pub iterations: usize,
-    /// Whether the relative change fell below tolerance.
-    pub converged: bool,
+    /// Why it stopped.
+    pub termination: Termination,
 }
+
+/// Starting damping of Levenberg–Marquardt (relative to the diagonal).
+const LAMBDA_START: f64 = 1e-3;
+/// Damping after a successful step is multiplied by this (trust more).
+const LAMBDA_DOWN: f64 = 0.3;
+/// Damping after a failed step is multiplied by this (trust less).
+const LAMBDA_UP: f64 = 10.0;
+/// Damping tries per iteration before the step is declared impossible.
+const DAMPING_TRIES: usize = 12;
+/// Relative ridge that keeps the decrement's Cholesky factor defined.
+const DECREMENT_RIDGE: f64 = 1e-12;
+/// A relative fall of the RSS below this is convergence by itself.
+const REL_CHANGE_TOL: f64 = 1e-14;
+/// A relative fall below this together with a boundary move below
+/// [`STEP_TOL`] is convergence.
+const REL_CHANGE_SMALL: f64 = 1e-9;
+/// When no step improves, a possible gain below this many times the RSS
+/// tolerance still counts as convergence (the minimum met to rounding).
+const STALL_FACTOR: f64 = 100.0;
+/// Boundary move (m) below which a step counts as nothing: a micrometre.
+const STEP_TOL: f64 = 1e-6;
 
 /// Fit `chain` to the data in place, respecting its holds.
 pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
@@ -337,17 +371,17 @@ pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
         return Outcome {
             rss,
             iterations: 0,
-            converged: true,
+            termination: Termination::Converged,
         };
     }
-    let mut lambda = 1e-3;
-    let mut converged = false;
+    let mut lambda = LAMBDA_START;
+    let mut termination = Termination::IterationLimit;
     let mut it = 0;
     while it < max_iter {
         it += 1;
         let maxd = (0..np).map(|i| jtj[(i, i)]).fold(0.0, f64::max);
         if maxd <= 0.0 {
-            converged = true;
+            termination = Termination::Converged;
             break;
         }
         // Gauss–Newton decrement gᵀ(JᵀJ)⁻¹g: the most a full step could gain
@@ -355,23 +389,25 @@ pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
         // left worth having.
         let mut ridge = jtj.clone();
         for i in 0..np {
-            ridge[(i, i)] += 1e-12 * maxd;
+            ridge[(i, i)] += DECREMENT_RIDGE * maxd;
         }
+        let mut dec = f64::INFINITY;
         if let Some(ch) = ridge.cholesky() {
-            let dec = g.dot(&ch.solve(&g));
+            dec = g.dot(&ch.solve(&g));
             if dec < d.rss_tol {
-                converged = true;
+                termination = Termination::Converged;
                 break;
             }
         }
         let mut improved = false;
-        for _ in 0..12 {
+        let mut converged = false;
+        for _ in 0..DAMPING_TRIES {
             let mut a = jtj.clone();
             for i in 0..np {
                 a[(i, i)] += lambda * jtj[(i, i)].max(1e-9 * maxd);
             }
             let Some(ch) = a.cholesky() else {
-                lambda *= 10.0;
+                lambda *= LAMBDA_UP;
                 continue;
             };
             let delta = &tm * ch.solve(&g);
@@ -399,26 +435,34 @@ pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
                 jtj = j2;
                 g = g2;
                 rss = r2;
-                lambda = (lambda * 0.3).max(1e-12);
+                lambda = (lambda * LAMBDA_DOWN).max(1e-12);
                 improved = true;
-                if rel < 1e-14 || (rel < 1e-9 && step < 1e-6) {
+                if rel < REL_CHANGE_TOL || (rel < REL_CHANGE_SMALL && step < STEP_TOL) {
                     converged = true;
                 }
                 break;
             }
-            lambda *= 10.0;
+            lambda *= LAMBDA_UP;
         }
         if !improved {
-            converged = true;
+            // Nothing lowers the RSS. If the most a step could gain is
+            // negligible, this is the minimum met to rounding; otherwise the
+            // fit is stuck (at a bound, or in a narrow valley).
+            termination = if dec < STALL_FACTOR * d.rss_tol {
+                Termination::Converged
+            } else {
+                Termination::NoImprovingStep
+            };
             break;
         }
         if converged {
+            termination = Termination::Converged;
             break;
         }
     }
     Outcome {
         rss,
         iterations: it,
-        converged,
+        termination,
     }
 }

@@ -390,23 +390,23 @@ pub fn chain_from_segments(segs: &[Seg], zero_tol: f64, step_len: f64) -> Chain 
 }
 
 /// Effective noise of the readings at the scale of `m` consecutive readings:
-/// `√(m · median(window mean²)/0.4549)` over non-overlapping windows of the
-/// de-meaned `runs` (each run a stretch believed to be straight). The median
-/// makes it robust to a turnout or a stray element (0.4549 = median of χ²₁).
+/// `√m` times the robust spread ([`crate::integrate::trimmed_sigma`]) of the
+/// means of non-overlapping windows of the de-meaned `runs` (each run a
+/// stretch believed to be straight). For white noise this is the reading
+/// noise at every `m`; correlated irregularity makes it grow with `m`. The
+/// trimming keeps a turnout or a stray element out. `None` with fewer than
+/// 3 windows.
 pub fn scale_sigma(runs: &[&[f64]], m: usize) -> Option<f64> {
     let m = m.max(1);
-    let mut sq = Vec::new();
+    let mut means = Vec::new();
     for r in runs {
         let mean = r.iter().sum::<f64>() / r.len().max(1) as f64;
         for w in r.chunks_exact(m) {
-            let wm = w.iter().map(|x| x - mean).sum::<f64>() / m as f64;
-            sq.push(wm * wm);
+            means.push(w.iter().map(|x| x - mean).sum::<f64>() / m as f64);
         }
     }
-    if sq.len() < 3 {
+    if means.len() < 3 {
         return None;
     }
-    let mid = sq.len() / 2;
-    let (_, med, _) = sq.select_nth_unstable_by(mid, |a, b| a.total_cmp(b));
-    Some((m as f64 * *med / 0.4549).sqrt())
+    crate::integrate::trimmed_sigma(&means).map(|s| s * (m as f64).sqrt())
 }

@@ -39,7 +39,7 @@ mod dense;
 mod noise;
 mod polygon;
 
-pub use noise::{detect_resolution, estimate_noise};
+pub use noise::{detect_resolution, estimate_noise, trimmed_sigma};
 pub use polygon::{curvature_from_versine, versine_from_curvature};
 
 /// A known position of the track centreline at a chainage, in the local plan
