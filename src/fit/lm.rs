@@ -466,3 +466,93 @@ pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
         termination,
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A straight, a 40 m ramp to an arc, a 15 m ramp back (finite-angle
+    /// term on), and readings every 5 m with a 20 m chord.
+    fn case() -> (Chain, Vec<f64>) {
+        let c = Chain::new(
+            vec![Level::Zero, Level::Free(2e-3), Level::Zero],
+            vec![120.0, 235.0],
+            vec![40.0, 15.0],
+        );
+        let s: Vec<f64> = (0..70).map(|i| 5.0 * i as f64).collect();
+        (c, s)
+    }
+
+    #[test]
+    fn analytic_jacobian_matches_central_differences() {
+        let (c, s) = case();
+        let v = vec![0.0; s.len()];
+        let d = Data {
+            s: &s,
+            v: &v,
+            a: 10.0,
+            eps: -1.0 / 3.0,
+            lo: -1e9,
+            hi: 1e9,
+            rss_tol: 0.0,
+        };
+        let par = full_params(&c);
+        let (_, jm) = jacobian(&c, &par, &d);
+        for (k, p) in par.iter().enumerate() {
+            let h = match p {
+                Param::Level(_) => 1e-7,
+                _ => 1e-4,
+            };
+            let shifted = |sign: f64| {
+                let mut c2 = c.clone();
+                match *p {
+                    Param::Mid(j) => c2.mids[j] += sign * h,
+                    Param::Len(j) => c2.lens[j] += sign * h,
+                    Param::Level(i) => c2.levels[i] = Level::Free(c.levels[i].value() + sign * h),
+                }
+                predict(&c2, &d)
+            };
+            let (up, down) = (shifted(1.0), shifted(-1.0));
+            for i in 0..s.len() {
+                let fd = (up[i] - down[i]) / (2.0 * h);
+                let an = jm[(i, k)];
+                assert!(
+                    (fd - an).abs() <= 1e-6 * (1.0 + an.abs()) + 1e-9,
+                    "{p:?} at {} m: analytic {an:e}, differences {fd:e}",
+                    s[i]
+                );
+            }
+        }
+    }
+
+    #[test]
+    fn a_fit_from_a_shifted_start_converges_to_the_truth() {
+        let (truth, s) = case();
+        let v = predict_with(&truth, &s);
+        let d = Data {
+            s: &s,
+            v: &v,
+            a: 10.0,
+            eps: -1.0 / 3.0,
+            lo: -1e9,
+            hi: 1e9,
+            rss_tol: 1e-16,
+        };
+        let mut c = truth.clone();
+        c.mids[0] += 4.0;
+        c.lens[1] += 6.0;
+        c.levels[1] = Level::Free(1.8e-3);
+        let out = fit(&mut c, &d, 60);
+        assert_eq!(out.termination, Termination::Converged);
+        assert!((c.mids[0] - 120.0).abs() < 1e-4, "{}", c.mids[0]);
+        assert!((c.lens[1] - 15.0).abs() < 1e-3, "{}", c.lens[1]);
+        // One iteration is not enough from this start: the limit says so.
+        let mut c = truth.clone();
+        c.mids[0] += 4.0;
+        assert_eq!(fit(&mut c, &d, 1).termination, Termination::IterationLimit);
+    }
+
+    fn predict_with(c: &Chain, s: &[f64]) -> Vec<f64> {
+        s.iter().map(|&x| c.versine(x, 10.0, -1.0 / 3.0)).collect()
+    }
+}

@@ -561,7 +561,7 @@ fn fit_stats(
         }
     }
     let chi2_sd = test_sd(st, sr);
-    let reading_sd = st.stated.unwrap_or(st.sigma_read.max(sr.sigma_res));
+    let reading_sd = st.stated.unwrap_or(chi2_sd.max(sr.sigma_res));
     let chi2_stat = rss / (chi2_sd * chi2_sd);
     let chi2_p = stats::chi2_upper(chi2_stat, dof);
     if chi2_p < CHI2_ALARM {

@@ -31,6 +31,10 @@ const RSS_TOL_FRACTION: f64 = 1e-3;
 /// less than this fraction (the robust residual scale of ~100 readings
 /// scatters by about 8 %).
 const NOISE_RTOL: f64 = 0.15;
+/// A fitted design whose residuals scatter this many times more than the
+/// reading noise has missed structure: the search starts again low, and the
+/// new design is kept when it leaves this many times less scatter.
+const MISFIT_RATIO: f64 = 2.0;
 /// Most searches the noise fixed point may cost.
 const NOISE_ROUNDS: usize = 3;
 /// Fewest residuals off the zero step for a residual noise figure of
@@ -212,6 +216,30 @@ impl Settings<'_> {
         }
     }
 
+    /// Search at penalty noise `start`, then iterate the noise to its fixed
+    /// point: (chain, groups, penalty noise, residual spread, straights).
+    fn fixed_point(
+        &self,
+        s: &[f64],
+        v: &[f64],
+        start: f64,
+        base: &segment::DpOptions,
+        coarse: &noise::Straights,
+    ) -> (Chain, Vec<GroupFit>, f64, f64, noise::Straights) {
+        let mut sigma_pen = start;
+        let (mut chain, mut fits) = self.search_at(s, v, sigma_pen, base);
+        let (mut next, mut sigma_res, mut straights) = self.noise_of(s, v, &chain, &fits, coarse);
+        for _ in 1..NOISE_ROUNDS {
+            if (next / sigma_pen - 1.0).abs() < NOISE_RTOL {
+                break;
+            }
+            sigma_pen = next;
+            (chain, fits) = self.search_at(s, v, sigma_pen, base);
+            (next, sigma_res, straights) = self.noise_of(s, v, &chain, &fits, coarse);
+        }
+        (chain, fits, sigma_pen, sigma_res, straights)
+    }
+
     /// Search the readings `keep` (indices into the input) with the noise
     /// iterated to its fixed point.
     fn search(&self, keep: &[usize]) -> Searched {
@@ -235,17 +263,22 @@ impl Settings<'_> {
         if let (true, Some((b, _))) = (bias_removed, bias) {
             v.iter_mut().for_each(|x| *x -= b);
         }
-        let mut sigma_pen = sigma0.max(coarse.sigma_eff);
-        let (mut chain, mut fits) = self.search_at(&s, &v, sigma_pen, &base);
-        let (mut next, mut sigma_res, mut straights) =
-            self.noise_of(&s, &v, &chain, &fits, &coarse);
-        for _ in 1..NOISE_ROUNDS {
-            if (next / sigma_pen - 1.0).abs() < NOISE_RTOL {
-                break;
+        let start = sigma0.max(coarse.sigma_eff);
+        let (mut chain, mut fits, mut sigma_pen, mut sigma_res, mut straights) =
+            self.fixed_point(&s, &v, start, &base, &coarse);
+        // A design that leaves far more scatter than the differences show
+        // has missed structure: where joints lie closer together than the
+        // straights the coarse partition needs, every noise figure above
+        // is inflated and the search stopped early. Start again from the
+        // quiet part of the differences and keep what explains the
+        // readings much better.
+        let low = noise::quiet_sigma(&v).max(self.floor).max(NOISE_FLOOR);
+        if sigma_res > MISFIT_RATIO * low.max(self.stated.unwrap_or(0.0)) {
+            let none = noise::on_straights(Vec::new(), &v, self.input.chord, self.input.spacing);
+            let b = self.fixed_point(&s, &v, low, &base, &none);
+            if b.3 * MISFIT_RATIO < sigma_res {
+                (chain, fits, sigma_pen, sigma_res, straights) = b;
             }
-            sigma_pen = next;
-            (chain, fits) = self.search_at(&s, &v, sigma_pen, &base);
-            (next, sigma_res, straights) = self.noise_of(&s, &v, &chain, &fits, &coarse);
         }
         Searched {
             s,

@@ -418,3 +418,59 @@ pub(super) fn split_groups(chain: &Chain, chord: f64) -> Vec<(usize, usize)> {
     }
     g
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn chain() -> Chain {
+        Chain::new(
+            vec![
+                Level::Zero,
+                Level::Free(2e-3),
+                Level::Free(2.1e-3),
+                Level::Zero,
+            ],
+            vec![100.0, 200.0, 300.0],
+            vec![40.0, 10.0, 40.0],
+        )
+    }
+
+    #[test]
+    fn merging_two_plateaus_removes_a_ramp_and_averages_them() {
+        let c = apply_move(&chain(), Move::MergeRamp(1)).unwrap();
+        assert_eq!(c.ramps(), 2);
+        assert!((c.levels[1].value() - 2.05e-3).abs() < 1e-15);
+        // A straight and an arc cannot merge.
+        assert!(apply_move(&chain(), Move::MergeRamp(0)).is_none());
+    }
+
+    #[test]
+    fn a_move_is_found_again_by_chainage() {
+        let c = chain();
+        let anchor = move_anchor(&c, Move::CollapseRamp(2));
+        let fewer = apply_move(&c, Move::DropPlateau(1)).unwrap();
+        match locate_move(&fewer, Move::CollapseRamp(2), anchor) {
+            Some(Move::CollapseRamp(j)) => assert!((fewer.mids[j] - 300.0).abs() < 1e-9),
+            other => panic!("{other:?}"),
+        }
+    }
+
+    #[test]
+    fn long_straights_cut_groups() {
+        // 100 m of straight between the curves: > 2 chords + 10 m at 20 m.
+        let c = Chain::new(
+            vec![
+                Level::Zero,
+                Level::Free(2e-3),
+                Level::Zero,
+                Level::Free(-2e-3),
+                Level::Zero,
+            ],
+            vec![100.0, 200.0, 340.0, 440.0],
+            vec![40.0, 40.0, 40.0, 40.0],
+        );
+        assert_eq!(split_groups(&c, 20.0), vec![(0, 2), (2, 4)]);
+        assert_eq!(split_groups(&c, 60.0), vec![(0, 4)]);
+    }
+}
