@@ -32,9 +32,16 @@ const RSS_TOL_FRACTION: f64 = 1e-3;
 /// scatters by about 8 %).
 const NOISE_RTOL: f64 = 0.15;
 /// A fitted design whose residuals scatter this many times more than the
-/// reading noise has missed structure: the search starts again low, and the
-/// new design is kept when it leaves this many times less scatter.
-const MISFIT_RATIO: f64 = 2.0;
+/// quiet differences show has missed structure: the search starts again low.
+/// Track irregularity alone leaves 2–4 times (the restart would then only
+/// cost time and risk spurious elements); a missed yard curve tens of times.
+const RESTART_RATIO: f64 = 5.0;
+/// The restarted design is kept when it leaves this many times less scatter.
+const RESTART_GAIN: f64 = 2.0;
+/// Longest survey (readings) the restart is tried on: a low-penalty search of
+/// a long recording-vehicle run costs minutes. Such runs keep the first
+/// search (splitting them at long straights first is left for later).
+const RESTART_MAX_READINGS: usize = 20_000;
 /// Most searches the noise fixed point may cost.
 const NOISE_ROUNDS: usize = 3;
 /// Fewest residuals off the zero step for a residual noise figure of
@@ -273,10 +280,12 @@ impl Settings<'_> {
         // quiet part of the differences and keep what explains the
         // readings much better.
         let low = noise::quiet_sigma(&v).max(self.floor).max(NOISE_FLOOR);
-        if sigma_res > MISFIT_RATIO * low.max(self.stated.unwrap_or(0.0)) {
+        if s.len() <= RESTART_MAX_READINGS
+            && sigma_res > RESTART_RATIO * low.max(self.stated.unwrap_or(0.0))
+        {
             let none = noise::on_straights(Vec::new(), &v, self.input.chord, self.input.spacing);
             let b = self.fixed_point(&s, &v, low, &base, &none);
-            if b.3 * MISFIT_RATIO < sigma_res {
+            if b.3 * RESTART_GAIN < sigma_res {
                 (chain, fits, sigma_pen, sigma_res, straights) = b;
             }
         }
