@@ -2,7 +2,7 @@
 //! in versine (chord) space.
 //!
 //! # Method
-//! 1. **Noise** ([`noise`]). The reading noise is one figure: stated, or the
+//! 1. **Noise** (`noise.rs`). The reading noise is one figure: stated, or the
 //!    plan's robust estimate (median of third differences). The penalties
 //!    start from it and from the element-scale noise on the long straights of
 //!    a coarse first partition, then iterate to a fixed point on the robust
@@ -12,7 +12,7 @@
 //!    the element-scale noise larger than the reading noise; the larger value
 //!    sets every penalty, so irregularities never become elements. A constant
 //!    reading bias is estimated on the straights.
-//! 2. **Blunders** ([`outliers`]): readings no smooth geometry explains are
+//! 2. **Blunders** (`outliers.rs`): readings no smooth geometry explains are
 //!    screened out before the search, confirmed against the fitted design,
 //!    described (wrong sign, slipped decimal point, swapped digits) and left
 //!    out of the fit unless [`FitOptions::keep_outliers`] is set.
@@ -23,10 +23,10 @@
 //!    the chord measures them ([`model`]); Levenberg–Marquardt refines every
 //!    boundary and arc curvature, curve by curve (curves separated by straights
 //!    longer than two chords are independent).
-//! 5. **Element count** ([`search`]). Bottom-up moves (drop a short plateau, hold an arc at
+//! 5. **Element count** (`search.rs`). Bottom-up moves (drop a short plateau, hold an arc at
 //!    zero, merge two equal plateaus) are accepted while the Bayesian
 //!    information criterion `RSS/σ² + p ln n` falls.
-//! 6. **Uncertainty** ([`covariance`], [`stats`], [`elements`]): covariance `(JᵀJ)⁻¹JᵀΓJ(JᵀJ)⁻¹` with the
+//! 6. **Uncertainty** (`covariance.rs`, [`stats`], `elements.rs`): covariance `(JᵀJ)⁻¹JᵀΓJ(JᵀJ)⁻¹` with the
 //!    pooled residual autocovariance `Γ`, Student-t 95 % intervals, a profile
 //!    bound for transitions the chord cannot resolve.
 //!
