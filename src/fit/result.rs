@@ -33,6 +33,10 @@ impl Estimate {
     /// the standard error within its width. Returns whether the interval was
     /// wider than `[lo, hi]` itself: then the value is not resolved.
     pub(super) fn bound(&mut self, lo: f64, hi: f64) -> bool {
+        if !(lo.is_finite() && hi.is_finite()) {
+            return true;
+        }
+        let (lo, hi) = (lo.min(hi), lo.max(hi));
         let wider = self.hi95 - self.lo95 > hi - lo;
         self.lo95 = self.lo95.clamp(lo, hi);
         self.hi95 = self.hi95.clamp(lo, hi);
@@ -338,5 +342,21 @@ impl FitResult {
     /// chainage `ch` (1/m, positive left).
     pub fn rail_curvature(&self, ch: f64) -> f64 {
         self.chain.curvature(ch)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_bound_never_panics_and_says_when_it_cut() {
+        let mut e = Estimate::new(10.0, 1e7, 1.96);
+        assert!(e.bound(0.0, 100.0));
+        assert_eq!((e.lo95, e.hi95, e.se), (0.0, 100.0, 100.0));
+        let mut e = Estimate::new(10.0, 1.0, 1.96);
+        assert!(!e.bound(100.0, 0.0)); // reversed bounds are sorted
+        assert!((e.lo95 - 8.04).abs() < 1e-12);
+        assert!(e.bound(f64::NAN, 1.0));
     }
 }
