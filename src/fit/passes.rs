@@ -306,7 +306,8 @@ impl Settings<'_> {
 /// The search with blunders set aside: screened candidates out first, then
 /// confirmed against the fitted design until the set no longer changes.
 /// Returns the search, the readings it left out and the readings that look
-/// like blunders (the same unless `keep_outliers`), as input indices.
+/// like blunders (the same unless `keep_outliers`: then they are found the
+/// same way, and the search is repeated with every reading), as input indices.
 pub(super) fn search_robust(st: &Settings) -> (Searched, Vec<usize>, Vec<usize>) {
     let inp = st.input;
     let n = inp.s.len();
@@ -316,12 +317,7 @@ pub(super) fn search_robust(st: &Settings) -> (Searched, Vec<usize>, Vec<usize>)
         }
         x
     };
-    let keep_all = st.opts.keep_outliers;
-    let mut excluded = if keep_all {
-        Vec::new()
-    } else {
-        capped(outliers::screen(&inp.v, st.sigma_read))
-    };
+    let mut excluded = capped(outliers::screen(&inp.v, st.sigma_read));
     let mut round = 0;
     loop {
         round += 1;
@@ -341,9 +337,13 @@ pub(super) fn search_robust(st: &Settings) -> (Searched, Vec<usize>, Vec<usize>)
             .map(|(&x, &o)| o - shift - sr.chain.versine(x, inp.a, inp.eps))
             .collect();
         let flagged = capped(outliers::confirm(&r_all, sr.sigma_res));
-
-        if keep_all || flagged == excluded || round >= OUTLIER_ROUNDS {
-            return (sr, excluded, flagged);
+        if flagged == excluded || round >= OUTLIER_ROUNDS {
+            if st.opts.keep_outliers && !excluded.is_empty() {
+                // Found the same way, then kept as asked: search them all.
+                let all: Vec<usize> = (0..n).collect();
+                return (st.search(&all), Vec::new(), excluded);
+            }
+            return (sr, excluded.clone(), excluded);
         }
         excluded = flagged;
     }
