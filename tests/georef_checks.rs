@@ -139,8 +139,12 @@ fn british_grid_matches_checks_5_16_and_5_17() {
             "{lon},{lat}: {ge} {gn}"
         );
     }
-    // The Helmert is metre-level true accuracy: the crate says so.
-    assert!(c.datum_note().unwrap().contains("Helmert"));
+    // The Helmert is metre-level true accuracy: the crate says so, with the
+    // transformation and accuracy PROJ 9.5.1 reports (pyproj 3.7.2
+    // Transformer.from_crs(4326, 27700).description / .accuracy: "Inverse of
+    // OSGB36 to WGS 84 (6)", 2.0 m).
+    let note = c.datum_note().unwrap();
+    assert!(note.contains("OSGB36 to WGS 84 (6)") && note.contains("2 m"), "{note}");
 }
 
 #[test]

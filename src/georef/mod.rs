@@ -31,6 +31,6 @@ pub use control::{
     ControlCheck, ControlError, ControlPoint, ControlSet, DEFAULT_SD, FLAG_LIMIT, LooResult,
     TIGHT_RADIUS, leave_one_out, position_at, read_controls,
 };
-pub use crs::{Crs, CrsError, TESTED_GRIDS};
+pub use crs::{AreaOfUse, Crs, CrsError, GridUnit, TESTED_GRIDS, supported_codes};
 pub use place::{LonLat, PlaceError, Placement, parse_bearing, parse_grid_point};
 pub use setup::{Georef, GeorefArgs, GeorefError, prepare};
