@@ -7,11 +7,11 @@
 //! earlier folder survives a failed run.
 
 use crate::diag::Diagnostic;
-use crate::export::elements::write_elements_csv;
+use crate::export::elements::{ElementPlacement, write_elements_csv_placed};
 use crate::export::geojson::{ElementProps, GeoJsonError, GeoJsonInput, write_geojson};
 use crate::export::landxml::{LandXmlError, LandXmlFrame, LandXmlOptions, write_landxml};
 use crate::export::output_dir::{OutputDir, OutputError};
-use crate::export::stations::{GeoAtStation, StationExtras, write_stations_with};
+use crate::export::stations::{GeoAtStation, GridCoords, StationExtras, write_stations_with};
 use crate::fit::{FitOptions, fit};
 use crate::geometry::{Pose, bearing_to_heading};
 use crate::georef::{Georef, GeorefArgs, GeorefError, leave_one_out, prepare};
@@ -271,7 +271,17 @@ pub fn run(
             .collect()
     });
     let slew_cols = results.slews.as_ref().map(|s| s.at_stations());
+    let grid = match &results.georef {
+        Some(g) => GridCoords::of(
+            g,
+            &results.plan,
+            results.design.as_ref().map(|(_, d)| d.as_slice()),
+        )
+        .map_err(GeorefError::from)?,
+        None => None,
+    };
     let extras = StationExtras {
+        grid: grid.as_ref().map(GridCoords::columns),
         design: results.design.as_ref().map(|(_, d)| d.as_slice()),
         geo: geo.as_deref(),
         slews: slew_cols.as_deref(),
@@ -280,7 +290,16 @@ pub fn run(
         write_stations_with(w, &results.plan, unit, &extras)
     })?;
     if let Some(f) = &results.fit {
-        dir.write_file("elements.csv", |w| write_elements_csv(f, unit, w))?;
+        let placed = match &results.design {
+            Some((al, _)) => Some(
+                ElementPlacement::of(al, results.georef.as_ref(), unit)
+                    .map_err(GeorefError::from)?,
+            ),
+            None => None,
+        };
+        dir.write_file("elements.csv", |w| {
+            write_elements_csv_placed(f, unit, placed.as_ref(), w)
+        })?;
     }
     if let Some(a) = &results.advice {
         dir.write_file("advice.csv", |w| {

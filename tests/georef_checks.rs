@@ -144,7 +144,10 @@ fn british_grid_matches_checks_5_16_and_5_17() {
     // Transformer.from_crs(4326, 27700).description / .accuracy: "Inverse of
     // OSGB36 to WGS 84 (6)", 2.0 m).
     let note = c.datum_note().unwrap();
-    assert!(note.contains("OSGB36 to WGS 84 (6)") && note.contains("2 m"), "{note}");
+    assert!(
+        note.contains("OSGB36 to WGS 84 (6)") && note.contains("2 m"),
+        "{note}"
+    );
 }
 
 #[test]

@@ -15,7 +15,10 @@ struct Point {
 }
 
 fn points() -> Vec<Point> {
-    let p = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/fixtures/georef/pyproj_points.csv");
+    let p = concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/tests/fixtures/georef/pyproj_points.csv"
+    );
     let text = std::fs::read_to_string(p).expect("the fixture is part of the repository");
     text.lines()
         .filter(|l| !l.starts_with('#') && !l.starts_with("code"))
@@ -83,7 +86,11 @@ fn every_supported_grid_agrees_with_proj_at_the_recorded_points() {
         .filter(|(_, (fw, iw))| *fw > 1e-3 || *iw > 1e-3)
         .map(|(c, (fw, iw))| format!("EPSG:{c} {:.3}/{:.3} mm", fw * 1e3, iw * 1e3))
         .collect();
-    assert!(bad.is_empty(), "{} grids off by more than 1 mm: {bad:?}", bad.len());
+    assert!(
+        bad.is_empty(),
+        "{} grids off by more than 1 mm: {bad:?}",
+        bad.len()
+    );
 }
 
 #[test]
@@ -100,8 +107,14 @@ fn a_feet_grid_and_datum_shifted_grids_are_among_them() {
     // 9.9 m away; both values printed by pyproj 3.7.2, see make_grids.py).
     let c = Crs::from_epsg(5514).unwrap();
     let (t, acc) = c.transformation_at(14.42, 50.08);
-    assert!(t.contains("S-JTSK to WGS 84 (5)") && acc == 1.0, "{t} {acc}");
+    assert!(
+        t.contains("S-JTSK to WGS 84 (5)") && acc == 1.0,
+        "{t} {acc}"
+    );
     let (e, n) = c.from_lonlat(14.42, 50.08).unwrap();
     // pyproj 3.7.2 Transformer.from_crs(4326, 5514, always_xy=True).transform(14.42, 50.08)
-    assert!((e - -743011.7234885613).abs() < 1e-3 && (n - -1043823.1813883964).abs() < 1e-3, "{e} {n}");
+    assert!(
+        (e - -743011.7234885613).abs() < 1e-3 && (n - -1043823.1813883964).abs() < 1e-3,
+        "{e} {n}"
+    );
 }

@@ -61,6 +61,9 @@ pub struct RunArgs {
     /// Height of the track above the WGS 84 ellipsoid, metres (scales ground lengths to the ellipsoid).
     #[arg(long, allow_negative_numbers = true)]
     pub height: Option<f64>,
+    /// Accept points outside the --crs grid's area of use (refused by default, naming the likely mistake).
+    #[arg(long)]
+    pub allow_outside_area: bool,
     /// Replace the output folder if it exists.
     #[arg(long)]
     pub force: bool,
@@ -201,6 +204,7 @@ impl RunArgs {
                 crs: self.crs.clone(),
                 control: self.control.clone(),
                 height: self.height,
+                allow_outside_area: self.allow_outside_area,
             },
             created: None,
             slew: (self.slews || !self.fixed.is_empty() || self.max_slew.is_some()).then(|| {

@@ -85,6 +85,14 @@ pub enum CrsError {
         "EPSG:{0} is a projected system this program has not checked against PROJ (its datum shift or projection is not reproduced exactly): use a supported grid ({TESTED_GRIDS}) or longitude/latitude"
     )]
     Unsupported(u32),
+    /// A point outside the grid's area of use (the message names the likely mistake).
+    #[error("{message}")]
+    OutsideArea {
+        /// EPSG code.
+        code: u32,
+        /// What is outside, where, and the likely mistake.
+        message: String,
+    },
     /// proj4rs could not build or apply the projection.
     #[error("EPSG:{code}: {message}")]
     Projection {
@@ -462,7 +470,10 @@ impl Crs {
             if det == 0.0 || !det.is_finite() {
                 break;
             }
-            ll = (ll.0 + (d * de - b * dn) / det, ll.1 + (a * dn - c * de) / det);
+            ll = (
+                ll.0 + (d * de - b * dn) / det,
+                ll.1 + (a * dn - c * de) / det,
+            );
         }
         Ok(ll)
     }

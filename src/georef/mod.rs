@@ -22,11 +22,13 @@
 //! ## Reference
 //! C.F.F. Karney, "Algorithms for geodesics", J. Geodesy 87(1):43–55, 2013.
 
+mod area;
 mod control;
 mod crs;
 mod place;
 mod setup;
 
+pub use area::{AREA_MARGIN_DEG, check_grid_point, check_lonlat_point};
 pub use control::{
     ControlCheck, ControlError, ControlPoint, ControlSet, DEFAULT_SD, FLAG_LIMIT, LooResult,
     TIGHT_RADIUS, leave_one_out, position_at, read_controls,
