@@ -8,7 +8,7 @@
 
 use crate::diag::Diagnostic;
 use crate::export::elements::{ElementPlacement, write_elements_csv_placed};
-use crate::export::geojson::{ElementProps, GeoJsonError, GeoJsonInput, write_geojson};
+use crate::export::geojson::{ElementProps, GeoJsonInput, build_layers, write_layer};
 use crate::export::landxml::{LandXmlError, LandXmlFrame, LandXmlOptions, write_landxml};
 use crate::export::output_dir::{OutputDir, OutputError};
 use crate::export::stations::{GeoAtStation, GridCoords, StationExtras, write_stations_with};
@@ -324,9 +324,15 @@ pub fn run(
                 .as_ref()
                 .map(|c| (c, results.control_checks.as_slice())),
         };
-        dir.write_file("alignment.geojson", |w| {
-            write_geojson(w, &input).map_err(GeoJsonError::into_io)
-        })?;
+        match build_layers(&input) {
+            Ok(layers) => {
+                for layer in &layers {
+                    dir.write_file(layer.file, |w| write_layer(w, layer))?;
+                }
+            }
+            // Reported as a failure to write the first layer; nothing is committed.
+            Err(e) => dir.write_file("alignment.geojson", |_| Err(e.into_io()))?,
+        }
         if g.controls.is_some() {
             dir.write_file("controls.csv", |w| {
                 crate::export::controls::write_checks_csv(w, &results.control_checks)
