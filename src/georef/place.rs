@@ -225,6 +225,12 @@ impl Placement {
         self.height
     }
 
+    /// Ellipsoid metres per ground metre of the local frame, `R/(R + h)`
+    /// (1 at height 0).
+    pub fn ellipsoid_per_ground(&self) -> f64 {
+        self.k
+    }
+
     /// Local ground (x east, y north) in metres → WGS 84 (longitude, latitude)
     /// in degrees, longitude in [−180, 180].
     pub fn to_lonlat(&self, x: f64, y: f64) -> (f64, f64) {
