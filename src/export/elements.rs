@@ -15,7 +15,7 @@
 //! end, a radius interval that reaches a straight) is an empty field, never
 //! NaN. Consecutive rows join exactly: each start is the previous end.
 //!
-//! With the placed design ([`write_elements_csv_placed`]) seven columns
+//! With the placed design ([`write_elements_csv_placed`](crate::export::elements::write_elements_csv_placed)) seven columns
 //! follow: `start_easting_m, start_northing_m, end_easting_m,
 //! end_northing_m` (the element's ends on the design centreline: grid
 //! coordinates with `--crs`, suffix in the grid's unit `_m`/`_usft`/`_ft`;

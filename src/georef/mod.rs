@@ -2,7 +2,10 @@
 //!
 //! * [`Placement`]: the local ground frame of the integrator as an azimuthal
 //!   equidistant projection about an origin on WGS 84 (geodesics after Karney 2013).
-//! * [`Crs`]: projected grids by EPSG code (UTM, national grids) via `proj4rs`.
+//! * [`Crs`]: projected grids by EPSG code (UTM, national grids, US State
+//!   Plane in metres and feet) via `proj4rs`, with their areas of use and
+//!   PROJ's default datum shifts; [`check_grid_point`] and
+//!   [`check_lonlat_point`] check points against the area of use.
 //! * [`read_controls`], [`ControlSet`]: control-point files, their checks,
 //!   conversion to [`crate::integrate::PositionObs`], and judging the residuals.
 //!
