@@ -361,6 +361,11 @@ pub fn run(
         dir.write_file("alignment.xml", |w| {
             write_landxml(w, placed, &props, frame, &lopts).map_err(LandXmlError::into_io)
         })?;
+        dir.write_file("alignment.ifc", |w| {
+            let o = crate::export::ifc::IfcOptions::from(&lopts);
+            crate::export::ifc::write_ifc(w, placed, &props, frame, &o)
+                .map_err(crate::export::ifc::IfcError::into_io)
+        })?;
     }
     let files = dir.files().to_vec();
     let folder = dir.commit()?;

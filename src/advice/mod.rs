@@ -276,12 +276,7 @@ pub fn max_speed(p: &Profile, cant: f64, deficiency: f64, radius: f64) -> Option
     Some((total / c).sqrt())
 }
 
-/// Degree of curve (degrees, 100 ft chord definition) of `radius` (m);
-/// `None` for R ≤ 50 ft.
-pub fn degree_of_curve(radius: f64) -> Option<f64> {
-    let half = 50.0 / (radius.abs() / FOOT);
-    (half < 1.0 && half > 0.0).then(|| 2.0 * half.asin().to_degrees())
-}
+pub use crate::chord::degree_of_curve;
 
 /// `v` (m/s) rounded down to a whole step of 5 km/h or 5 mph, in m/s.
 pub fn round_down_speed(units: AdviceUnits, v: f64) -> f64 {

@@ -14,8 +14,8 @@
 //!
 //! Coordinates are in the local ground frame ([`LandXmlFrame::Local`](crate::export::landxml::LandXmlFrame::Local)), or in
 //! a projected grid ([`LandXmlFrame::Grid`](crate::export::landxml::LandXmlFrame::Grid), with a `CoordinateSystem`
-//! element carrying the EPSG code, in the grid's unit: `Imperial`
-//! `linearUnit="USSurveyFoot"` or `"foot"` for feet grids). In a grid, every point is the grid image
+//! element carrying the EPSG code; a feet grid in its own unit, `Imperial`
+//! `linearUnit="USSurveyFoot"` or `"foot"`, a metre grid in the survey's unit). In a grid, every point is the grid image
 //! of the exact local point; directions are grid bearings (from grid north),
 //! and lengths and radii are multiplied by the element's combined scale
 //! factor (grid scale × ellipsoid/ground), measured at the element's middle,
@@ -148,7 +148,8 @@ fn civil_from_days(z: i64) -> (i64, u32, u32) {
     (if m <= 2 { y + 1 } else { y }, m, d)
 }
 
-fn date_time(t: SystemTime) -> (String, String) {
+/// UTC date `YYYY-MM-DD` and time `HH:MM:SS` of a time stamp (also used by the IFC writer).
+pub(super) fn date_time(t: SystemTime) -> (String, String) {
     let secs = t
         .duration_since(SystemTime::UNIX_EPOCH)
         .map_or(0, |d| d.as_secs() as i64);
@@ -172,6 +173,8 @@ struct Out<'a> {
     frame: LandXmlFrame<'a>,
     /// Output units per metre.
     per_m: f64,
+    /// Output units per grid unit (1 when the file is in the grid's unit).
+    grid_to_file: f64,
 }
 
 impl Out<'_> {
@@ -182,10 +185,10 @@ impl Out<'_> {
         }
         let (e, n) = match self.frame {
             LandXmlFrame::Local { .. } => (x * self.per_m, y * self.per_m),
-            // Already in the grid's unit, which is the file's.
             LandXmlFrame::Grid { placement, crs } => {
                 let (lon, lat) = placement.to_lonlat(x, y);
-                crs.from_lonlat(lon, lat)?
+                let (e, n) = crs.from_lonlat(lon, lat)?;
+                (e * self.grid_to_file, n * self.grid_to_file)
             }
         };
         if !(e.is_finite() && n.is_finite()) {
@@ -318,11 +321,12 @@ fn element_xml(
     Ok(len)
 }
 
-/// The file's length unit: the grid's in a grid frame, the survey's in the local frame.
+/// The file's length unit: a feet grid's own unit; otherwise the survey's
+/// (as in `alignment.ifc`, so that the two files agree number for number).
 fn file_unit(frame: &LandXmlFrame, unit: LengthUnit) -> GridUnit {
     match frame {
-        LandXmlFrame::Grid { crs, .. } => crs.unit(),
-        LandXmlFrame::Local { .. } => match unit {
+        LandXmlFrame::Grid { crs, .. } if crs.unit() != GridUnit::Metre => crs.unit(),
+        _ => match unit {
             LengthUnit::Metre => GridUnit::Metre,
             LengthUnit::Foot => GridUnit::Foot,
         },
@@ -479,7 +483,15 @@ pub fn build_landxml(
     }
     let unit = file_unit(&frame, opts.unit);
     let per_m = 1.0 / unit.metres();
-    let out = Out { frame, per_m };
+    let grid_to_file = match &frame {
+        LandXmlFrame::Grid { crs, .. } if crs.unit() != unit => crs.unit().metres() * per_m,
+        _ => 1.0,
+    };
+    let out = Out {
+        frame,
+        per_m,
+        grid_to_file,
+    };
     let sta0 = fin(props[0].start_chainage * per_m, "start chainage")?;
     let (geom, eqs, total) = geometry_xml(&out, alignment, props, sta0)?;
     let total = fin(total, "alignment length")?;

@@ -8,6 +8,8 @@ pub mod controls;
 pub mod elements;
 /// `alignment.geojson`: the placed survey as RFC 7946 GeoJSON.
 pub mod geojson;
+/// `alignment.ifc`: the fitted elements as an IFC 4.3 alignment.
+pub mod ifc;
 /// `alignment.xml`: the fitted elements as LandXML 1.2.
 pub mod landxml;
 pub mod output_dir;

@@ -4,7 +4,7 @@
 
 mod advice_text;
 mod html;
-pub mod svg;
+mod svg;
 
 pub use advice_text::advice_text;
 pub use html::html_report;
