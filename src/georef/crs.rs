@@ -390,20 +390,17 @@ impl Crs {
 
     /// The candidate used at a WGS 84 point: PROJ's rule (best stated
     /// accuracy among those whose area holds the point, then the smallest
-    /// area, then the first listed; candidates of unknown accuracy never; the
-    /// first listed outside all of them).
+    /// area, then the first listed; candidates of unknown accuracy only where
+    /// no other applies; the first listed outside all of them).
     fn variant_at(&self, lon: f64, lat: f64) -> &Variant {
+        // Unknown accuracy (a "ballpark" shift) only where nothing else applies.
+        let key = |v: &Variant| (v.accuracy < 0.0, v.accuracy.max(0.0), v.op_area.size());
         let mut best: Option<&Variant> = None;
         for v in &self.variants {
-            // Unknown accuracy (a "ballpark" shift) only where nothing else applies.
-            if v.accuracy < 0.0 || !v.op_area.contains(lon, lat, 0.0) {
+            if !v.op_area.contains(lon, lat, 0.0) {
                 continue;
             }
-            let better = best.is_none_or(|b| {
-                v.accuracy < b.accuracy
-                    || v.accuracy == b.accuracy && v.op_area.size() < b.op_area.size()
-            });
-            if better {
+            if best.is_none_or(|b| key(v) < key(b)) {
                 best = Some(v);
             }
         }
@@ -426,6 +423,12 @@ impl Crs {
             return None;
         }
         let shift = t.split(" + ").next().unwrap_or(t);
+        if acc < 0.0 {
+            return Some(format!(
+                "EPSG:{} ({}) is not on WGS 84, and at this place PROJ 9.5 has only '{shift}', a shift of unknown accuracy (possibly metres to tens of metres): grid coordinates here are that uncertain relative to WGS 84 positions. Relative geometry (lengths, radii) is unaffected.",
+                self.code, self.name
+            ));
+        }
         Some(format!(
             "EPSG:{} ({}) is not on WGS 84: the shift used is '{shift}', the transformation PROJ 9.5 applies by default without grid files, which EPSG states as good to {acc} m; coordinates in this grid are that uncertain relative to WGS 84 positions. Relative geometry (lengths, radii) is unaffected.",
             self.code, self.name
