@@ -17,7 +17,7 @@ use crate::geometry::{Pose, bearing_to_heading};
 use crate::georef::{Georef, GeorefArgs, GeorefError, leave_one_out, prepare};
 use crate::integrate::{IntegrateError, IntegrateOptions, integrate};
 pub use crate::results::Results;
-use crate::survey::read::{ReadOptions, SurveyError, read_survey_file};
+use crate::survey::read::{ReadOptions, SurveyError, read_survey_bytes, read_survey_source};
 use crate::survey::{Rail, Setup, Survey};
 use std::path::{Path, PathBuf};
 
@@ -47,6 +47,10 @@ pub struct Options {
     /// Cant and speed advice on the fitted curves (`None`: none; advisory
     /// only, see [`crate::advice`]). Written as `advice.csv`.
     pub advice: Option<crate::advice::AdviceOptions>,
+    /// The command that asked for the run, as words, for the report (empty:
+    /// not recorded). Leave out what does not change the results (the output
+    /// folder, threads) so that the same input gives the same report.
+    pub command_line: Vec<String>,
 }
 
 impl Options {
@@ -61,6 +65,7 @@ impl Options {
             created: None,
             slew: None,
             advice: None,
+            command_line: Vec::new(),
         }
     }
 }
@@ -80,6 +85,9 @@ pub enum RunError {
     /// The output folder could not be written.
     #[error(transparent)]
     Output(#[from] OutputError),
+    /// An option does not fit the survey (e.g. a fixed point outside it).
+    #[error("{0}")]
+    Options(String),
 }
 
 impl RunError {
@@ -88,7 +96,10 @@ impl RunError {
     pub fn is_internal(&self) -> bool {
         match self {
             RunError::Output(e) => e.is_internal(),
-            RunError::Survey(_) | RunError::Integrate(_) | RunError::Georef(_) => false,
+            RunError::Survey(_)
+            | RunError::Integrate(_)
+            | RunError::Georef(_)
+            | RunError::Options(_) => false,
         }
     }
 }
@@ -103,6 +114,9 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
         && (!opts.rail_stated || survey.has_side_column)
     {
         setup.rail = r.rail;
+    }
+    if let Some(s) = &opts.slew {
+        check_fixed(&survey, &s.fixed)?;
     }
     let (georef, mut diagnostics) = prepare(&opts.georef, &survey)?;
     let iopts = match &georef {
@@ -215,6 +229,25 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
     })
 }
 
+/// Refuse fixed points (in the survey's chainage unit) that are not finite
+/// or lie outside the survey: their slews would be silently dropped.
+fn check_fixed(survey: &Survey, fixed: &[f64]) -> Result<(), RunError> {
+    let unit = survey.chainage_unit;
+    let (Some(first), Some(last)) = (survey.readings.first(), survey.readings.last()) else {
+        return Ok(());
+    };
+    let (a, b) = (unit.from_m(first.chainage), unit.from_m(last.chainage));
+    for &c in fixed {
+        if !(c.is_finite() && c >= a && c <= b) {
+            return Err(RunError::Options(format!(
+                "--fixed {c}: the chainage is outside the survey, which runs from {a} to {b} {u}; give fixed points within the survey (in its chainage unit, or with m or ft)",
+                u = unit.suffix()
+            )));
+        }
+    }
+    Ok(())
+}
+
 /// What [`run`] produced.
 #[derive(Debug)]
 pub struct Outcome {
@@ -240,14 +273,27 @@ pub fn run(
     force: bool,
 ) -> Result<Outcome, RunError> {
     // Refuse an unusable output folder before doing any work.
-    let mut dir = OutputDir::create_for_inputs(out, force, &[survey_path])?;
+    let mut inputs = vec![survey_path];
+    inputs.extend(opts.georef.control.as_deref());
+    let mut dir = OutputDir::create_for_inputs(out, force, &inputs)?;
     let ropts = ReadOptions {
         rail: opts.rail_stated.then_some(opts.setup.rail),
         chord: opts.setup.chord,
         marking: opts.setup.marking,
     };
-    let (survey, mut diags) = read_survey_file(survey_path, &ropts)?;
+    let (name, bytes) = read_survey_source(survey_path)?;
+    let (survey, mut diags) = read_survey_bytes(&name, &bytes, &ropts)?;
+    let (created, created_basis) = match opts.created {
+        Some(t) => (t, "as given"),
+        None => stamp(survey_path),
+    };
+    let record = crate::report::RunRecord {
+        command_line: opts.command_line.clone(),
+        header_comments: crate::report::header_comments(&String::from_utf8_lossy(&bytes)),
+        date: Some((created, created_basis.to_string())),
+    };
     let mut results = process(survey, opts)?;
+    diags.extend(dir.notes().iter().map(Diagnostic::note));
     diags.append(&mut results.diagnostics);
     results.diagnostics = diags;
     let unit = results.survey.chainage_unit;
@@ -307,7 +353,7 @@ pub fn run(
         })?;
     }
     dir.write_file("report.html", |w| {
-        w.write_all(crate::report::html_report(&results).as_bytes())
+        w.write_all(crate::report::html_report(&results, &record).as_bytes())
     })?;
     let props: Vec<ElementProps> = results
         .fit
@@ -356,7 +402,7 @@ pub fn run(
                 .file_stem()
                 .map_or("alignment".into(), |s| s.to_string_lossy().into_owned()),
             unit,
-            created: opts.created.unwrap_or_else(|| stamp(survey_path)),
+            created,
         };
         dir.write_file("alignment.xml", |w| {
             write_landxml(w, placed, &props, frame, &lopts).map_err(LandXmlError::into_io)
@@ -376,16 +422,19 @@ pub fn run(
     })
 }
 
-/// A reproducible time stamp for a run: `SOURCE_DATE_EPOCH` if set (the
-/// reproducible-builds convention), else the survey file's modification time.
-fn stamp(survey_path: &Path) -> std::time::SystemTime {
+/// A reproducible time stamp for a run and where it comes from:
+/// `SOURCE_DATE_EPOCH` if set (the reproducible-builds convention), else the
+/// survey file's modification time.
+fn stamp(survey_path: &Path) -> (std::time::SystemTime, &'static str) {
     if let Some(secs) = std::env::var("SOURCE_DATE_EPOCH")
         .ok()
         .and_then(|s| s.trim().parse::<u64>().ok())
     {
-        return std::time::UNIX_EPOCH + std::time::Duration::from_secs(secs);
+        let t = std::time::UNIX_EPOCH + std::time::Duration::from_secs(secs);
+        return (t, "SOURCE_DATE_EPOCH");
     }
-    std::fs::metadata(survey_path)
+    let t = std::fs::metadata(survey_path)
         .and_then(|m| m.modified())
-        .unwrap_or(std::time::UNIX_EPOCH)
+        .unwrap_or(std::time::UNIX_EPOCH);
+    (t, "the survey file's modification time")
 }

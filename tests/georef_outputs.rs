@@ -5,8 +5,6 @@
 //! demo's control points (invented, demo-data/eastvale-control.csv).
 
 mod common;
-#[path = "support/skip.rs"]
-mod skip;
 
 use chordline::georef::Crs;
 use common::{check_contract, run_demo_to, stderr};

@@ -13,8 +13,6 @@
 //! prints the reader's JSON for every case).
 
 mod common;
-#[path = "support/skip.rs"]
-mod skip;
 
 use std::path::Path;
 use std::process::Command;
@@ -80,7 +78,7 @@ fn reader_present() -> bool {
         .output()
         .is_ok_and(|o| o.status.success());
     if !ok {
-        skip::skipped(
+        common::skip::skipped(
             "IFC read back by IfcOpenShell",
             &format!(
                 "python3 with ifcopenshell and pytest is not installed (want {READER}; `pip install ifcopenshell==0.9.0.post1 pytest`)"

@@ -4,6 +4,10 @@
 #![allow(dead_code, reason = "each test crate uses a different part")]
 
 use std::path::{Path, PathBuf};
+
+/// Visible skips (see `tests/support/skip.rs`).
+#[path = "../support/skip.rs"]
+pub mod skip;
 use std::process::{Command, Output};
 
 /// Run the built binary with `args`.
@@ -41,6 +45,11 @@ pub fn stderr(o: &Output) -> String {
     String::from_utf8_lossy(&o.stderr).into_owned()
 }
 
+/// What the run wrote to stdout (the results: summary, where it wrote).
+pub fn stdout(o: &Output) -> String {
+    String::from_utf8_lossy(&o.stdout).into_owned()
+}
+
 /// Run the team's output-contract checker (`../shared/tools/check-outputs`,
 /// Python standard library) on `dir` and assert that it passes. Returns
 /// `false`, after saying why, where the checker is absent (a user's clone has
@@ -48,7 +57,7 @@ pub fn stderr(o: &Output) -> String {
 pub fn check_contract(dir: &Path) -> bool {
     let checker = Path::new(env!("CARGO_MANIFEST_DIR")).join("../shared/tools/check-outputs");
     if !checker.exists() {
-        crate::skip::skipped(
+        skip::skipped(
             "output contract checker",
             &format!(
                 "{} is absent (no ../shared in this clone)",
