@@ -80,6 +80,10 @@ pub enum RunError {
     /// The output folder could not be written.
     #[error(transparent)]
     Output(#[from] OutputError),
+    /// The realignment asked for cannot be done (a constraint no slews meet,
+    /// a fixed point or section outside the survey).
+    #[error(transparent)]
+    Slews(#[from] crate::realign::SlewError),
 }
 
 impl RunError {
@@ -88,6 +92,7 @@ impl RunError {
     pub fn is_internal(&self) -> bool {
         match self {
             RunError::Output(e) => e.is_internal(),
+            RunError::Slews(e) => matches!(e, crate::realign::SlewError::Solver { .. }),
             RunError::Survey(_) | RunError::Integrate(_) | RunError::Georef(_) => false,
         }
     }
@@ -179,11 +184,16 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
         let mut sopts = sopts.clone();
         let to_m = survey.chainage_unit.metres();
         sopts.fixed.iter_mut().for_each(|c| *c *= to_m);
+        sopts.section = sopts.section.map(|(a, b)| (a * to_m, b * to_m));
+        for r in &mut sopts.ranges {
+            (r.from, r.to) = (r.from * to_m, r.to * to_m);
+        }
         match crate::realign::slews_for_fit(&survey, &setup, f, &sopts) {
             Ok((s, mut d)) => {
                 diagnostics.append(&mut d);
                 slews = Some(s);
             }
+            Err(e) if e.is_request() => return Err(e.into()),
             Err(e) => diagnostics.push(
                 Diagnostic::warning(format!("no slews: {e}"))
                     .hint("stations.csv is written without the slew columns"),
