@@ -292,6 +292,11 @@ pub fn run(
     if let Some(f) = &results.fit {
         dir.write_file("elements.csv", |w| write_elements_csv(f, unit, w))?;
     }
+    if let Some(s) = &results.slews {
+        dir.write_file("slews.csv", |w| {
+            crate::export::slews::write_slews_csv(w, s, &results.survey)
+        })?;
+    }
     if let Some(a) = &results.advice {
         dir.write_file("advice.csv", |w| {
             crate::advice::write_advice_csv(w, a, unit)

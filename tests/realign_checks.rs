@@ -277,7 +277,11 @@ fn fixed_point_holds_and_design_changes_minimally() {
     assert_eq!(held, vec![330.0, 335.0]);
     // Holding the middle of a 30 mm displacement forces a design change.
     assert!(s.max_design_change() > 2e-5, "{}", s.max_design_change());
-    assert!(diags.iter().all(|d| d.severity != Severity::Warning || !d.message.contains("limit")));
+    assert!(
+        diags
+            .iter()
+            .all(|d| d.severity != Severity::Warning || !d.message.contains("limit"))
+    );
     let line = summary_line(&s, LengthUnit::Metre);
     assert!(line.contains("indicative"), "{line}");
 }

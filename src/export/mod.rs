@@ -7,5 +7,7 @@ pub mod geojson;
 /// `alignment.xml`: the fitted elements as LandXML 1.2.
 pub mod landxml;
 pub mod output_dir;
+/// `slews.csv`: the slew sheet for site.
+pub mod slews;
 /// `stations.csv`: the plan at every station.
 pub mod stations;

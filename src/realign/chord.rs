@@ -38,7 +38,6 @@ pub fn versine_change(slew: &[f64], step: usize, rail: Rail) -> Vec<f64> {
         .collect()
 }
 
-
 /// Sequential banded Givens QR for rows with at most `W` nonzeros starting at
 /// their first column (after DEPENDENCIES.md §5).
 pub(super) const W: usize = 3;

@@ -4,9 +4,7 @@
 
 use super::{Binding, RangeLimit, SlewError, SlewOptions, Toward};
 use clarabel::algebra::CscMatrix;
-use clarabel::solver::{
-    DefaultSettings, DefaultSolver, IPSolver, SolverStatus, SupportedConeT,
-};
+use clarabel::solver::{DefaultSettings, DefaultSolver, IPSolver, SolverStatus, SupportedConeT};
 
 /// The problem is solved in millimetres, so that the solver's absolute
 /// tolerances (1e-8) are far below anything printed.
@@ -257,9 +255,7 @@ pub(super) fn solve_constrained(p: &Problem) -> Result<Vec<f64>, SlewError> {
 
 fn chord_slews(p: &Problem, x: &[f64]) -> Vec<f64> {
     let cols = columns(p.free);
-    cols.iter()
-        .map(|c| c.map_or(0.0, |k| x[k] / MM))
-        .collect()
+    cols.iter().map(|c| c.map_or(0.0, |k| x[k] / MM)).collect()
 }
 
 fn columns(free: &[bool]) -> Vec<Option<usize>> {

@@ -84,7 +84,7 @@ mod text;
 pub use chord::versine_change;
 pub use limits::parse_toward;
 pub use solve::slews;
-pub use text::summary_line;
+pub use text::{CAUTION, direction_words, summary_line};
 
 use crate::diag::Diagnostic;
 use crate::survey::{Setup, Survey};
@@ -182,6 +182,9 @@ pub struct Slews {
     pub chord_slew: Vec<f64>,
     /// Whether the reading is held (section end or fixed point).
     pub held: Vec<bool>,
+    /// Whether the reading is one of a fixed point's (held, or bounded by
+    /// the tolerance).
+    pub at_fixed: Vec<bool>,
     /// Measured versine (field convention), metres; `None` in a gap.
     pub measured_versine: Vec<Option<f64>>,
     /// Design versine (field convention), metres.
@@ -447,7 +450,9 @@ pub enum SlewError {
         also: String,
     },
     /// The solver failed (not an input fault).
-    #[error("{file}: the slew solver stopped without a solution ({status}); this is a fault of chordline, please report it")]
+    #[error(
+        "{file}: the slew solver stopped without a solution ({status}); this is a fault of chordline, please report it"
+    )]
     Solver {
         /// The survey.
         file: String,
@@ -464,7 +469,9 @@ impl SlewError {
     pub fn is_request(&self) -> bool {
         matches!(
             self,
-            SlewError::Infeasible { .. } | SlewError::FixedOutside { .. } | SlewError::Option { .. }
+            SlewError::Infeasible { .. }
+                | SlewError::FixedOutside { .. }
+                | SlewError::Option { .. }
         )
     }
 }

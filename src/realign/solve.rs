@@ -69,9 +69,15 @@ pub fn slews(
     let (ends, fixed_at) = held_readings(file, rd, m, &opts.fixed)?;
     let mut held = ends.clone();
     fixed_at.iter().flatten().for_each(|&i| held[i] = true);
+    let at_fixed: Vec<bool> = (0..n).map(|i| held[i] && !ends[i]).collect();
     let chains = solve_chains(file, rd, design, &held, m)?;
-    let avg = averaging(n, m, &held);
-    let (_, avg_var) = average(&chains.slew, &chains.var, &chains.cov_next, &avg, m);
+    let (_, avg_var) = average(
+        &chains.slew,
+        &chains.var,
+        &chains.cov_next,
+        &averaging(n, m, &held),
+        m,
+    );
     let sd: Vec<f64> = avg_var
         .iter()
         .map(|v| reading_sd * v.max(0.0).sqrt())
@@ -80,7 +86,12 @@ pub fn slews(
     let curve_side = curve_sides(rd, design, setup);
     let fixed_pts: Vec<(f64, Vec<usize>)> = opts.fixed.iter().copied().zip(fixed_at).collect();
     // With a tolerance the fixed points are bounded, not held, in the solve.
-    let hard = if opts.fixed_tolerance > 0.0 { &ends } else { &held };
+    let hard = if opts.fixed_tolerance > 0.0 {
+        &ends
+    } else {
+        &held
+    };
+    let avg = averaging(n, m, hard);
     let bounds = limits::station_bounds(file, &chainage, &curve_side, hard, &fixed_pts, opts)?;
     let tau = opts.versine_tolerance.unwrap_or(3.0 * reading_sd);
     let mut chord_slew = chains.slew;
@@ -111,7 +122,8 @@ pub fn slews(
         slew: reported,
         sd,
         chord_slew,
-        held,
+        held: hard.clone(),
+        at_fixed,
         measured_versine: rd.iter().map(|r| r.versine).collect(),
         design_versine: design.to_vec(),
         realised_versine,

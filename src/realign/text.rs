@@ -178,9 +178,7 @@ pub fn summary_line(s: &Slews, unit: LengthUnit) -> String {
     }
     let hidden = s.hidden().len();
     if hidden > 0 {
-        line.push_str(&format!(
-            "; {hidden} not shown (sd beyond their limit)"
-        ));
+        line.push_str(&format!("; {hidden} not shown (sd beyond their limit)"));
     }
     line.push_str(&format!(" ({CAUTION})"));
     line
