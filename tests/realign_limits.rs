@@ -285,3 +285,90 @@ fn slews_whose_sd_exceeds_their_limit_are_not_shown() {
     let (s, _) = slews(&survey, &setup(), &design, 1e-3, &opts).expect("feasible");
     assert!(s.hidden().is_empty(), "{:?}", s.hidden());
 }
+
+/// The optimiser against a general-purpose solver: scipy's SLSQP on the same
+/// objective and constraints, stated independently in
+/// `tests/fixtures/realign/make_qp_cases.py` (values recorded in
+/// `qp_cases.json` with the scipy and numpy versions).
+#[test]
+fn constrained_slews_match_scipy_slsqp() {
+    use chordline::survey::Reading;
+    use chordline::units::{LengthUnit, VersineUnit};
+    let text = include_str!("fixtures/realign/qp_cases.json");
+    let all: serde_json::Value = serde_json::from_str(text).expect("json");
+    assert!(all["scipy"].as_str().is_some_and(|v| v.starts_with('1')));
+    let nums = |v: &serde_json::Value| -> Vec<f64> {
+        v.as_array()
+            .expect("array")
+            .iter()
+            .map(|x| x.as_f64().expect("number"))
+            .collect()
+    };
+    for case in all["cases"].as_array().expect("cases") {
+        let name = case["name"].as_str().unwrap();
+        let d = case["spacing_m"].as_f64().unwrap();
+        let versine = nums(&case["versine"]);
+        let design = nums(&case["design"]);
+        let readings = versine
+            .iter()
+            .enumerate()
+            .map(|(i, v)| Reading {
+                chainage: d * i as f64,
+                versine: Some(*v),
+                rail: Rail::Right,
+                note: None,
+                line: i + 2,
+            })
+            .collect();
+        let survey = Survey {
+            source: name.into(),
+            chainage_unit: LengthUnit::Metre,
+            versine_unit: VersineUnit::Millimetre,
+            readings,
+            has_side_column: false,
+        };
+        let ranges = case["ranges"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|r| RangeLimit {
+                from: d * r[0].as_f64().unwrap(),
+                to: d * r[1].as_f64().unwrap(),
+                toward: chordline::realign::parse_toward(r[2].as_str().unwrap()).unwrap(),
+                max: r[3].as_f64().unwrap(),
+            })
+            .collect();
+        let opts = SlewOptions {
+            fixed: nums(&case["fixed_index"]).iter().map(|j| d * j).collect(),
+            fixed_tolerance: case["fixed_tolerance"].as_f64().unwrap(),
+            max_slew: case["max_slew"].as_f64(),
+            ranges,
+            versine_tolerance: case["tau"].as_f64(),
+            ..Default::default()
+        };
+        let setup = Setup::new(case["chord_m"].as_f64().unwrap(), Rail::Right);
+        let (s, _) = slews(&survey, &setup, &design, 0.5e-3, &opts).expect(name);
+        let want = nums(&case["expected_slew"]);
+        let diff = s
+            .slew
+            .iter()
+            .zip(&want)
+            .fold(0.0, |a: f64, (x, y)| a.max((x - y).abs()));
+        // Within 0.005 mm: the 1 µm safety margin on the bounds plus the
+        // solvers' tolerances.
+        assert!(
+            diff < 5e-6,
+            "{name}: max |slew − SLSQP| = {:.4} mm",
+            diff * 1e3
+        );
+        let m = s.step;
+        let inner = &s.design_change[m..s.design_change.len() - m];
+        let obj: f64 = 0.5 * inner.iter().map(|x| x * x).sum::<f64>();
+        let want_obj = case["expected_objective"].as_f64().unwrap();
+        assert!(
+            (obj - want_obj).abs() <= 1e-3 * want_obj + 1e-12,
+            "{name}: objective {obj:e} vs {want_obj:e}"
+        );
+        eprintln!("{name}: max |slew − SLSQP| = {:.5} mm", diff * 1e3);
+    }
+}
