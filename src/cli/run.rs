@@ -99,6 +99,16 @@ pub struct RunArgs {
     /// limits, e.g. 1.5mm (default: three reading standard deviations).
     #[arg(long, value_parser = small_length, value_name = "LENGTH")]
     pub versine_tolerance: Option<f64>,
+    /// Design to move the track onto: fitted (default), optimised (radii and boundaries
+    /// adjusted to move the track least), or the path of an elements.csv (implies --slews).
+    #[arg(long, value_name = "fitted|optimised|FILE")]
+    pub design: Option<String>,
+    /// What an optimised design minimises: squares (sum of squared slews) or largest.
+    #[arg(long, value_name = "squares|largest", value_parser = ["squares", "largest"])]
+    pub objective: Option<String>,
+    /// Round the radii of an optimised design to this step, e.g. 5m.
+    #[arg(long, value_name = "LENGTH")]
+    pub radius_step: Option<Length>,
     /// Line speed for cant and speed advice, e.g. 120km/h or 75mph (writes advice.csv; advisory only).
     #[arg(long, value_parser = speed_text, help_heading = "Cant and speed advice (advisory only)")]
     pub speed: Option<String>,
@@ -240,7 +250,8 @@ impl RunArgs {
             || self.fixed_tolerance.is_some()
             || !self.limits_range.is_empty()
             || self.section.is_some()
-            || self.versine_tolerance.is_some();
+            || self.versine_tolerance.is_some()
+            || self.design.is_some();
         if !wanted {
             return Ok(None);
         }
@@ -261,7 +272,40 @@ impl RunArgs {
             ranges,
             section,
             versine_tolerance: self.versine_tolerance,
+            design: self.design_choice()?,
         }))
+    }
+
+    /// The design of `--design`, `--objective`, `--radius-step`.
+    fn design_choice(&self) -> Result<chordline::realign::DesignChoice, Failure> {
+        use chordline::realign::{DesignChoice, Objective};
+        let input = |e: String| Failure::Input(anyhow::anyhow!(e));
+        let optimised = self.design.as_deref() == Some("optimised");
+        if !optimised && (self.objective.is_some() || self.radius_step.is_some()) {
+            return Err(input(
+                "--objective and --radius-step apply to --design optimised".into(),
+            ));
+        }
+        Ok(match self.design.as_deref() {
+            None | Some("fitted") => DesignChoice::Fitted,
+            Some("optimised") => DesignChoice::Optimised {
+                objective: match self.objective.as_deref() {
+                    Some("largest") => Objective::Largest,
+                    _ => Objective::SumOfSquares,
+                },
+                radius_step: self.radius_step.map(|l| l.metres()),
+            },
+            Some(path) => {
+                let text = std::fs::read_to_string(path).map_err(|e| {
+                    input(format!(
+                        "--design {path}: cannot read it ({e}); give fitted, optimised or an elements.csv"
+                    ))
+                })?;
+                let els = chordline::realign::parse_elements_csv(&text, path)
+                    .map_err(|e| input(e.to_string()))?;
+                DesignChoice::Elements(els)
+            }
+        })
     }
 }
 

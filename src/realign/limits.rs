@@ -258,7 +258,7 @@ fn chord_slews(p: &Problem, x: &[f64]) -> Vec<f64> {
     cols.iter().map(|c| c.map_or(0.0, |k| x[k] / MM)).collect()
 }
 
-fn columns(free: &[bool]) -> Vec<Option<usize>> {
+pub(super) fn columns(free: &[bool]) -> Vec<Option<usize>> {
     let mut k = 0;
     free.iter()
         .map(|&f| {
@@ -456,20 +456,20 @@ fn run(p: &Problem, mode: Mode) -> Result<Option<Solved>, SlewError> {
 }
 
 #[derive(Default)]
-struct Triplets {
+pub(super) struct Triplets {
     i: Vec<usize>,
     j: Vec<usize>,
     v: Vec<f64>,
 }
 
 impl Triplets {
-    fn push(&mut self, i: usize, j: usize, v: f64) {
+    pub(super) fn push(&mut self, i: usize, j: usize, v: f64) {
         self.i.push(i);
         self.j.push(j);
         self.v.push(v);
     }
 
-    fn matrix(self, m: usize, n: usize) -> CscMatrix<f64> {
+    pub(super) fn matrix(self, m: usize, n: usize) -> CscMatrix<f64> {
         CscMatrix::new_from_triplets(m, n, self.i, self.j, self.v)
     }
 }

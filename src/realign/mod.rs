@@ -77,11 +77,16 @@
 //! "Numerical Methods for Least Squares Problems", 1996, §6.7 (from memory).
 
 pub mod chord;
+mod design;
 mod limits;
 mod solve;
 mod text;
 
 pub use chord::versine_change;
+pub use design::{
+    DesignChoice, DesignElement, DesignOutcome, Objective, design_versines, elements_of_fit,
+    parse_elements_csv,
+};
 pub use limits::parse_toward;
 pub use solve::slews;
 pub use text::{CAUTION, direction_words, summary_line};
@@ -151,6 +156,8 @@ pub struct SlewOptions {
     /// Largest change of a design versine allowed to hold the held points
     /// and meet the limits, metres. `None`: three reading standard deviations.
     pub versine_tolerance: Option<f64>,
+    /// The design to move the track onto (used by [`slews_for_fit`]).
+    pub design: DesignChoice,
 }
 
 impl SlewOptions {
@@ -229,6 +236,8 @@ pub struct Slews {
     pub first: usize,
     /// Readings in the whole survey.
     pub survey_len: usize,
+    /// The design used when it is not the fitted one (from [`slews_for_fit`]).
+    pub design: Option<DesignOutcome>,
 }
 
 impl Slews {
@@ -476,7 +485,8 @@ impl SlewError {
     }
 }
 
-/// [`slews`] against an element fit: its design versines, and the reading
+/// [`slews`] against an element fit: the design of `opts.design` (the fit's
+/// own by default), and the reading
 /// standard deviation stated in `setup` or else the fit's estimate (which
 /// counts short-wave track irregularity as noise, so the sd is then on the
 /// cautious side).
@@ -490,5 +500,16 @@ pub fn slews_for_fit(
     opts: &SlewOptions,
 ) -> Result<(Slews, Vec<Diagnostic>), SlewError> {
     let sd = setup.reading_sd.unwrap_or(fit.stats.reading_sd);
-    slews(survey, setup, &fit.design_versine, sd, opts)
+    let (design, outcome) = design_versines(survey, setup, fit, &opts.design, opts, sd)?;
+    let (mut s, mut d) = slews(survey, setup, &design, sd, opts)?;
+    if let Some(o) = &outcome {
+        d.push(Diagnostic::note(format!(
+            "slews onto {} ({} elements; the fitted design has {})",
+            o.how,
+            o.elements.len(),
+            o.fitted.len()
+        )));
+    }
+    s.design = outcome;
+    Ok((s, d))
 }

@@ -60,6 +60,105 @@ pub fn slews(
     opts: &SlewOptions,
 ) -> Result<(Slews, Vec<Diagnostic>), SlewError> {
     let file = survey.source.as_str();
+    let sys = system(survey, setup, design_versine, reading_sd, opts)?;
+    let mut chord_slew = sys.banded.clone();
+    let rd = &survey.readings[sys.first..sys.first + sys.chainage.len()];
+    let design = &design_versine[sys.first..sys.first + sys.chainage.len()];
+    let m = sys.m;
+    let n = rd.len();
+    let change0 = realised(rd, design, &chord_slew, m).1;
+    let over_tau = change0.iter().any(|d| d.abs() > sys.tau);
+    if sys.bounds.any() || over_tau {
+        let problem = Problem {
+            file,
+            chainage: &sys.chainage,
+            free: &sys.free,
+            rows: &sys.rows,
+            avg: &sys.avg,
+            bounds: &sys.bounds,
+            tau: sys.tau,
+        };
+        chord_slew = limits::solve_constrained(&problem)?;
+    }
+    let System {
+        avg,
+        sd,
+        chainage,
+        curve_side,
+        bounds,
+        free,
+        at_fixed,
+        tau,
+        first: lo,
+        ..
+    } = sys;
+    let reported = apply(&avg, &chord_slew);
+    let (realised_versine, design_change) = realised(rd, design, &chord_slew, m);
+    let shown = (0..n)
+        .map(|i| bounds.compared(i).is_none_or(|l| sd[i] <= l))
+        .collect();
+    let Bounds { upper, lower, .. } = bounds;
+    let out = Slews {
+        chainage,
+        slew: reported,
+        sd,
+        chord_slew,
+        held: free.iter().map(|f| !f).collect(),
+        at_fixed,
+        measured_versine: rd.iter().map(|r| r.versine).collect(),
+        design_versine: design.to_vec(),
+        realised_versine,
+        design_change,
+        curve_side,
+        upper,
+        lower,
+        shown,
+        step: m,
+        max_slew: opts.max_slew,
+        fixed: opts.fixed.clone(),
+        fixed_tolerance: opts.fixed_tolerance,
+        ranges: opts.ranges.clone(),
+        versine_tolerance: tau,
+        reading_sd,
+        first: lo,
+        survey_len: survey.readings.len(),
+        design: None,
+    };
+    let diags = diagnostics(survey, &out);
+    Ok((out, diags))
+}
+
+/// The problem of a work section before any solve with limits: the held
+/// readings, the equations, the averaging, the bounds, and the banded
+/// solution without limits with its sd.
+pub(super) struct System {
+    /// Index of the section's first reading in the survey.
+    pub first: usize,
+    /// Readings per half chord.
+    pub m: usize,
+    pub chainage: Vec<f64>,
+    /// Whether each chord slew is a variable (not held exactly).
+    pub free: Vec<bool>,
+    pub at_fixed: Vec<bool>,
+    pub rows: Vec<Row>,
+    pub avg: Vec<Vec<(usize, f64)>>,
+    pub bounds: Bounds,
+    pub tau: f64,
+    pub curve_side: Vec<i8>,
+    pub sd: Vec<f64>,
+    /// Chord slews without limits (banded least squares).
+    pub banded: Vec<f64>,
+}
+
+/// Build the [`System`] of the work section of `opts`.
+pub(super) fn system(
+    survey: &Survey,
+    setup: &Setup,
+    design_versine: &[f64],
+    reading_sd: f64,
+    opts: &SlewOptions,
+) -> Result<System, SlewError> {
+    let file = survey.source.as_str();
     check_inputs(survey, design_versine, reading_sd)?;
     let (lo, hi) = section(survey, opts)?;
     let rd = &survey.readings[lo..hi];
@@ -93,57 +192,20 @@ pub fn slews(
     };
     let avg = averaging(n, m, hard);
     let bounds = limits::station_bounds(file, &chainage, &curve_side, hard, &fixed_pts, opts)?;
-    let tau = opts.versine_tolerance.unwrap_or(3.0 * reading_sd);
-    let mut chord_slew = chains.slew;
-    let change0 = realised(rd, design, &chord_slew, m).1;
-    let over_tau = change0.iter().any(|d| d.abs() > tau);
-    if bounds.any() || over_tau {
-        let rows = equations(rd, design, m);
-        let free: Vec<bool> = hard.iter().map(|h| !h).collect();
-        let problem = Problem {
-            file,
-            chainage: &chainage,
-            free: &free,
-            rows: &rows,
-            avg: &avg,
-            bounds: &bounds,
-            tau,
-        };
-        chord_slew = limits::solve_constrained(&problem)?;
-    }
-    let reported = apply(&avg, &chord_slew);
-    let (realised_versine, design_change) = realised(rd, design, &chord_slew, m);
-    let shown = (0..n)
-        .map(|i| bounds.compared(i).is_none_or(|l| sd[i] <= l))
-        .collect();
-    let Bounds { upper, lower, .. } = bounds;
-    let out = Slews {
-        chainage,
-        slew: reported,
-        sd,
-        chord_slew,
-        held: hard.clone(),
-        at_fixed,
-        measured_versine: rd.iter().map(|r| r.versine).collect(),
-        design_versine: design.to_vec(),
-        realised_versine,
-        design_change,
-        curve_side,
-        upper,
-        lower,
-        shown,
-        step: m,
-        max_slew: opts.max_slew,
-        fixed: opts.fixed.clone(),
-        fixed_tolerance: opts.fixed_tolerance,
-        ranges: opts.ranges.clone(),
-        versine_tolerance: tau,
-        reading_sd,
+    Ok(System {
         first: lo,
-        survey_len: survey.readings.len(),
-    };
-    let diags = diagnostics(survey, &out);
-    Ok((out, diags))
+        m,
+        free: hard.iter().map(|h| !h).collect(),
+        at_fixed,
+        rows: equations(rd, design, m),
+        avg,
+        bounds,
+        tau: opts.versine_tolerance.unwrap_or(3.0 * reading_sd),
+        curve_side,
+        sd,
+        chainage,
+        banded: chains.slew,
+    })
 }
 
 fn check_inputs(survey: &Survey, design: &[f64], reading_sd: f64) -> Result<(), SlewError> {
