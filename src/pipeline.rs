@@ -296,6 +296,11 @@ pub fn run(
         dir.write_file("slews.csv", |w| {
             crate::export::slews::write_slews_csv(w, s, &results.survey)
         })?;
+        if let Some(d) = &s.design {
+            dir.write_file("design-elements.csv", |w| {
+                crate::export::slews::write_design_elements_csv(w, d, unit)
+            })?;
+        }
     }
     if let Some(a) = &results.advice {
         dir.write_file("advice.csv", |w| {

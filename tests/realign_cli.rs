@@ -228,3 +228,50 @@ fn imperial_survey_gets_an_imperial_sheet() {
         assert_eq!(r[col(&head, "limit_left_in")], "1.000");
     }
 }
+
+#[test]
+fn optimised_design_is_written_beside_the_fitted_one() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("out");
+    let o = run_demo_to(
+        &out,
+        &[
+            "--design",
+            "optimised",
+            "--radius-step",
+            "5m",
+            "--section",
+            "12900,13400",
+            "--fixed",
+            "13000,13300",
+            "--max-slew",
+            "20mm",
+        ],
+    );
+    assert!(o.status.success(), "{}", stderr(&o));
+    let text = std::fs::read_to_string(out.join("design-elements.csv")).unwrap();
+    assert!(text.contains("# Design: optimised"), "{text}");
+    assert!(text.contains("indicative"));
+    let arcs: Vec<&str> = text.lines().filter(|l| l.contains(",arc,")).collect();
+    assert_eq!(arcs.len(), 2, "{text}");
+    for a in arcs {
+        let r: f64 = a.split(',').nth(4).unwrap().parse().unwrap();
+        assert_eq!(r % 5.0, 0.0, "{a}");
+    }
+    // The fitted elements.csv is still there, unchanged in form.
+    assert!(out.join("elements.csv").exists());
+    check_contract(&out);
+    // The design passed back in is used (and refused when broken).
+    let mine = dir.path().join("mine.csv");
+    std::fs::write(&mine, "element,kind,start_chainage_m\n1,arc,x\n").unwrap();
+    let o = run_demo_to(
+        &dir.path().join("o2"),
+        &["--design", mine.to_str().unwrap()],
+    );
+    assert_eq!(o.status.code(), Some(1));
+    assert!(
+        stderr(&o).contains("no column 'end_chainage_m'"),
+        "{}",
+        stderr(&o)
+    );
+}

@@ -159,3 +159,95 @@ pub fn write_slews_csv(w: impl Write, s: &Slews, survey: &Survey) -> io::Result<
     }
     w.flush()
 }
+
+/// Write `design-elements.csv`: the design the slews move the track onto,
+/// when it is not the fitted one, element by element beside the fitted
+/// element it replaces and what changed. Columns (`_ft` for an imperial
+/// survey): `element, kind, start_chainage_m, end_chainage_m, radius_m,
+/// fitted_start_chainage_m, fitted_end_chainage_m, fitted_radius_m, change`.
+/// Radii are signed centreline radii (positive curving left); chainages are
+/// survey chainages. `# ` comment lines first: how the design was chosen
+/// and the caution.
+///
+/// # Errors
+/// Only from `w`.
+pub fn write_design_elements_csv(
+    w: impl Write,
+    d: &crate::realign::DesignOutcome,
+    unit: LengthUnit,
+) -> io::Result<()> {
+    let l = unit.suffix();
+    let mut w = io::BufWriter::new(w);
+    writeln!(w, "# Design: {}.", d.how)?;
+    writeln!(w, "# Slews onto this design are {CAUTION}.")?;
+    writeln!(
+        w,
+        "element,kind,start_chainage_{l},end_chainage_{l},radius_{l},fitted_start_chainage_{l},fitted_end_chainage_{l},fitted_radius_{l},change"
+    )?;
+    let paired = d.elements.len() == d.fitted.len()
+        && d.elements
+            .iter()
+            .zip(&d.fitted)
+            .all(|(a, b)| a.kind == b.kind);
+    let x = |m: f64| Some(unit.from_m(m));
+    for (i, e) in d.elements.iter().enumerate() {
+        let f = paired.then(|| d.fitted[i]);
+        let mut row = format!("{},{}", i + 1, kind_word(e.kind));
+        for v in [
+            x(e.start),
+            x(e.end),
+            e.radius.and_then(x),
+            f.and_then(|f| x(f.start)),
+            f.and_then(|f| x(f.end)),
+            f.and_then(|f| f.radius).and_then(x),
+        ] {
+            row.push(',');
+            num(&mut row, v, 3);
+        }
+        row.push(',');
+        row.push_str(&change_words(e, f.as_ref(), unit));
+        writeln!(w, "{row}")?;
+    }
+    w.flush()
+}
+
+fn kind_word(k: crate::geometry::ElementKind) -> &'static str {
+    match k {
+        crate::geometry::ElementKind::Straight => "straight",
+        crate::geometry::ElementKind::Transition => "transition",
+        crate::geometry::ElementKind::Arc => "arc",
+    }
+}
+
+/// What changed from the fitted element, in words ("new" when the design
+/// has a different set of elements; "unchanged" below 1 mm).
+fn change_words(
+    e: &crate::realign::DesignElement,
+    f: Option<&crate::realign::DesignElement>,
+    unit: LengthUnit,
+) -> String {
+    let Some(f) = f else {
+        return "new".into();
+    };
+    let l = unit.suffix();
+    let mut parts = Vec::new();
+    for (what, a, b) in [("start", e.start, f.start), ("end", e.end, f.end)] {
+        if (a - b).abs() >= 1e-3 {
+            parts.push(format!("{what} {:+.3} {l}", unit.from_m(a - b)));
+        }
+    }
+    if let (Some(a), Some(b)) = (e.radius, f.radius)
+        && (a - b).abs() >= 1e-3
+    {
+        parts.push(format!(
+            "radius {:.3} to {:.3} {l}",
+            unit.from_m(b),
+            unit.from_m(a)
+        ));
+    }
+    if parts.is_empty() {
+        "unchanged".into()
+    } else {
+        parts.join("; ")
+    }
+}

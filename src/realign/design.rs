@@ -18,7 +18,9 @@
 //! plateau kept of non-negative length. The objective is `½Σ s̄²` (or the
 //! largest `|s̄|`) plus `½·W·Σδ²` with `W = 1000` (chosen here so that `δ`
 //! stays far below a reading's noise and the design, not `δ`, absorbs the
-//! movement) plus a small pull of the parameters towards the current design.
+//! movement) plus a small pull of the parameters towards the current design (1e-3 per
+//! m² or per (µ/m)², also chosen here); parameters that change no versine of
+//! the work section are left as fitted.
 //! Limits are elastic in these steps (penalty 10⁴ per mm, exact for an L1
 //! penalty of this size); the final slews come from the fixed-design solve of
 //! [`super::slews`] on the optimised design, which enforces every constraint.
@@ -397,7 +399,7 @@ fn sqp_step(
 
 const MM: f64 = 1e3;
 const W_DELTA: f64 = 1e3;
-const PULL: f64 = 1e-6;
+const PULL: f64 = 1e-3;
 const ELASTIC: f64 = 1e4;
 
 /// The QP of one step; returns the parameter steps (parameter units).
