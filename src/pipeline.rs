@@ -179,27 +179,7 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
             ),
         }
     }
-    let mut slews = None;
-    if let (Some(sopts), Some(f)) = (&opts.slew, &fitted) {
-        let mut sopts = sopts.clone();
-        let to_m = survey.chainage_unit.metres();
-        sopts.fixed.iter_mut().for_each(|c| *c *= to_m);
-        sopts.section = sopts.section.map(|(a, b)| (a * to_m, b * to_m));
-        for r in &mut sopts.ranges {
-            (r.from, r.to) = (r.from * to_m, r.to * to_m);
-        }
-        match crate::realign::slews_for_fit(&survey, &setup, f, &sopts) {
-            Ok((s, mut d)) => {
-                diagnostics.append(&mut d);
-                slews = Some(s);
-            }
-            Err(e) if e.is_request() => return Err(e.into()),
-            Err(e) => diagnostics.push(
-                Diagnostic::warning(format!("no slews: {e}"))
-                    .hint("stations.csv is written without the slew columns"),
-            ),
-        }
-    }
+    let slews = realign_stage(&survey, &setup, opts, fitted.as_ref(), &mut diagnostics)?;
     let advice = match (&opts.advice, &fitted) {
         (Some(a), Some(f)) => Some(crate::advice::advise(f, a)),
         (Some(_), None) => {
@@ -223,6 +203,36 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
         control_checks,
         diagnostics,
     })
+}
+
+/// Slews onto the design asked for (`None` without `opts.slew` or a fit).
+/// A realignment that cannot be done as asked ends the run; one the data
+/// cannot support leaves the slews out with a warning.
+fn realign_stage(
+    survey: &Survey,
+    setup: &Setup,
+    opts: &Options,
+    fitted: Option<&crate::fit::FitResult>,
+    diagnostics: &mut Vec<Diagnostic>,
+) -> Result<Option<crate::realign::Slews>, RunError> {
+    let (Some(sopts), Some(f)) = (&opts.slew, fitted) else {
+        return Ok(None);
+    };
+    let sopts = sopts.in_metres(survey.chainage_unit.metres());
+    match crate::realign::slews_for_fit(survey, setup, f, &sopts) {
+        Ok((s, mut d)) => {
+            diagnostics.append(&mut d);
+            Ok(Some(s))
+        }
+        Err(e) if e.is_request() => Err(e.into()),
+        Err(e) => {
+            diagnostics.push(
+                Diagnostic::warning(format!("no slews: {e}"))
+                    .hint("stations.csv is written without the slew columns"),
+            );
+            Ok(None)
+        }
+    }
 }
 
 /// What [`run`] produced.
@@ -293,14 +303,7 @@ pub fn run(
         dir.write_file("elements.csv", |w| write_elements_csv(f, unit, w))?;
     }
     if let Some(s) = &results.slews {
-        dir.write_file("slews.csv", |w| {
-            crate::export::slews::write_slews_csv(w, s, &results.survey)
-        })?;
-        if let Some(d) = &s.design {
-            dir.write_file("design-elements.csv", |w| {
-                crate::export::slews::write_design_elements_csv(w, d, unit)
-            })?;
-        }
+        crate::export::slews::write_slew_files(&mut dir, s, &results.survey)?;
     }
     if let Some(a) = &results.advice {
         dir.write_file("advice.csv", |w| {

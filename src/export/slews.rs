@@ -160,6 +160,25 @@ pub fn write_slews_csv(w: impl Write, s: &Slews, survey: &Survey) -> io::Result<
     w.flush()
 }
 
+/// Write `slews.csv` and, when the design is not the fitted one,
+/// `design-elements.csv` into the output folder.
+///
+/// # Errors
+/// [`crate::export::output_dir::OutputError`] from writing.
+pub fn write_slew_files(
+    dir: &mut crate::export::output_dir::OutputDir,
+    s: &Slews,
+    survey: &Survey,
+) -> Result<(), crate::export::output_dir::OutputError> {
+    dir.write_file("slews.csv", |w| write_slews_csv(w, s, survey))?;
+    if let Some(d) = &s.design {
+        dir.write_file("design-elements.csv", |w| {
+            write_design_elements_csv(w, d, survey.chainage_unit)
+        })?;
+    }
+    Ok(())
+}
+
 /// Write `design-elements.csv`: the design the slews move the track onto,
 /// when it is not the fitted one, element by element beside the fitted
 /// element it replaces and what changed. Columns (`_ft` for an imperial

@@ -27,7 +27,7 @@
 //! With a radius step the arc radii are then rounded and the boundaries
 //! optimised again.
 
-use super::limits::{Bounds, Triplets, columns};
+use super::limits::{Triplets, columns};
 use super::{SlewError, SlewOptions};
 use crate::fit::FitResult;
 use crate::fit::model::{Chain, Level};
@@ -402,6 +402,174 @@ const W_DELTA: f64 = 1e3;
 const PULL: f64 = 1e-3;
 const ELASTIC: f64 = 1e4;
 
+/// Where each block of unknowns sits in the step's QP:
+/// `x = [s | δ | Δp | slack per bound row | t]`.
+struct Layout {
+    fcol: Vec<Option<usize>>,
+    nr: usize,
+    np: usize,
+    nb: usize,
+    o_d: usize,
+    o_p: usize,
+    o_e: usize,
+    o_t: usize,
+    nx: usize,
+}
+
+impl Layout {
+    fn new(sys: &super::solve::System, np: usize, obj: Objective) -> Self {
+        let fcol = columns(&sys.free);
+        let nf = fcol.iter().flatten().count();
+        let nr = sys.rows.len();
+        let bd = &sys.bounds;
+        let nb = (0..sys.avg.len())
+            .map(|i| usize::from(bd.upper[i].is_some()) + usize::from(bd.lower[i].is_some()))
+            .sum::<usize>();
+        let (o_d, o_p, o_e) = (nf, nf + nr, nf + nr + np);
+        let o_t = o_e + nb;
+        Layout {
+            fcol,
+            nr,
+            np,
+            nb,
+            o_d,
+            o_p,
+            o_e,
+            o_t,
+            nx: o_t + usize::from(obj == Objective::Largest),
+        }
+    }
+
+    /// Add `sign ×` the reported slew at reading `i` to row `row`.
+    fn reported(
+        &self,
+        t: &mut Triplets,
+        sys: &super::solve::System,
+        row: usize,
+        i: usize,
+        sign: f64,
+    ) {
+        for &(j, w) in &sys.avg[i] {
+            if let Some(k) = self.fcol[j] {
+                t.push(row, k, sign * w);
+            }
+        }
+    }
+}
+
+/// The equality rows: `Σ c·s − δ − B·Δp = D − v` (mm). Returns their count.
+fn equality_rows(
+    sys: &super::solve::System,
+    dcols: &[Vec<f64>],
+    l: &Layout,
+    t: &mut Triplets,
+    b: &mut Vec<f64>,
+) -> usize {
+    for (r, row) in sys.rows.iter().enumerate() {
+        for &(j, cf) in &row.coef {
+            if let Some(k) = l.fcol[j] {
+                t.push(r, k, cf);
+            }
+        }
+        t.push(r, l.o_d + r, -1.0);
+        for (k, col) in dcols.iter().enumerate() {
+            let v = col[sys.first + row.at] * MM;
+            if v != 0.0 {
+                t.push(r, l.o_p + k, -v);
+            }
+        }
+        b.push(row.rhs * MM);
+    }
+    b.len()
+}
+
+/// Elastic bounds on the reported slews, `|δ| ≤ τ`, and the rows of the
+/// largest-slew objective.
+fn bound_rows(sys: &super::solve::System, l: &Layout, t: &mut Triplets, b: &mut Vec<f64>) {
+    let bd = &sys.bounds;
+    let mut e = 0;
+    for i in 0..sys.avg.len() {
+        for (bound, sign) in [(bd.upper[i], 1.0), (bd.lower[i].map(|v| -v), -1.0)] {
+            let Some(v) = bound else { continue };
+            let row = b.len();
+            l.reported(t, sys, row, i, sign);
+            t.push(row, l.o_e + e, -1.0);
+            b.push(v * MM);
+            e += 1;
+        }
+    }
+    for k in 0..l.nb {
+        t.push(b.len(), l.o_e + k, -1.0);
+        b.push(0.0);
+    }
+    for r in 0..l.nr {
+        for sign in [1.0, -1.0] {
+            t.push(b.len(), l.o_d + r, sign);
+            b.push(sys.tau * MM);
+        }
+    }
+    if l.nx > l.o_t {
+        for i in 0..sys.avg.len() {
+            for sign in [1.0, -1.0] {
+                let row = b.len();
+                l.reported(t, sys, row, i, sign);
+                t.push(row, l.o_t, -1.0);
+                b.push(0.0);
+            }
+        }
+    }
+}
+
+/// The trust region, non-negative ramp lengths and plateau lengths.
+fn step_rows(c: &Chain, params: &[(u8, usize)], l: &Layout, t: &mut Triplets, b: &mut Vec<f64>) {
+    for (k, &(which, j)) in params.iter().enumerate() {
+        let lim = match which {
+            0 => 0.02 * c.levels[j].value().abs() / unit(0),
+            _ => 5.0,
+        };
+        for sign in [1.0, -1.0] {
+            t.push(b.len(), l.o_p + k, sign);
+            b.push(lim);
+        }
+        if which == 2 {
+            t.push(b.len(), l.o_p + k, -1.0);
+            b.push(c.lens[j]); // length stays ≥ 0
+        }
+    }
+    plateau_rows(c, params, l.o_p, t, b);
+}
+
+/// `½xᵀPx + qᵀx`: the slew objective, `W·½Σδ²`, the pull on the steps, the
+/// slack penalty.
+fn objective(sys: &super::solve::System, l: &Layout, obj: Objective) -> (CscMatrix<f64>, Vec<f64>) {
+    let mut pt = Triplets::default();
+    if obj == Objective::SumOfSquares {
+        for w in &sys.avg {
+            for &(j, wj) in w {
+                for &(k, wk) in w {
+                    if let (Some(cj), Some(ck)) = (l.fcol[j], l.fcol[k])
+                        && cj <= ck
+                    {
+                        pt.push(cj, ck, wj * wk);
+                    }
+                }
+            }
+        }
+    }
+    for r in 0..l.nr {
+        pt.push(l.o_d + r, l.o_d + r, W_DELTA);
+    }
+    for k in 0..l.np {
+        pt.push(l.o_p + k, l.o_p + k, PULL);
+    }
+    let mut q = vec![0.0; l.nx];
+    q[l.o_e..l.o_t].iter_mut().for_each(|v| *v = ELASTIC);
+    if l.nx > l.o_t {
+        q[l.o_t] = 1.0;
+    }
+    (pt.matrix(l.nx, l.nx), q)
+}
+
 /// The QP of one step; returns the parameter steps (parameter units).
 fn solve_step(
     ctx: &Ctx,
@@ -411,125 +579,15 @@ fn solve_step(
     dcols: &[Vec<f64>],
     obj: Objective,
 ) -> Result<Vec<f64>, SlewError> {
-    let fcol = columns(&sys.free);
-    let nf = fcol.iter().flatten().count();
-    let nr = sys.rows.len();
-    let np = params.len();
-    let bounds: &Bounds = &sys.bounds;
-    let nb = (0..sys.avg.len())
-        .map(|i| usize::from(bounds.upper[i].is_some()) + usize::from(bounds.lower[i].is_some()))
-        .sum::<usize>();
-    let nt = usize::from(obj == Objective::Largest);
-    // x = [s | δ | Δp | slack per bound row | t]
-    let (o_d, o_p, o_e) = (nf, nf + nr, nf + nr + np);
-    let o_t = o_e + nb;
-    let nx = o_t + nt;
+    let l = Layout::new(sys, params.len(), obj);
     let mut t = Triplets::default();
     let mut b = Vec::new();
-    let lo = sys.first;
-    for (r, row) in sys.rows.iter().enumerate() {
-        for &(j, cf) in &row.coef {
-            if let Some(k) = fcol[j] {
-                t.push(r, k, cf);
-            }
-        }
-        t.push(r, o_d + r, -1.0);
-        for (k, col) in dcols.iter().enumerate() {
-            let v = col[lo + row.at] * MM;
-            if v != 0.0 {
-                t.push(r, o_p + k, -v);
-            }
-        }
-        b.push(row.rhs * MM);
-    }
-    let n_eq = b.len();
-    let mut e = 0;
-    for i in 0..sys.avg.len() {
-        for (bound, sign) in [(bounds.upper[i], 1.0), (bounds.lower[i].map(|l| -l), -1.0)] {
-            let Some(v) = bound else { continue };
-            let row = b.len();
-            for &(j, w) in &sys.avg[i] {
-                if let Some(k) = fcol[j] {
-                    t.push(row, k, sign * w);
-                }
-            }
-            t.push(row, o_e + e, -1.0);
-            b.push(v * MM);
-            e += 1;
-        }
-    }
-    for k in 0..nb {
-        let row = b.len();
-        t.push(row, o_e + k, -1.0);
-        b.push(0.0);
-    }
-    for r in 0..nr {
-        for sign in [1.0, -1.0] {
-            let row = b.len();
-            t.push(row, o_d + r, sign);
-            b.push(sys.tau * MM);
-        }
-    }
-    // Trust region and plateau lengths.
-    for (k, &(which, j)) in params.iter().enumerate() {
-        let lim = match which {
-            0 => 0.02 * c.levels[j].value().abs() / unit(0),
-            _ => 5.0,
-        };
-        for sign in [1.0, -1.0] {
-            let row = b.len();
-            t.push(row, o_p + k, sign);
-            b.push(lim);
-        }
-        if which == 2 {
-            let row = b.len();
-            t.push(row, o_p + k, -1.0);
-            b.push(c.lens[j]); // length stays ≥ 0
-        }
-    }
-    plateau_rows(c, params, o_p, &mut t, &mut b);
-    if obj == Objective::Largest {
-        for i in 0..sys.avg.len() {
-            for sign in [1.0, -1.0] {
-                let row = b.len();
-                for &(j, w) in &sys.avg[i] {
-                    if let Some(k) = fcol[j] {
-                        t.push(row, k, sign * w);
-                    }
-                }
-                t.push(row, o_t, -1.0);
-                b.push(0.0);
-            }
-        }
-    }
+    let n_eq = equality_rows(sys, dcols, &l, &mut t, &mut b);
+    bound_rows(sys, &l, &mut t, &mut b);
+    step_rows(c, params, &l, &mut t, &mut b);
     let m = b.len();
-    let a = t.matrix(m, nx);
-    let mut pt = Triplets::default();
-    if obj == Objective::SumOfSquares {
-        for w in &sys.avg {
-            for &(j, wj) in w {
-                for &(k, wk) in w {
-                    if let (Some(cj), Some(ck)) = (fcol[j], fcol[k])
-                        && cj <= ck
-                    {
-                        pt.push(cj, ck, wj * wk);
-                    }
-                }
-            }
-        }
-    }
-    for r in 0..nr {
-        pt.push(o_d + r, o_d + r, W_DELTA);
-    }
-    for k in 0..np {
-        pt.push(o_p + k, o_p + k, PULL);
-    }
-    let pm: CscMatrix<f64> = pt.matrix(nx, nx);
-    let mut q = vec![0.0; nx];
-    q[o_e..o_t].iter_mut().for_each(|v| *v = ELASTIC);
-    if nt == 1 {
-        q[o_t] = 1.0;
-    }
+    let a = t.matrix(m, l.nx);
+    let (pm, q) = objective(sys, &l, obj);
     let cones = [
         SupportedConeT::ZeroConeT(n_eq),
         SupportedConeT::NonnegativeConeT(m - n_eq),
@@ -547,7 +605,7 @@ fn solve_step(
     solver.solve();
     match solver.solution.status {
         SolverStatus::Solved | SolverStatus::AlmostSolved => {
-            Ok(solver.solution.x[o_p..o_p + np].to_vec())
+            Ok(solver.solution.x[l.o_p..l.o_p + l.np].to_vec())
         }
         s => Err(fail(format!("design optimisation: {s:?}"))),
     }

@@ -165,6 +165,18 @@ impl SlewOptions {
     pub fn has_limits(&self) -> bool {
         self.max_slew.is_some() || !self.ranges.is_empty() || self.fixed_tolerance > 0.0
     }
+
+    /// The same options with the chainages (fixed points, section, range
+    /// limits) given in a unit of `to_m` metres converted to metres.
+    pub fn in_metres(&self, to_m: f64) -> SlewOptions {
+        let mut o = self.clone();
+        o.fixed.iter_mut().for_each(|c| *c *= to_m);
+        o.section = o.section.map(|(a, b)| (a * to_m, b * to_m));
+        for r in &mut o.ranges {
+            (r.from, r.to) = (r.from * to_m, r.to * to_m);
+        }
+        o
+    }
 }
 
 /// Slews at every reading of the work section (gaps included), SI units.
