@@ -224,7 +224,9 @@ fn realign_stage(
             diagnostics.append(&mut d);
             Ok(Some(s))
         }
-        Err(e) if e.is_request() => Err(e.into()),
+        Err(e) if e.is_request() || matches!(e, crate::realign::SlewError::Solver { .. }) => {
+            Err(e.into())
+        }
         Err(e) => {
             diagnostics.push(
                 Diagnostic::warning(format!("no slews: {e}"))

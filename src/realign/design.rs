@@ -14,7 +14,8 @@
 //! are linearised in the arc curvatures and the transition mid-points and
 //! lengths (central differences), and one QP in the slews, the design
 //! changes `δ` and the parameter steps is solved by Clarabel, within a trust
-//! region (5 m on boundaries, 2 % on curvatures: chosen here) and with every
+//! region (5 m on boundaries, 2 % on curvatures: chosen here; halved when a
+//! step does not reduce the movement of the final solve) and with every
 //! plateau kept of non-negative length. The objective is `½Σ s̄²` (or the
 //! largest `|s̄|`) plus `½·W·Σδ²` with `W = 1000` (chosen here so that `δ`
 //! stays far below a reading's noise and the design, not `δ`, absorbs the
@@ -335,15 +336,46 @@ fn stepped(c: &Chain, p: (u8, usize), h: f64) -> Chain {
 
 const ITERATIONS: usize = 8;
 
-fn optimise(ctx: &Ctx, obj: Objective, step: Option<f64>, offset: f64) -> Result<Chain, SlewError> {
-    let mut c = ctx.base.clone();
+/// The movement of the final, fixed-design solve on `c` (sum of squared
+/// slews or the largest), infinite when no slews meet the constraints.
+fn merit(ctx: &Ctx, c: &Chain, obj: Objective) -> f64 {
+    let d = versines(ctx.survey, ctx.setup, ctx.fit, ctx.base, c);
+    match super::slews(ctx.survey, ctx.setup, &d, ctx.reading_sd, ctx.opts) {
+        Ok((s, _)) => match obj {
+            Objective::SumOfSquares => s.slew.iter().map(|x| x * x).sum(),
+            Objective::Largest => s.slew.iter().fold(0.0, |m: f64, x| m.max(x.abs())),
+        },
+        Err(_) => f64::INFINITY,
+    }
+}
+
+/// SQP iterations from `c`: a step is kept when the movement of the final
+/// solve does not grow (or no design so far meets the constraints);
+/// otherwise the trust region is halved and the step tried again.
+fn iterate(ctx: &Ctx, mut c: Chain, obj: Objective, fix_levels: bool) -> Result<Chain, SlewError> {
+    let mut f = merit(ctx, &c, obj);
+    let mut scale = 1.0;
     for _ in 0..ITERATIONS {
-        let (next, moved) = sqp_step(ctx, &c, obj, false)?;
-        c = next;
-        if moved < 1e-4 {
-            break;
+        let (next, moved) = sqp_step(ctx, &c, obj, fix_levels, scale)?;
+        let fn_ = merit(ctx, &next, obj);
+        if fn_ <= f || f.is_infinite() {
+            c = next;
+            f = fn_;
+            if moved < 1e-4 {
+                break;
+            }
+        } else {
+            scale *= 0.5;
+            if scale < 0.1 {
+                break;
+            }
         }
     }
+    Ok(c)
+}
+
+fn optimise(ctx: &Ctx, obj: Objective, step: Option<f64>, offset: f64) -> Result<Chain, SlewError> {
+    let mut c = iterate(ctx, ctx.base.clone(), obj, false)?;
     if let Some(s) = step.filter(|s| *s > 0.0) {
         for l in c.levels.iter_mut() {
             if let Level::Free(k) = *l {
@@ -353,13 +385,7 @@ fn optimise(ctx: &Ctx, obj: Objective, step: Option<f64>, offset: f64) -> Result
                 }
             }
         }
-        for _ in 0..ITERATIONS {
-            let (next, moved) = sqp_step(ctx, &c, obj, true)?;
-            c = next;
-            if moved < 1e-4 {
-                break;
-            }
-        }
+        c = iterate(ctx, c, obj, true)?;
     }
     Ok(c)
 }
@@ -371,23 +397,29 @@ fn sqp_step(
     c: &Chain,
     obj: Objective,
     fix_levels: bool,
+    scale: f64,
 ) -> Result<(Chain, f64), SlewError> {
-    let params = parameters(c, fix_levels);
     let d0 = versines(ctx.survey, ctx.setup, ctx.fit, ctx.base, c);
-    let cols: Vec<Vec<f64>> = params
-        .iter()
-        .map(|&p| {
-            let h = if p.0 == 0 { 0.01 } else { 0.01 };
+    let sys = super::solve::system(ctx.survey, ctx.setup, &d0, ctx.reading_sd, ctx.opts)?;
+    let section = sys.first..sys.first + sys.chainage.len();
+    // Central differences; parameters that change no versine of the work
+    // section cannot change a slew and are left alone.
+    let (params, cols): (Vec<(u8, usize)>, Vec<Vec<f64>>) = parameters(c, fix_levels)
+        .into_iter()
+        .map(|p| {
+            let h = 0.01;
             let up = versines(ctx.survey, ctx.setup, ctx.fit, ctx.base, &stepped(c, p, h));
             let dn = versines(ctx.survey, ctx.setup, ctx.fit, ctx.base, &stepped(c, p, -h));
-            up.iter()
+            let col: Vec<f64> = up
+                .iter()
                 .zip(&dn)
                 .map(|(a, b)| (a - b) / (2.0 * h))
-                .collect()
+                .collect();
+            (p, col)
         })
-        .collect();
-    let sys = super::solve::system(ctx.survey, ctx.setup, &d0, ctx.reading_sd, ctx.opts)?;
-    let dp = solve_step(ctx, c, &sys, &params, &cols, obj)?;
+        .filter(|(_, col)| col[section.clone()].iter().any(|v| v.abs() > 1e-9))
+        .unzip();
+    let dp = solve_step(ctx, c, &sys, &params, &cols, obj, scale)?;
     let mut next = c.clone();
     let mut moved: f64 = 0.0;
     for (k, &p) in params.iter().enumerate() {
@@ -401,6 +433,9 @@ const MM: f64 = 1e3;
 const W_DELTA: f64 = 1e3;
 const PULL: f64 = 1e-3;
 const ELASTIC: f64 = 1e4;
+/// The steps keep this far (metres) inside the bounds, so that the final
+/// solve (which keeps 1 µm inside them) is not left on their edge.
+const INSIDE: f64 = 3e-6;
 
 /// Where each block of unknowns sits in the step's QP:
 /// `x = [s | δ | Δp | slack per bound row | t]`.
@@ -494,7 +529,7 @@ fn bound_rows(sys: &super::solve::System, l: &Layout, t: &mut Triplets, b: &mut 
             let row = b.len();
             l.reported(t, sys, row, i, sign);
             t.push(row, l.o_e + e, -1.0);
-            b.push(v * MM);
+            b.push((v - INSIDE).max(0.0) * MM);
             e += 1;
         }
     }
@@ -505,7 +540,7 @@ fn bound_rows(sys: &super::solve::System, l: &Layout, t: &mut Triplets, b: &mut 
     for r in 0..l.nr {
         for sign in [1.0, -1.0] {
             t.push(b.len(), l.o_d + r, sign);
-            b.push(sys.tau * MM);
+            b.push((sys.tau - INSIDE).max(0.0) * MM);
         }
     }
     if l.nx > l.o_t {
@@ -521,11 +556,18 @@ fn bound_rows(sys: &super::solve::System, l: &Layout, t: &mut Triplets, b: &mut 
 }
 
 /// The trust region, non-negative ramp lengths and plateau lengths.
-fn step_rows(c: &Chain, params: &[(u8, usize)], l: &Layout, t: &mut Triplets, b: &mut Vec<f64>) {
+fn step_rows(
+    c: &Chain,
+    params: &[(u8, usize)],
+    l: &Layout,
+    scale: f64,
+    t: &mut Triplets,
+    b: &mut Vec<f64>,
+) {
     for (k, &(which, j)) in params.iter().enumerate() {
         let lim = match which {
-            0 => 0.02 * c.levels[j].value().abs() / unit(0),
-            _ => 5.0,
+            0 => 0.02 * scale * c.levels[j].value().abs() / unit(0),
+            _ => 5.0 * scale,
         };
         for sign in [1.0, -1.0] {
             t.push(b.len(), l.o_p + k, sign);
@@ -578,13 +620,14 @@ fn solve_step(
     params: &[(u8, usize)],
     dcols: &[Vec<f64>],
     obj: Objective,
+    scale: f64,
 ) -> Result<Vec<f64>, SlewError> {
     let l = Layout::new(sys, params.len(), obj);
     let mut t = Triplets::default();
     let mut b = Vec::new();
     let n_eq = equality_rows(sys, dcols, &l, &mut t, &mut b);
     bound_rows(sys, &l, &mut t, &mut b);
-    step_rows(c, params, &l, &mut t, &mut b);
+    step_rows(c, params, &l, scale, &mut t, &mut b);
     let m = b.len();
     let a = t.matrix(m, l.nx);
     let (pm, q) = objective(sys, &l, obj);

@@ -13,7 +13,7 @@ const MM: f64 = 1e3;
 /// solver's tolerance still prints within its limit.
 const MARGIN: f64 = 1e-6;
 /// A relaxation smaller than this (metres) counts as none.
-const SLACK_FLOOR: f64 = 2e-6;
+const SLACK_FLOOR: f64 = 1e-9;
 
 /// Parse a direction word for a range limit: `left`, `right`, `in` or
 /// `out` (case does not matter).
