@@ -275,3 +275,58 @@ fn optimised_design_is_written_beside_the_fitted_one() {
         stderr(&o)
     );
 }
+
+/// The README "Realignment" example: the fitted design cannot meet the
+/// platform limit (exit 1, named); the optimised design meets every limit.
+#[test]
+fn readme_realignment_example() {
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("out");
+    let args = [
+        "--reading-sd",
+        "0.5mm",
+        "--section",
+        "12980,13400",
+        "--fixed",
+        "13040,13180,13340",
+        "--limit",
+        "13120,13240,out,0mm",
+        "--max-slew",
+        "15mm",
+    ];
+    let o = run_demo_to(&out, &args);
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("the limit of 0.0 mm out from 13120.000 to 13240.000 m binds"),
+        "{}",
+        stderr(&o)
+    );
+    let mut opt = args.to_vec();
+    opt.extend(["--design", "optimised"]);
+    let o = run_demo_to(&out, &opt);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let (head, rows) = sheet(&out.join("slews.csv"));
+    let (c, s, m) = (
+        col(&head, "chainage_m"),
+        col(&head, "slew_mm"),
+        col(&head, "mark"),
+    );
+    let mut shown = 0;
+    for r in &rows {
+        let ch: f64 = r[c].parse().unwrap();
+        let Ok(slew) = r[s].parse::<f64>() else {
+            continue;
+        };
+        shown += 1;
+        assert!(slew.abs() <= 15.0, "{r:?}");
+        // Outwards on this left-hand curve is to the right.
+        if (13120.0..=13240.0).contains(&ch) {
+            assert!(slew >= 0.0, "{r:?}");
+        }
+        if r[m].contains("fixed") {
+            assert!(slew.abs() <= 0.5, "{r:?}");
+        }
+    }
+    assert!(shown > 30, "{shown}");
+    check_contract(&out);
+}

@@ -100,10 +100,11 @@ fn longest_free_run(s: &Slews) -> f64 {
 
 /// The direction of the slew at reading `i` in words: left or right facing
 /// increasing chainage, and in (towards the curve centre) or out on a curve.
-/// Empty for no move.
+/// Empty for no move (under 0.005 mm).
 pub fn direction_words(s: &Slews, i: usize) -> &'static str {
     let v = s.slew[i];
-    if v == 0.0 {
+    // No words for a move that prints as 0.00 mm.
+    if v.abs() < 5e-6 {
         return "";
     }
     let left = v > 0.0;
