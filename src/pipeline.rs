@@ -14,10 +14,10 @@ use crate::export::output_dir::{OutputDir, OutputError};
 use crate::export::stations::{GeoAtStation, StationExtras, write_stations_with};
 use crate::fit::{FitOptions, fit};
 use crate::geometry::{Pose, bearing_to_heading};
-use crate::georef::{Georef, GeorefArgs, GeorefError, leave_one_out, prepare, write_checks_csv};
+use crate::georef::{Georef, GeorefArgs, GeorefError, leave_one_out, prepare};
 use crate::integrate::{IntegrateError, IntegrateOptions, integrate};
 pub use crate::results::Results;
-use crate::survey::read::{ReadOptions, SurveyError, read_survey_file};
+use crate::survey::read::{ReadOptions, SurveyError, SurveyErrorKind, read_survey_bytes};
 use crate::survey::{Rail, Setup, Survey};
 use std::path::{Path, PathBuf};
 
@@ -47,6 +47,10 @@ pub struct Options {
     /// Cant and speed advice on the fitted curves (`None`: none; advisory
     /// only, see [`crate::advice`]). Written as `advice.csv`.
     pub advice: Option<crate::advice::AdviceOptions>,
+    /// The command that asked for the run, as words, for the report (empty:
+    /// not recorded). Leave out what does not change the results (the output
+    /// folder, threads) so that the same input gives the same report.
+    pub command_line: Vec<String>,
 }
 
 impl Options {
@@ -61,6 +65,7 @@ impl Options {
             created: None,
             slew: None,
             advice: None,
+            command_line: Vec::new(),
         }
     }
 }
@@ -268,7 +273,19 @@ pub fn run(
         chord: opts.setup.chord,
         marking: opts.setup.marking,
     };
-    let (survey, mut diags) = read_survey_file(survey_path, &ropts)?;
+    let name = survey_path.display().to_string();
+    let bytes = std::fs::read(survey_path)
+        .map_err(|source| SurveyError::file(&name, SurveyErrorKind::Io { source }))?;
+    let (survey, mut diags) = read_survey_bytes(&name, &bytes, &ropts)?;
+    let (created, created_basis) = match opts.created {
+        Some(t) => (t, "as given"),
+        None => stamp(survey_path),
+    };
+    let record = crate::report::RunRecord {
+        command_line: opts.command_line.clone(),
+        header_comments: crate::report::header_comments(&String::from_utf8_lossy(&bytes)),
+        date: Some((created, created_basis.to_string())),
+    };
     let mut results = process(survey, opts)?;
     diags.append(&mut results.diagnostics);
     results.diagnostics = diags;
@@ -309,11 +326,11 @@ pub fn run(
     }
     if let Some(a) = &results.advice {
         dir.write_file("advice.csv", |w| {
-            crate::advice::write_advice_csv(w, a, unit)
+            crate::export::advice::write_advice_csv(w, a, unit)
         })?;
     }
     dir.write_file("report.html", |w| {
-        w.write_all(crate::report::html_report(&results).as_bytes())
+        w.write_all(crate::report::html_report(&results, &record).as_bytes())
     })?;
     let props: Vec<ElementProps> = results
         .fit
@@ -335,7 +352,7 @@ pub fn run(
         })?;
         if g.controls.is_some() {
             dir.write_file("controls.csv", |w| {
-                write_checks_csv(w, &results.control_checks)
+                crate::export::controls::write_checks_csv(w, &results.control_checks)
             })?;
         }
     }
@@ -356,10 +373,15 @@ pub fn run(
                 .file_stem()
                 .map_or("alignment".into(), |s| s.to_string_lossy().into_owned()),
             unit,
-            created: opts.created.unwrap_or_else(|| stamp(survey_path)),
+            created,
         };
         dir.write_file("alignment.xml", |w| {
             write_landxml(w, placed, &props, frame, &lopts).map_err(LandXmlError::into_io)
+        })?;
+        dir.write_file("alignment.ifc", |w| {
+            let o = crate::export::ifc::IfcOptions::from(&lopts);
+            crate::export::ifc::write_ifc(w, placed, &props, frame, &o)
+                .map_err(crate::export::ifc::IfcError::into_io)
         })?;
     }
     let files = dir.files().to_vec();
@@ -371,16 +393,19 @@ pub fn run(
     })
 }
 
-/// A reproducible time stamp for a run: `SOURCE_DATE_EPOCH` if set (the
-/// reproducible-builds convention), else the survey file's modification time.
-fn stamp(survey_path: &Path) -> std::time::SystemTime {
+/// A reproducible time stamp for a run and where it comes from:
+/// `SOURCE_DATE_EPOCH` if set (the reproducible-builds convention), else the
+/// survey file's modification time.
+fn stamp(survey_path: &Path) -> (std::time::SystemTime, &'static str) {
     if let Some(secs) = std::env::var("SOURCE_DATE_EPOCH")
         .ok()
         .and_then(|s| s.trim().parse::<u64>().ok())
     {
-        return std::time::UNIX_EPOCH + std::time::Duration::from_secs(secs);
+        let t = std::time::UNIX_EPOCH + std::time::Duration::from_secs(secs);
+        return (t, "SOURCE_DATE_EPOCH");
     }
-    std::fs::metadata(survey_path)
+    let t = std::fs::metadata(survey_path)
         .and_then(|m| m.modified())
-        .unwrap_or(std::time::UNIX_EPOCH)
+        .unwrap_or(std::time::UNIX_EPOCH);
+    (t, "the survey file's modification time")
 }

@@ -3,8 +3,6 @@
 //! no advice file unless asked for.
 
 mod common;
-#[path = "support/skip.rs"]
-mod skip;
 
 use common::{check_contract, run_demo_to, stderr};
 use std::path::Path;

@@ -2,8 +2,6 @@
 //! codes, never losing earlier results, determinism.
 
 mod common;
-#[path = "support/skip.rs"]
-mod skip;
 
 use common::{check_contract, chordline, demo_survey, run_demo_to, stderr};
 

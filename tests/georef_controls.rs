@@ -422,7 +422,8 @@ fn leave_one_out_and_residuals_flag_the_bad_point() {
 
 #[test]
 fn checks_are_written_as_csv() {
-    use chordline::georef::{ControlCheck, write_checks_csv};
+    use chordline::export::controls::write_checks_csv;
+    use chordline::georef::ControlCheck;
     let checks = vec![
         ControlCheck {
             id: "A,1".into(),

@@ -48,9 +48,6 @@ use crate::geometry::ElementKind;
 use crate::units::{FOOT, INCH};
 use std::fmt::Write as _;
 
-mod write;
-pub use write::{advice_text, write_advice_csv};
-
 /// The caution carried by every advice output (file header, terminal, README).
 pub const CAUTION: &[&str] = &[
     "ADVISORY ONLY - not a design, not an authority to run trains.",
@@ -279,12 +276,7 @@ pub fn max_speed(p: &Profile, cant: f64, deficiency: f64, radius: f64) -> Option
     Some((total / c).sqrt())
 }
 
-/// Degree of curve (degrees, 100 ft chord definition) of `radius` (m);
-/// `None` for R ≤ 50 ft.
-pub fn degree_of_curve(radius: f64) -> Option<f64> {
-    let half = 50.0 / (radius.abs() / FOOT);
-    (half < 1.0 && half > 0.0).then(|| 2.0 * half.asin().to_degrees())
-}
+pub use crate::chord::degree_of_curve;
 
 /// `v` (m/s) rounded down to a whole step of 5 km/h or 5 mph, in m/s.
 pub fn round_down_speed(units: AdviceUnits, v: f64) -> f64 {
@@ -753,4 +745,27 @@ pub fn limit_lines(p: &Profile) -> Vec<String> {
         format!("1 in {:.0}", 1.0 / x)
     });
     out
+}
+
+/// The statement lines of an advice (without any prefix): the caution, every
+/// limit with its source, and what was asked for. `advice.csv` writes them
+/// as `# ` comments, the terminal block indented.
+pub fn header_lines(a: &Advice) -> Vec<String> {
+    let o = &a.options;
+    let u = o.profile.units;
+    let mut v: Vec<String> = CAUTION.iter().map(|s| s.to_string()).collect();
+    v.extend(limit_lines(&o.profile));
+    v.push(match o.speed {
+        Some(s) => format!("line speed {:.0} {}", s / u.speed_scale(), u.speed_label()),
+        None => "line speed not given".into(),
+    });
+    v.push(match o.applied_cant {
+        Some(c) => format!(
+            "applied cant {:.1} {} in every arc (as given; capped at the limit)",
+            c / u.cant_scale(),
+            u.cant_suffix()
+        ),
+        None => "applied cant not given".into(),
+    });
+    v
 }

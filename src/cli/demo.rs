@@ -34,7 +34,18 @@ pub fn run(a: DemoArgs) -> Result<(), Failure> {
         survey.display(),
         a.out.display()
     );
-    let opts = Options::new(20.0, Rail::Left);
+    let mut opts = Options::new(20.0, Rail::Left);
+    opts.command_line = [
+        "chordline",
+        "run",
+        DEMO_SURVEY,
+        "--chord",
+        "20m",
+        "--rail",
+        "left",
+    ]
+    .map(String::from)
+    .to_vec();
     let force = a.force || a.out == std::path::Path::new("out/demo");
     let o = execute(&survey, &opts, &a.out, force)?;
     print_outcome(&o, false);

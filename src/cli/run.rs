@@ -73,6 +73,9 @@ pub struct RunArgs {
     /// Do not print warnings (the summary still counts them).
     #[arg(long, short)]
     pub quiet: bool,
+    /// How much summary to print: full (with the element table) or short (a few lines, for long routes).
+    #[arg(long, value_enum, default_value = "full")]
+    pub summary: SummaryLength,
     /// Compute slews onto the fitted design (indicative only; see the README).
     #[arg(long)]
     pub slews: bool,
@@ -231,6 +234,7 @@ impl RunArgs {
             created: None,
             slew: self.slew_options()?,
             advice: self.advice()?,
+            command_line: recorded_command_line(),
             fit: (!self.no_fit).then(|| chordline::fit::FitOptions {
                 reading_sd: self.reading_sd,
                 threads: self.threads,
@@ -358,6 +362,37 @@ fn section_text(s: &str) -> Result<String, String> {
     parse_section(s).map(|_| s.to_string())
 }
 
+/// How much summary `run` prints.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum SummaryLength {
+    /// Everything: set-up, noise, plan, the element table and statistics.
+    Full,
+    /// A few lines: extent, elements counted, sharpest arc, residuals, end.
+    Short,
+}
+
+/// The command line for the report, without the options that do not change
+/// the results (output folder, threads, --force, --quiet, --summary), so that
+/// the same input and options give the same report.
+fn recorded_command_line() -> Vec<String> {
+    const WITH_VALUE: [&str; 3] = ["--out", "--threads", "--summary"];
+    const FLAGS: [&str; 3] = ["--force", "--quiet", "-q"];
+    let mut out = vec!["chordline".to_string()];
+    let mut args = std::env::args_os()
+        .skip(1)
+        .map(|a| a.to_string_lossy().into_owned());
+    while let Some(a) = args.next() {
+        if WITH_VALUE.contains(&a.as_str()) {
+            args.next();
+        } else if !(FLAGS.contains(&a.as_str())
+            || WITH_VALUE.iter().any(|w| a.starts_with(&format!("{w}="))))
+        {
+            out.push(a);
+        }
+    }
+    out
+}
+
 /// Check a `--speed` value and keep its text (the unit chooses the default profile).
 fn speed_text(s: &str) -> Result<String, String> {
     chordline::advice::parse_speed(s).map(|_| s.to_string())
@@ -367,7 +402,10 @@ fn speed_text(s: &str) -> Result<String, String> {
 pub fn run(c: RunCommand) -> Result<(), Failure> {
     let a = &c.args;
     let outcome = execute(&c.survey, &a.options()?, &a.out, a.force)?;
-    print_outcome(&outcome, a.quiet);
+    match a.summary {
+        SummaryLength::Full => print_outcome(&outcome, a.quiet),
+        SummaryLength::Short => print_short(&outcome, a.quiet),
+    }
     Ok(())
 }
 
@@ -399,9 +437,20 @@ pub fn print_outcome(o: &Outcome, quiet: bool) {
     if let Some(a) = &o.results.advice {
         eprint!(
             "{}",
-            chordline::advice::advice_text(a, o.results.survey.chainage_unit)
+            chordline::report::advice_text(a, o.results.survey.chainage_unit)
         );
     }
+    eprintln!("wrote    {} in {}", o.files.join(", "), o.folder.display());
+}
+
+/// Print the warnings and the short summary (`--summary short`) to stderr.
+pub fn print_short(o: &Outcome, quiet: bool) {
+    if !quiet {
+        for d in &o.results.diagnostics {
+            eprintln!("{}", fmt_diag(d));
+        }
+    }
+    eprint!("{}", chordline::report::summary_short(&o.results));
     eprintln!("wrote    {} in {}", o.files.join(", "), o.folder.display());
 }
 

@@ -29,7 +29,7 @@ mod setup;
 
 pub use control::{
     ControlCheck, ControlError, ControlPoint, ControlSet, DEFAULT_SD, FLAG_LIMIT, LooResult,
-    TIGHT_RADIUS, leave_one_out, position_at, read_controls, write_checks_csv,
+    TIGHT_RADIUS, leave_one_out, position_at, read_controls,
 };
 pub use crs::{Crs, CrsError, TESTED_GRIDS};
 pub use place::{LonLat, PlaceError, Placement, parse_bearing, parse_grid_point};

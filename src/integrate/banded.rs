@@ -85,6 +85,7 @@ impl BandedLsq {
     }
 
     /// Residual sum of squares of the rows added so far (at the solution).
+    #[cfg_attr(not(test), allow(dead_code, reason = "checked in the unit tests"))]
     pub fn rss(&self) -> f64 {
         self.rss
     }

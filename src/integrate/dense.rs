@@ -18,7 +18,7 @@
 //! 1998 (from memory); METHODS.md §3.
 
 use super::banded::BandedLsq;
-use super::polygon::curvature_from_versine;
+use crate::chord::curvature_from_versine;
 use crate::survey::Marking;
 
 /// A knot grid with curvature values.

@@ -34,13 +34,16 @@ use crate::geometry::Pose;
 use crate::survey::{Marking, Rail, Setup, Survey};
 
 mod adjust;
-pub mod banded;
+mod banded;
 mod dense;
 mod noise;
 mod polygon;
 
+pub use crate::chord::{
+    curvature_from_versine, degree_of_curve, radius_from_degree_of_curve, radius_from_versine,
+    radius_from_versine_approx, versine_from_curvature, versine_from_radius,
+};
 pub use noise::{detect_resolution, estimate_noise};
-pub use polygon::{curvature_from_versine, versine_from_curvature};
 
 /// A known position of the track centreline at a chainage, in the local plan
 /// frame (metres), used as an observation together with the versines.
@@ -245,61 +248,6 @@ pub enum IntegrateError {
         "the control points could not be combined with the versines (the adjustment is singular); check for duplicated points with zero standard deviation"
     )]
     Singular,
-}
-
-/// Exact radius (metres, signed like `v`) of the circle that gives the
-/// chord-side versine `v` on a chord of length `chord` (metres) with the given
-/// marking; `None` for a zero versine (a straight) or a versine no circle
-/// gives. Wire: `R = (a² + v²)/(2v)` (exact sagitta, `a` = half chord); taped
-/// marks: the root of `v = R(1 − cos(a/R))`.
-///
-/// # Examples
-/// ```
-/// use chordline::integrate::radius_from_versine;
-/// use chordline::survey::Marking;
-/// // CHECKS.md 1.6: v = 50 mm, c = 20 m: exact R = 1000.025 m.
-/// let r = radius_from_versine(20.0, 0.050, Marking::Wire).unwrap();
-/// assert!((r - 1000.025).abs() < 1e-3);
-/// ```
-pub fn radius_from_versine(chord: f64, v: f64, marking: Marking) -> Option<f64> {
-    let k = curvature_from_versine(v, 0.5 * chord, marking)?;
-    (k != 0.0).then(|| 1.0 / k)
-}
-
-/// The trade approximation `R = c²/(8v)` (metres; CHECKS.md 1.1–1.2: on a
-/// 20 m chord `R[m] = 50 000/v[mm]`). Infinite for `v = 0`.
-pub fn radius_from_versine_approx(chord: f64, v: f64) -> f64 {
-    chord * chord / (8.0 * v)
-}
-
-/// Versine (metres) of a circle of radius `radius` (metres, signed) on a chord
-/// of length `chord` with the given marking: wire `R − √(R² − a²)`, taped
-/// `R(1 − cos(a/R))`.
-pub fn versine_from_radius(chord: f64, radius: f64, marking: Marking) -> f64 {
-    versine_from_curvature(1.0 / radius, 0.5 * chord, marking)
-}
-
-/// Degree of curve, chord definition (railway usage): the angle in degrees
-/// subtended by a 100 ft chord on a circle of radius `radius_m` metres,
-/// `D = 2 asin(50 ft/R)`. `None` when the radius is shorter than 50 ft.
-///
-/// # Examples
-/// ```
-/// use chordline::integrate::degree_of_curve;
-/// // CHECKS.md 1.16: D = 1° (chord definition) ↔ R = 5729.651 ft.
-/// let d = degree_of_curve(5729.651 * 0.3048).unwrap();
-/// assert!((d - 1.0).abs() < 1e-6);
-/// ```
-pub fn degree_of_curve(radius_m: f64) -> Option<f64> {
-    let half = 50.0 * crate::units::FOOT;
-    let r = radius_m.abs();
-    (r >= half && r.is_finite()).then(|| 2.0 * (half / r).asin().to_degrees())
-}
-
-/// Radius in metres of a curve of `d_deg` degrees, chord definition:
-/// `R = 50 ft / sin(D/2)` (CHECKS.md 1.16).
-pub fn radius_from_degree_of_curve(d_deg: f64) -> f64 {
-    50.0 * crate::units::FOOT / (0.5 * d_deg.to_radians()).sin()
 }
 
 /// Lateral standard deviation after `n` stations at spacing `a` when the start

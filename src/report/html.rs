@@ -1,303 +1,212 @@
-//! A self-contained HTML report of a run: summary, cautions, diagrams of
-//! versines, curvature, residuals, plan and uncertainty, and the element
-//! table. One file, inline SVG, no scripts, no fonts, no network.
+//! A self-contained HTML report of a run: how it was made, the summary, the
+//! elements, diagrams along the track (in sections of a few km on long
+//! surveys, after an overview), the plan with the control points, the
+//! uncertainty, cant and speed advice, warnings. One file, inline SVG, no
+//! scripts, no fonts, no network; the same results give the same bytes.
+//!
+//! Layout: one column at most 1000 px wide, so nothing scrolls sideways at
+//! 1400 px and the diagrams keep 11 px text or more at 800 px; `@media print`
+//! sets A4/Letter margins, keeps each diagram on one page and starts each
+//! section of a long survey on a new page.
 
-use super::svg::{Chart, Series};
-use crate::diag::Severity;
+use super::RunRecord;
+use super::diagrams::{Diagrams, Range};
+use super::sections::{Section, sections};
+use super::svg::esc;
+use super::tables;
 use crate::results::Results;
 use std::fmt::Write as _;
 
-fn esc(s: &str) -> String {
-    s.replace('&', "&amp;")
-        .replace('<', "&lt;")
-        .replace('>', "&gt;")
-        .replace('"', "&quot;")
+const CSS: &str = "*{box-sizing:border-box}\
+body{margin:0;background:#fff;color:#1b1b1b;font-family:sans-serif;font-size:16px;line-height:1.45}\
+main{max-width:1000px;margin:0 auto;padding:1.2em 1.2em 3em}\
+h1{font-size:1.6em;margin:.3em 0 .1em}\
+h2{font-size:1.25em;margin:2.2em 0 .6em;padding-bottom:.15em;border-bottom:2px solid #1b1b1b}\
+h3{font-size:1.08em;margin:1.6em 0 .4em}\
+p.sub{margin:0 0 1em;color:#333}\
+.caution{border:2px solid #1b1b1b;border-left-width:8px;background:#fff7e0;padding:.6em 1em;margin:1em 0}\
+.caution ul{margin:.3em 0;padding-left:1.3em}\
+nav.toc{font-size:.95em}nav.toc a{margin-right:1em;white-space:nowrap}\
+table{border-collapse:collapse;font-size:.92em;margin:.4em 0}\
+th,td{border:1px solid #b8b8b8;padding:.3em .5em;vertical-align:top}\
+th{background:#ececec;text-align:left}\
+table.facts{width:100%}table.facts th{width:8.5em}\
+table.num td{text-align:right;font-variant-numeric:tabular-nums}table.num td.k{text-align:left}\
+tr.arc td{background:#f3f3f3}tr.flag td{font-size:.9em;border-top:none}tr{break-inside:avoid;page-break-inside:avoid}\
+.pm{font-size:.86em;color:#3a3a3a;white-space:nowrap}.cut{font-size:.84em;font-style:italic}\
+code{font-family:monospace;font-size:.92em}code.cmd{white-space:pre-wrap;overflow-wrap:anywhere}\
+.comments{font-family:monospace;font-size:.9em;white-space:pre-wrap;overflow-wrap:anywhere}\
+.wide{overflow-x:auto}\
+ul.stats{padding-left:1.2em;margin:.4em 0}p.note,figcaption{font-size:.9em;color:#333}\
+figure{margin:1em 0 1.8em;break-inside:avoid;page-break-inside:avoid}\
+svg.chart{display:block;width:100%;height:auto}\
+ul.diag li{margin:.2em 0}ul.diag li.warn b{background:#1b1b1b;color:#fff;padding:0 .3em}\
+footer{margin-top:3em;font-size:.85em;color:#444}\
+@media (max-width:860px){main{padding:.6em .6em 2em}table{font-size:.86em}th,td{padding:.2em .3em}}\
+@media print{@page{margin:14mm 12mm}body{font-size:10pt}main{max-width:none;padding:0}\
+h2,h3{break-after:avoid;page-break-after:avoid}.caution{background:none}\
+section.part{break-before:page;page-break-before:always}.wide{overflow:visible}\
+nav.toc a{color:inherit;text-decoration:none}}";
+
+fn figure(svg: &str, caption: Option<&str>) -> String {
+    match caption {
+        Some(c) => format!(
+            "<figure>{svg}<figcaption>{}</figcaption></figure>\n",
+            esc(c)
+        ),
+        None => format!("<figure>{svg}</figure>\n"),
+    }
 }
 
-const CSS: &str = "body{font-family:sans-serif;max-width:980px;margin:2em auto;padding:0 1em;color:#222}\
-h1{font-size:1.5em}h2{font-size:1.15em;margin-top:2em;border-bottom:1px solid #ccc}\
-pre{background:#f6f6f6;padding:.8em;overflow-x:auto;font-size:.85em}\
-table{border-collapse:collapse;font-size:.85em}td,th{border:1px solid #ccc;padding:.25em .5em;text-align:right}\
-th{background:#eee}td.k{text-align:left}.caution{border-left:4px solid #b60;background:#fff6ea;padding:.6em 1em}\
-.warn{color:#a40}";
+const SLEW_CAUTION: &str = "<p class=\"caution\"><b>Caution.</b> Slews are indicative, for planning only: check clearances, structure gauges, fixed points and cant against local standards before any track is moved.</p>\n";
 
-/// The report as HTML text.
-pub fn html_report(r: &Results) -> String {
-    let u = r.survey.chainage_unit;
-    let lu = u.suffix();
-    let vu = u.versine_unit();
-    let mut h = String::new();
+/// Versines, curvature, residuals and slews over one range.
+fn along_track(h: &mut String, d: &Diagrams<'_>, range: Range) {
+    h.push_str(&figure(&d.versines(range, false), None));
+    h.push_str(&figure(&d.curvature(range, false), None));
+    if let Some(s) = d.residuals(range) {
+        h.push_str(&figure(&s, None));
+    }
+    if let Some((s, cap)) = d.slews(range) {
+        h.push_str(SLEW_CAUTION);
+        h.push_str(&figure(&s, Some(&cap)));
+    }
+}
+
+fn sectioned(h: &mut String, d: &Diagrams<'_>, parts: &[Section], lu: &str) {
+    let _ = writeln!(
+        h,
+        "<p>The survey is long, so it is drawn whole first (an overview) and then in {} sections of about 2 km, each on its own page when printed.</p>",
+        parts.len()
+    );
+    h.push_str("<h3>Overview of the whole survey</h3>\n");
+    h.push_str(&figure(&d.versines(None, true), None));
+    h.push_str(&figure(&d.curvature(None, true), None));
+    h.push_str("<nav class=\"toc\">Sections: ");
+    for (i, s) in parts.iter().enumerate() {
+        let _ = write!(h, "<a href=\"#s{}\">{:.0}–{:.0}</a> ", i + 1, s.from, s.to);
+    }
+    h.push_str("</nav>\n");
+    for (i, s) in parts.iter().enumerate() {
+        let _ = writeln!(
+            h,
+            "<section class=\"part\" id=\"s{}\"><h3>Section {} of {}: {:.1} to {:.1} {lu}</h3>",
+            i + 1,
+            i + 1,
+            parts.len(),
+            s.from,
+            s.to
+        );
+        along_track(h, d, Some((s.from, s.to)));
+        h.push_str("</section>\n");
+    }
+}
+
+fn head(h: &mut String, r: &Results, rec: &RunRecord) {
+    let t = esc(&r.survey.source);
     let _ = write!(
         h,
-        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>chordline report: {t}</title><style>{CSS}</style></head><body>\n<h1>Alignment from versines: {t}</h1>\n",
-        t = esc(&r.survey.source)
+        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><meta name=\"viewport\" content=\"width=device-width, initial-scale=1\"><title>chordline report: {t}</title><style>{CSS}</style></head><body><main>\n<h1>Track alignment from versines</h1>\n<p class=\"sub\"><code>{t}</code>"
     );
+    if let Some(first) = rec.header_comments.iter().find(|c| !c.is_empty()) {
+        let _ = write!(h, " · {}", esc(first));
+    }
+    if let Some((time, _)) = &rec.date {
+        let (d, _) = crate::export::landxml::date_time(*time);
+        let _ = write!(h, " · {d}");
+    }
+    h.push_str("</p>\n");
     h.push_str(
         "<p class=\"caution\"><b>Caution.</b> These figures come from chord offsets measured by others and fitted by statistics. \
 They are an aid to a competent track engineer, not a substitute for one: check them against the site, the records and your \
 railway's standards before using them for slewing, cant, speed or any decision that bears on safety. Intervals are 95&nbsp;%; \
 an element marked indeterminate could not be resolved by the data.</p>\n",
     );
-    let _ = write!(
-        h,
-        "<h2>Summary</h2>\n<pre>{}</pre>\n",
-        esc(&super::summary(r))
-    );
+}
 
+/// The report as HTML text. `rec` says how the run came about (command,
+/// date, the survey file's header comments).
+pub fn html_report(r: &Results, rec: &RunRecord) -> String {
+    let u = r.survey.chainage_unit;
+    let lu = u.suffix();
+    let mut h = String::new();
+    head(&mut h, r, rec);
+    let mut toc = vec![
+        ("summary", "Summary"),
+        ("track", "Along the track"),
+        ("elements", "Elements"),
+        ("plan", "Plan"),
+        ("uncertainty", "Uncertainty"),
+    ];
+    if r.fit.is_none() {
+        toc.retain(|t| t.0 != "elements");
+    }
+    if r.advice.is_some() {
+        toc.push(("advice", "Cant and speed advice"));
+    }
+    toc.push(("run", "How it was made"));
+    if !r.diagnostics.is_empty() {
+        toc.push(("notes", "Warnings and notes"));
+    }
+    h.push_str("<nav class=\"toc\">");
+    for (id, name) in &toc {
+        let _ = write!(h, "<a href=\"#{id}\">{name}</a>");
+    }
+    h.push_str("</nav>\n");
+    let _ = write!(h, "<h2 id=\"summary\">Summary</h2>\n{}", tables::summary(r));
+    let d = Diagrams::new(r);
+    h.push_str("<h2 id=\"track\">Along the track</h2>\n<p class=\"note\">Above each diagram: the fitted elements with their radius and length (as many words as there is room for; the element table has them all). Through it: arcs shaded, transitions hatched, each joint a line inside its grey 95&nbsp;% interval.</p>\n");
     let st = &r.plan.stations;
-    let ch = |c: f64| u.from_m(c);
-    let measured: Vec<(f64, f64)> = st
-        .iter()
-        .map(|s| (ch(s.chainage), s.versine.map_or(f64::NAN, |v| vu.from_m(v))))
-        .collect();
-    let mut versine_series = vec![Series {
-        name: "measured",
-        points: measured,
-        colour: "#1f5fa8",
-        dashed: false,
-    }];
-    if let Some((_, d)) = &r.design {
-        versine_series.push(Series {
-            name: "design (fitted)",
-            points: st
-                .iter()
-                .zip(d)
-                .map(|(s, d)| (ch(s.chainage), vu.from_m(d.design_versine)))
-                .collect(),
-            colour: "#c0392b",
-            dashed: true,
-        });
-    }
-    let x_label = format!("chainage ({lu})");
-    let chart = |title: &str, y: &str, series: Vec<Series>| {
-        Chart {
-            title,
-            x_label: &x_label,
-            y_label: y,
-            series,
-            equal_axes: false,
-        }
-        .to_svg()
+    let parts = match (st.first(), st.last()) {
+        (Some(a), Some(b)) => sections(u.from_m(a.chainage), u.from_m(b.chainage), u),
+        _ => Vec::new(),
     };
-    let v_label = format!("versine ({}), + = rail bows away from wire", vu.suffix());
-    let _ = write!(
-        h,
-        "<h2>Versines</h2>\n{}\n",
-        chart("Versines", &v_label, versine_series)
-    );
-
-    let mut k_series = vec![Series {
-        name: "from the versines",
-        points: st
-            .iter()
-            .map(|s| (ch(s.chainage), s.curvature * 1e3))
-            .collect(),
-        colour: "#1f5fa8",
-        dashed: false,
-    }];
-    if let (Some(f), Some((placed, _))) = (&r.fit, &r.design) {
-        k_series.push(Series {
-            name: "fitted elements",
-            points: st
-                .iter()
-                .map(|s| {
-                    (
-                        ch(s.chainage),
-                        placed.curvature_at(f.centre_distance(s.chainage)) * 1e3,
-                    )
-                })
-                .collect(),
-            colour: "#c0392b",
-            dashed: true,
-        });
+    if parts.is_empty() {
+        along_track(&mut h, &d, None);
+    } else {
+        sectioned(&mut h, &d, &parts, lu);
     }
-    let _ = write!(
-        h,
-        "<h2>Curvature of the centreline</h2>\n{}\n",
-        chart("Curvature", "curvature (1/km), + = curving left", k_series)
-    );
-
-    if let Some((_, d)) = &r.design {
-        let sd = r.plan.reading_sd;
-        let (a, b) = (
-            st.first().map_or(0.0, |s| ch(s.chainage)),
-            st.last().map_or(1.0, |s| ch(s.chainage)),
-        );
-        let res: Vec<(f64, f64)> = st
-            .iter()
-            .zip(d)
-            .map(|(s, d)| {
-                (
-                    ch(s.chainage),
-                    d.residual.map_or(f64::NAN, |r| vu.from_m(r)),
-                )
-            })
-            .collect();
-        let band = vu.from_m(2.0 * sd);
-        let _ = write!(
-            h,
-            "<h2>Residuals (measured − design)</h2>\n{}\n",
-            chart(
-                "Residuals",
-                &format!("residual ({})", vu.suffix()),
-                vec![
-                    Series {
-                        name: "residual",
-                        points: res,
-                        colour: "#1f5fa8",
-                        dashed: false
-                    },
-                    Series {
-                        name: "± 2 reading sd",
-                        points: vec![
-                            (a, band),
-                            (b, band),
-                            (f64::NAN, 0.0),
-                            (a, -band),
-                            (b, -band)
-                        ],
-                        colour: "#888",
-                        dashed: true
-                    },
-                ]
-            )
-        );
-    }
-
-    let mut plan = vec![Series {
-        name: "centreline from the versines",
-        points: st.iter().map(|s| (ch(s.x), ch(s.y))).collect(),
-        colour: "#1f5fa8",
-        dashed: false,
-    }];
-    if let Some((_, d)) = &r.design {
-        plan.push(Series {
-            name: "fitted design",
-            points: d.iter().map(|d| (ch(d.x), ch(d.y))).collect(),
-            colour: "#c0392b",
-            dashed: true,
-        });
-    }
-    let e_label = format!("easting ({lu}, local frame)");
-    let n_label = format!("northing ({lu})");
-    let _ = write!(
-        h,
-        "<h2>Plan</h2>\n{}\n",
-        Chart {
-            title: "Plan (equal scales)",
-            x_label: &e_label,
-            y_label: &n_label,
-            series: plan,
-            equal_axes: true,
-        }
-        .to_svg()
-    );
-    if let Some(sl) = &r.slews {
-        let _ = write!(
-            h,
-            "<h2>Slews onto the design (indicative)</h2>\n<p class=\"caution\">Slews are for planning only: check clearances, structure gauges, fixed points and cant against local standards before any track is moved. The band is ± 2 sd.</p>\n{}\n",
-            chart(
-                "Slews",
-                &format!("slew ({}), + = move left", vu.suffix()),
-                vec![
-                    Series {
-                        name: "slew",
-                        points: sl
-                            .chainage
-                            .iter()
-                            .zip(&sl.slew)
-                            .map(|(&c, &v)| (ch(c), vu.from_m(v)))
-                            .collect(),
-                        colour: "#1f5fa8",
-                        dashed: false
-                    },
-                    Series {
-                        name: "± 2 sd",
-                        points: sl
-                            .chainage
-                            .iter()
-                            .zip(&sl.slew)
-                            .zip(&sl.sd)
-                            .map(|((&c, &v), &d)| (ch(c), vu.from_m(v + 2.0 * d)))
-                            .chain(std::iter::once((f64::NAN, 0.0)))
-                            .chain(
-                                sl.chainage
-                                    .iter()
-                                    .zip(&sl.slew)
-                                    .zip(&sl.sd)
-                                    .map(|((&c, &v), &d)| (ch(c), vu.from_m(v - 2.0 * d)))
-                            )
-                            .collect(),
-                        colour: "#888",
-                        dashed: true
-                    },
-                ]
-            )
-        );
-    }
-    let _ = write!(
-        h,
-        "<h2>Uncertainty of position</h2>\n{}\n",
-        chart(
-            "Standard deviation of position",
-            &format!("position sd ({lu})"),
-            vec![Series {
-                name: "position sd",
-                points: st
-                    .iter()
-                    .map(|s| (ch(s.chainage), ch(s.position_sd)))
-                    .collect(),
-                colour: "#1f5fa8",
-                dashed: false
-            }]
-        )
-    );
-
     if let Some(f) = &r.fit {
         let _ = write!(
             h,
-            "<h2>Elements</h2>\n<table><tr><th>#</th><th>kind</th><th>start ({lu})</th><th>end ({lu})</th><th>length ({lu})</th><th>start radius ({lu})</th><th>end radius ({lu})</th><th>status</th><th>note</th></tr>\n"
+            "<h2 id=\"elements\">Elements</h2>\n{}",
+            tables::elements(f, u)
         );
-        for (i, e) in f.elements.iter().enumerate() {
-            let rad = |x: &Option<crate::fit::Estimate>| {
-                x.as_ref().map_or("—".to_string(), |x| {
-                    format!("{:.1} ± {:.1}", ch(x.value), ch(x.hi95 - x.value))
-                })
-            };
-            let _ = writeln!(
-                h,
-                "<tr><td>{}</td><td class=\"k\">{}</td><td>{:.2} ± {:.2}</td><td>{:.2} ± {:.2}</td><td>{:.2}</td><td>{}</td><td>{}</td><td class=\"k\">{}</td><td class=\"k\">{}</td></tr>",
-                i + 1,
-                e.kind.name(),
-                ch(e.start_chainage.value),
-                ch(e.start_chainage.hi95 - e.start_chainage.value),
-                ch(e.end_chainage.value),
-                ch(e.end_chainage.hi95 - e.end_chainage.value),
-                ch(e.length.value),
-                rad(&e.start_radius),
-                rad(&e.end_radius),
-                e.status.name(),
-                esc(&e.note)
-            );
-        }
-        h.push_str("</table>\n<p>Chainages along the measured rail; lengths and radii of the track centreline; radius positive curving left; ± is the half-width of the 95&nbsp;% interval.</p>\n");
     }
-
-    if !r.diagnostics.is_empty() {
-        h.push_str("<h2>Warnings and notes</h2>\n<ul>\n");
-        for d in &r.diagnostics {
-            let cls = if d.severity == Severity::Warning {
-                " class=\"warn\""
-            } else {
-                ""
-            };
-            let _ = writeln!(h, "<li{cls}>{}</li>", esc(&d.to_string()));
-        }
-        h.push_str("</ul>\n");
+    let (plan, caption) = d.plan();
+    h.push_str("<h2 id=\"plan\">Plan</h2>\n");
+    h.push_str(&figure(&plan, caption.as_deref()));
+    if let Some(t) = tables::controls(r) {
+        h.push_str(&t);
     }
     let _ = write!(
         h,
-        "<p><small>chordline {}</small></p>\n</body></html>\n",
+        "<h2 id=\"uncertainty\">Uncertainty of position</h2>\n{}",
+        figure(
+            &d.position_sd(),
+            Some(
+                "Versines fix the shape, not the position: without control points the lateral uncertainty grows along the survey."
+            )
+        )
+    );
+    if let Some(a) = &r.advice {
+        let _ = write!(
+            h,
+            "<h2 id=\"advice\">Cant and speed advice (advisory only)</h2>\n{}",
+            tables::advice(a, u)
+        );
+    }
+    let _ = write!(
+        h,
+        "<h2 id=\"run\">How it was made</h2>\n{}",
+        tables::about(r, rec)
+    );
+    if let Some(t) = tables::diagnostics(r) {
+        let _ = write!(h, "<h2 id=\"notes\">Warnings and notes</h2>\n{t}");
+    }
+    let _ = write!(
+        h,
+        "<footer>chordline {}. Chainages along the measured rail, lengths and radii of the centreline; curvature and radius positive curving left.</footer>\n</main></body></html>\n",
         env!("CARGO_PKG_VERSION")
     );
     h

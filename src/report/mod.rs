@@ -2,10 +2,17 @@
 //! self-contained HTML report. The library returns strings; the command-line
 //! tool prints or writes them.
 
+mod advice_text;
+mod diagrams;
 mod html;
-pub mod svg;
+mod sections;
+mod strip;
+mod svg;
+mod tables;
 
+pub use advice_text::advice_text;
 pub use html::html_report;
+pub use strip::{Block, Joint, Strip};
 
 use crate::diag::Severity;
 use crate::geometry::heading_to_bearing;
@@ -126,6 +133,146 @@ pub fn summary(r: &Results) -> String {
         let _ = writeln!(s, "warnings {warnings} (listed above)");
     }
     s
+}
+
+/// What the report says about how a run came about, passed in as plain data
+/// by the caller (the library never reads the clock or the command line).
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct RunRecord {
+    /// The command, as words (empty: not recorded).
+    pub command_line: Vec<String>,
+    /// The comment lines at the head of the survey file, without their `#`.
+    pub header_comments: Vec<String>,
+    /// The date the report states and where it comes from (e.g.
+    /// `SOURCE_DATE_EPOCH`), so that the same input gives the same bytes.
+    pub date: Option<(std::time::SystemTime, String)>,
+}
+
+/// The comment lines (`#`) before the first other non-blank line of a
+/// survey file's text, without the `#` and surrounding blanks.
+///
+/// # Examples
+/// ```
+/// let c = chordline::report::header_comments("# Up line\n#\n# 20 m chord\nchainage_m,versine_mm\n# late\n");
+/// assert_eq!(c, ["Up line", "", "20 m chord"]);
+/// ```
+pub fn header_comments(text: &str) -> Vec<String> {
+    let text = text.strip_prefix('\u{feff}').unwrap_or(text);
+    let mut out = Vec::new();
+    for line in text.lines() {
+        let t = line.trim();
+        if t.is_empty() {
+            continue;
+        }
+        match t.strip_prefix('#') {
+            Some(c) => out.push(c.trim().to_string()),
+            None => break,
+        }
+    }
+    out
+}
+
+/// A summary of a few lines for long routes (`--summary short`): extent,
+/// set-up, the elements counted by kind, the sharpest arc, the residuals, the
+/// end position's uncertainty, slews and advice in one line each, warnings.
+pub fn summary_short(r: &Results) -> String {
+    let mut s = String::new();
+    let u = r.survey.chainage_unit;
+    let lu = u.suffix();
+    let vu = u.versine_unit();
+    let st = &r.plan.stations;
+    let (Some(first), Some(last)) = (st.first(), st.last()) else {
+        return "no stations\n".to_string();
+    };
+    let _ = writeln!(
+        s,
+        "survey   {}: {} readings from {:.1} to {:.1} {lu} ({:.1} {lu} long)",
+        r.survey.source,
+        r.survey.readings.len(),
+        u.from_m(first.chainage),
+        u.from_m(last.chainage),
+        u.from_m(last.chainage - first.chainage)
+    );
+    let _ = writeln!(
+        s,
+        "set-up   {} {lu} chord, {} rail, reading sd {:.2} {}",
+        fmt_len(u, r.setup.chord),
+        r.setup.rail.name(),
+        vu.from_m(r.plan.reading_sd),
+        vu.suffix()
+    );
+    if let Some(f) = &r.fit {
+        short_fit_lines(&mut s, f, u);
+    }
+    let _ = writeln!(
+        s,
+        "end      position sd {:.3} {lu} at {:.1} {lu}",
+        u.from_m(last.position_sd),
+        u.from_m(last.chainage)
+    );
+    if let Some(sl) = &r.slews {
+        let _ = writeln!(s, "{}", crate::realign::summary_line(sl, u));
+    }
+    if let Some(a) = &r.advice {
+        let flagged = a.rows.iter().filter(|x| !x.flags.is_empty()).count();
+        let _ = writeln!(
+            s,
+            "advice   {} arcs and transitions, {flagged} flagged (ADVISORY ONLY; see advice.csv and report.html)",
+            a.rows.len()
+        );
+    }
+    let warnings = r
+        .diagnostics
+        .iter()
+        .filter(|d| d.severity == Severity::Warning)
+        .count();
+    let _ = writeln!(s, "warnings {warnings}");
+    s
+}
+
+fn short_fit_lines(s: &mut String, f: &crate::fit::FitResult, u: LengthUnit) {
+    use crate::geometry::ElementKind;
+    let lu = u.suffix();
+    let vu = u.versine_unit();
+    let count = |k: ElementKind| f.elements.iter().filter(|e| e.kind == k).count();
+    let indeterminate = f
+        .elements
+        .iter()
+        .filter(|e| e.status == crate::fit::ElementStatus::Indeterminate)
+        .count();
+    let _ = writeln!(
+        s,
+        "elements {} ({} straights, {} transitions, {} arcs; {indeterminate} indeterminate): see elements.csv",
+        f.elements.len(),
+        count(ElementKind::Straight),
+        count(ElementKind::Transition),
+        count(ElementKind::Arc)
+    );
+    let sharpest = f
+        .elements
+        .iter()
+        .filter(|e| e.kind == ElementKind::Arc)
+        .filter_map(|e| e.start_radius.map(|r| (e, r)))
+        .min_by(|a, b| a.1.value.abs().total_cmp(&b.1.value.abs()));
+    if let Some((e, r)) = sharpest {
+        let _ = writeln!(
+            s,
+            "sharpest arc R {:.1} ± {:.1} {lu} from {:.1} to {:.1} {lu}",
+            u.from_m(r.value),
+            u.from_m(r.hi95 - r.value),
+            u.from_m(e.start_chainage.value),
+            u.from_m(e.end_chainage.value)
+        );
+    }
+    let st = &f.stats;
+    let _ = writeln!(
+        s,
+        "residuals RMS {:.2} {vs}, max {:.2} {vs} at {:.1} {lu}",
+        vu.from_m(st.residual_rms),
+        vu.from_m(st.residual_max.0),
+        u.from_m(st.residual_max.1),
+        vs = vu.suffix()
+    );
 }
 
 fn fmt_len(u: LengthUnit, m: f64) -> String {

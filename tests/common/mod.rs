@@ -4,6 +4,10 @@
 #![allow(dead_code, reason = "each test crate uses a different part")]
 
 use std::path::{Path, PathBuf};
+
+/// Visible skips (see `tests/support/skip.rs`).
+#[path = "../support/skip.rs"]
+pub mod skip;
 use std::process::{Command, Output};
 
 /// Run the built binary with `args`.
@@ -48,7 +52,7 @@ pub fn stderr(o: &Output) -> String {
 pub fn check_contract(dir: &Path) -> bool {
     let checker = Path::new(env!("CARGO_MANIFEST_DIR")).join("../shared/tools/check-outputs");
     if !checker.exists() {
-        crate::skip::skipped(
+        skip::skipped(
             "output contract checker",
             &format!(
                 "{} is absent (no ../shared in this clone)",
