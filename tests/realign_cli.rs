@@ -3,8 +3,6 @@
 //! nothing written), the imperial twin of the sheet.
 
 mod common;
-#[path = "support/skip.rs"]
-mod skip;
 
 use chordline::geometry::{Alignment, Element, Pose};
 use chordline::simulate::{SimSetup, simulate, write_survey_csv};
