@@ -27,6 +27,11 @@
 //! [`super::slews`] on the optimised design, which enforces every constraint.
 //! With a radius step the arc radii are then rounded and the boundaries
 //! optimised again.
+//!
+//! The SQP loop is written here (each QP is Clarabel's): no well-kept
+//! pure-Rust nonlinear solver with sparse linear constraints was found
+//! (`argmin` 0.11 has no constrained methods, from memory), and the loop is
+//! short because the design versines are nearly linear in these parameters.
 
 use super::limits::{Triplets, columns};
 use super::{SlewError, SlewOptions};
