@@ -94,3 +94,16 @@ impl fmt::Display for Diagnostic {
         Ok(())
     }
 }
+
+/// Text from an input file as a message quotes it: whole when short, else its
+/// start and its length, so that a 10 MB cell does not make a 10 MB message.
+pub fn quote_capped(text: &str) -> String {
+    const MAX: usize = 60;
+    const KEEP: usize = 40;
+    let n = text.chars().count();
+    if n <= MAX {
+        return text.to_string();
+    }
+    let head: String = text.chars().take(KEEP).collect();
+    format!("{head}… ({n} characters)")
+}

@@ -17,7 +17,7 @@ use crate::geometry::{Pose, bearing_to_heading};
 use crate::georef::{Georef, GeorefArgs, GeorefError, leave_one_out, prepare};
 use crate::integrate::{IntegrateError, IntegrateOptions, integrate};
 pub use crate::results::Results;
-use crate::survey::read::{ReadOptions, SurveyError, SurveyErrorKind, read_survey_bytes};
+use crate::survey::read::{ReadOptions, SurveyError, read_survey_bytes, read_survey_source};
 use crate::survey::{Rail, Setup, Survey};
 use std::path::{Path, PathBuf};
 
@@ -89,6 +89,9 @@ pub enum RunError {
     /// a fixed point or section outside the survey).
     #[error(transparent)]
     Slews(#[from] crate::realign::SlewError),
+    /// An option does not fit the survey (e.g. a fixed point outside it).
+    #[error("{0}")]
+    Options(String),
 }
 
 impl RunError {
@@ -98,7 +101,10 @@ impl RunError {
         match self {
             RunError::Output(e) => e.is_internal(),
             RunError::Slews(e) => matches!(e, crate::realign::SlewError::Solver { .. }),
-            RunError::Survey(_) | RunError::Integrate(_) | RunError::Georef(_) => false,
+            RunError::Survey(_)
+            | RunError::Integrate(_)
+            | RunError::Georef(_)
+            | RunError::Options(_) => false,
         }
     }
 }
@@ -113,6 +119,9 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
         && (!opts.rail_stated || survey.has_side_column)
     {
         setup.rail = r.rail;
+    }
+    if let Some(s) = &opts.slew {
+        check_fixed(&survey, &s.fixed)?;
     }
     let (georef, mut diagnostics) = prepare(&opts.georef, &survey)?;
     let iopts = match &georef {
@@ -242,6 +251,25 @@ fn realign_stage(
     }
 }
 
+/// Refuse fixed points (in the survey's chainage unit) that are not finite
+/// or lie outside the survey: their slews would be silently dropped.
+fn check_fixed(survey: &Survey, fixed: &[f64]) -> Result<(), RunError> {
+    let unit = survey.chainage_unit;
+    let (Some(first), Some(last)) = (survey.readings.first(), survey.readings.last()) else {
+        return Ok(());
+    };
+    let (a, b) = (unit.from_m(first.chainage), unit.from_m(last.chainage));
+    for &c in fixed {
+        if !(c.is_finite() && c >= a && c <= b) {
+            return Err(RunError::Options(format!(
+                "--fixed {c}: the chainage is outside the survey, which runs from {a} to {b} {u}; give fixed points within the survey (in its chainage unit, or with m or ft)",
+                u = unit.suffix()
+            )));
+        }
+    }
+    Ok(())
+}
+
 /// What [`run`] produced.
 #[derive(Debug)]
 pub struct Outcome {
@@ -267,15 +295,15 @@ pub fn run(
     force: bool,
 ) -> Result<Outcome, RunError> {
     // Refuse an unusable output folder before doing any work.
-    let mut dir = OutputDir::create_for_inputs(out, force, &[survey_path])?;
+    let mut inputs = vec![survey_path];
+    inputs.extend(opts.georef.control.as_deref());
+    let mut dir = OutputDir::create_for_inputs(out, force, &inputs)?;
     let ropts = ReadOptions {
         rail: opts.rail_stated.then_some(opts.setup.rail),
         chord: opts.setup.chord,
         marking: opts.setup.marking,
     };
-    let name = survey_path.display().to_string();
-    let bytes = std::fs::read(survey_path)
-        .map_err(|source| SurveyError::file(&name, SurveyErrorKind::Io { source }))?;
+    let (name, bytes) = read_survey_source(survey_path)?;
     let (survey, mut diags) = read_survey_bytes(&name, &bytes, &ropts)?;
     let (created, created_basis) = match opts.created {
         Some(t) => (t, "as given"),
@@ -287,6 +315,7 @@ pub fn run(
         date: Some((created, created_basis.to_string())),
     };
     let mut results = process(survey, opts)?;
+    diags.extend(dir.notes().iter().map(Diagnostic::note));
     diags.append(&mut results.diagnostics);
     results.diagnostics = diags;
     let unit = results.survey.chainage_unit;

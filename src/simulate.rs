@@ -30,6 +30,9 @@ use rand_chacha::ChaCha8Rng;
 use rand_distr::{Distribution, Normal};
 use std::io::{self, Write};
 
+mod design;
+pub use design::{Design, DesignError};
+
 /// How the simulated survey is taken.
 #[derive(Debug, Clone, PartialEq)]
 pub struct SimSetup {
@@ -134,6 +137,48 @@ pub enum SimulateError {
         /// The value given.
         value: f64,
     },
+    /// The design and spacing would give more marks than simulate writes.
+    #[error(
+        "the design is {length:.0} m long along the rail with a mark every {spacing} m, {marks} marks: more than the {max} that simulate writes; shorten the design or widen --spacing"
+    )]
+    TooManyMarks {
+        /// Rail length, metres.
+        length: f64,
+        /// Mark spacing, metres.
+        spacing: f64,
+        /// Marks it would take.
+        marks: f64,
+        /// The most allowed.
+        max: usize,
+    },
+    /// A curve sharper than the chord and the rail offset can be laid on.
+    #[error(
+        "element {element} has a radius of {radius} m, too sharp for a chord of {chord} m read {offset} m from the centreline: the chord would not fit on the rail; give radii of at least {min} m"
+    )]
+    TooSharp {
+        /// 1-based element number.
+        element: usize,
+        /// The sharpest radius in it, metres.
+        radius: f64,
+        /// Chord, metres.
+        chord: f64,
+        /// Rail offset from the centreline, metres.
+        offset: f64,
+        /// The smallest radius allowed, metres.
+        min: f64,
+    },
+    /// A start chainage so large that marks a spacing apart would share a chainage.
+    #[error(
+        "start_chainage_m {value} is too large: at that size marks {spacing} m apart cannot be told apart in a chainage; give a start chainage of at most {max} m"
+    )]
+    HugeChainage {
+        /// The value given.
+        value: f64,
+        /// Mark spacing, metres.
+        spacing: f64,
+        /// The largest allowed.
+        max: f64,
+    },
     /// A fixed-length wire could not be placed (curve too sharp for the chord).
     #[error(
         "a {chord} m wire cannot rest on the rail at chainage {chainage:.3} m: the curve is too sharp for this chord"
@@ -232,6 +277,7 @@ impl SimSetup {
 /// [`SimulateError`] when the set-up is inconsistent or the design too short.
 pub fn simulate(design: &Alignment, setup: &SimSetup) -> Result<Simulated, SimulateError> {
     check_setup(setup)?;
+    check_limits(design, setup)?;
     let m = setup.steps_per_half_chord().ok_or_else(|| {
         let half = 0.5 * setup.chord;
         SimulateError::SpacingDoesNotFit {
@@ -357,6 +403,58 @@ fn check_setup(s: &SimSetup) -> Result<(), SimulateError> {
         return Err(SimulateError::BadImperfection {
             what: "the bias",
             value: s.bias,
+        });
+    }
+    Ok(())
+}
+
+/// The most marks one simulation writes (ten times the million readings of a
+/// 250 km recording-vehicle route, about a gigabyte of truth in memory).
+pub const MAX_MARKS: usize = 10_000_000;
+
+/// The largest start chainage: beyond it, doubles lose the millimetres of
+/// a chainage (a double has 15–16 significant digits).
+pub const MAX_START_CHAINAGE: f64 = 1e9;
+
+/// Refuse designs the simulation cannot measure honestly: too many marks,
+/// curves too sharp for the chord on the offset rail, chainages too large to
+/// keep marks apart.
+fn check_limits(design: &Alignment, s: &SimSetup) -> Result<(), SimulateError> {
+    let length = design.length();
+    let marks = length / s.spacing + 1.0;
+    if marks.is_nan() || marks > MAX_MARKS as f64 {
+        return Err(SimulateError::TooManyMarks {
+            length,
+            spacing: s.spacing,
+            marks: marks.round(),
+            max: MAX_MARKS,
+        });
+    }
+    let offset = 0.5 * s.gauge;
+    // The chord's half must fit inside the rail's circle with room to spare
+    // (a wire of length c on a circle of radius R needs c < 2R).
+    let min = 0.5 * s.chord + offset;
+    for (i, e) in design.elements().iter().enumerate() {
+        let k = e.k_start.abs().max(e.k_end.abs());
+        if k > 0.0 && 1.0 / k < min {
+            return Err(SimulateError::TooSharp {
+                element: i + 1,
+                radius: 1.0 / k,
+                chord: s.chord,
+                offset,
+                min,
+            });
+        }
+    }
+    let first = design.start_chainage().abs().max(s.start_chainage.abs());
+    let far = first + length;
+    // Keep a millionth of the spacing resolvable at the far end.
+    let ulp = far * f64::EPSILON;
+    if far.is_nan() || far > MAX_START_CHAINAGE || ulp > 1e-6 * s.spacing {
+        return Err(SimulateError::HugeChainage {
+            value: s.start_chainage,
+            spacing: s.spacing,
+            max: MAX_START_CHAINAGE,
         });
     }
     Ok(())
@@ -555,272 +653,6 @@ pub fn design_json(elements: &[Element]) -> String {
     format!("{{\"elements\": [\n  {}\n]}}\n", items.join(",\n  "))
 }
 
-/// Why a design file could not be read.
-#[derive(Debug, Clone, PartialEq, thiserror::Error)]
-pub enum DesignError {
-    /// Not valid JSON.
-    #[error(
-        "{file}: line {line}, column {column}: not valid JSON ({msg}); check brackets, commas and quotes"
-    )]
-    Json {
-        /// File name.
-        file: String,
-        /// 1-based line.
-        line: usize,
-        /// 1-based column.
-        column: usize,
-        /// The parser's message.
-        msg: String,
-    },
-    /// A value is missing or of the wrong kind.
-    #[error("{file}: {place}: {msg}")]
-    Bad {
-        /// File name.
-        file: String,
-        /// Where in the design (e.g. "element 3").
-        place: String,
-        /// What is wrong and what to do.
-        msg: String,
-    },
-}
-
-/// A design read from a JSON file: the elements and, optionally, the survey
-/// set-up. All lengths in metres.
-///
-/// The file is an object with an `elements` array; each element has `kind`
-/// (`straight`, `transition`, `arc`) and `length`; an arc has a signed
-/// `radius` (positive curving left); a transition joins its neighbours'
-/// curvatures unless it gives `r_start`/`r_end` (null for a straight end).
-/// Optional set-up keys: `chord_m`, `spacing_m`, `rail` (`left`/`right`),
-/// `gauge_m`, `noise_mm`, `bias_mm`, `resolution_mm`, `irregularity_mm`,
-/// `seed`, `units` (`metric`/`imperial`), `marking` (`taped`/`wire`),
-/// `start_chainage_m`. These are the keys of the team's reference generator,
-/// so one design file drives both.
-#[derive(Debug, Clone, PartialEq)]
-pub struct Design {
-    /// The centreline elements.
-    pub elements: Vec<Element>,
-    /// The set-up, with defaults (20 m chord, half-chord spacing, left rail,
-    /// standard gauge, taped, no noise) for keys the file leaves out.
-    pub setup: SimSetup,
-}
-
-impl Design {
-    /// The design centreline placed at the origin heading north.
-    pub fn alignment(&self) -> Alignment {
-        Alignment::new(
-            Pose {
-                x: 0.0,
-                y: 0.0,
-                heading: std::f64::consts::FRAC_PI_2,
-            },
-            self.setup.start_chainage,
-            self.elements.clone(),
-        )
-    }
-
-    /// Parse a design from JSON text; `file` names it in messages.
-    ///
-    /// # Errors
-    /// [`DesignError`] naming the line and column of a JSON error, or the
-    /// element and key that is missing or wrong.
-    pub fn from_json(file: &str, text: &str) -> Result<Design, DesignError> {
-        let v: serde_json::Value = serde_json::from_str(text).map_err(|e| DesignError::Json {
-            file: file.to_string(),
-            line: e.line(),
-            column: e.column(),
-            msg: e.to_string(),
-        })?;
-        let bad = |place: &str, msg: String| DesignError::Bad {
-            file: file.to_string(),
-            place: place.to_string(),
-            msg,
-        };
-        let obj = v.as_object().ok_or_else(|| {
-            bad(
-                "top level",
-                "expected an object with an \"elements\" array".into(),
-            )
-        })?;
-        let num = |key: &str, default: f64| -> Result<f64, DesignError> {
-            match obj.get(key) {
-                None | Some(serde_json::Value::Null) => Ok(default),
-                Some(x) => x
-                    .as_f64()
-                    .filter(|f| f.is_finite())
-                    .ok_or_else(|| bad(key, format!("expected a number, found {x}"))),
-            }
-        };
-        let chord = num("chord_m", 20.0)?;
-        let imperial = match obj.get("units").and_then(|u| u.as_str()) {
-            None | Some("metric") => false,
-            Some("imperial") => true,
-            Some(other) => {
-                return Err(bad(
-                    "units",
-                    format!("'{other}' is not a unit system; use \"metric\" or \"imperial\""),
-                ));
-            }
-        };
-        let rail = match obj.get("rail").and_then(|u| u.as_str()) {
-            None | Some("left") => Rail::Left,
-            Some("right") => Rail::Right,
-            Some(other) => {
-                return Err(bad(
-                    "rail",
-                    format!("'{other}' is not a rail; use \"left\" or \"right\""),
-                ));
-            }
-        };
-        let marking = match obj.get("marking").and_then(|u| u.as_str()) {
-            None | Some("taped") => Marking::Taped,
-            Some("wire") => Marking::Wire,
-            Some(other) => {
-                return Err(bad(
-                    "marking",
-                    format!("'{other}' is not a marking; use \"taped\" or \"wire\""),
-                ));
-            }
-        };
-        let setup = SimSetup {
-            chord,
-            spacing: num("spacing_m", 0.5 * chord)?,
-            rail,
-            gauge: num("gauge_m", crate::survey::Setup::STANDARD_GAUGE)?,
-            marking,
-            noise_sd: num("noise_mm", 0.0)? * 1e-3,
-            bias: num("bias_mm", 0.0)? * 1e-3,
-            resolution: num("resolution_mm", 0.0)? * 1e-3,
-            irregularity_rms: num("irregularity_mm", 0.0)? * 1e-3,
-            seed: num("seed", 1.0)?.max(0.0) as u64,
-            start_chainage: num("start_chainage_m", 0.0)?,
-            chainage_unit: if imperial {
-                LengthUnit::Foot
-            } else {
-                LengthUnit::Metre
-            },
-            versine_unit: if imperial {
-                VersineUnit::Inch
-            } else {
-                VersineUnit::Millimetre
-            },
-        };
-        let els = obj
-            .get("elements")
-            .and_then(|e| e.as_array())
-            .ok_or_else(|| {
-                bad(
-                    "top level",
-                    "no \"elements\" array; list the straights, transitions and arcs in order"
-                        .into(),
-                )
-            })?;
-        if els.is_empty() {
-            return Err(bad(
-                "elements",
-                "the list is empty; give at least one element".into(),
-            ));
-        }
-        // First pass: kinds, lengths, arc curvatures.
-        struct Raw {
-            kind: String,
-            length: f64,
-            k: Option<(f64, f64)>,
-            k_start: Option<f64>,
-            k_end: Option<f64>,
-        }
-        let mut raw = Vec::with_capacity(els.len());
-        for (i, e) in els.iter().enumerate() {
-            let place = format!("element {}", i + 1);
-            let kind = e.get("kind").and_then(|k| k.as_str()).ok_or_else(|| {
-                bad(
-                    &place,
-                    "no \"kind\"; use \"straight\", \"transition\" or \"arc\"".into(),
-                )
-            })?;
-            let length = e
-                .get("length")
-                .and_then(|l| l.as_f64())
-                .filter(|l| l.is_finite() && *l > 0.0)
-                .ok_or_else(|| {
-                    bad(
-                        &place,
-                        "\"length\" must be a positive number of metres".into(),
-                    )
-                })?;
-            let radius_key = |key: &str| -> Result<Option<Option<f64>>, DesignError> {
-                match e.get(key) {
-                    None => Ok(None),
-                    Some(serde_json::Value::Null) => Ok(Some(None)),
-                    Some(x) => {
-                        let r = x.as_f64().filter(|r| r.is_finite() && *r != 0.0).ok_or_else(|| {
-                            bad(&place, format!("\"{key}\" must be a non-zero signed radius in metres (positive curving left), or null for a straight end"))
-                        })?;
-                        Ok(Some(Some(r)))
-                    }
-                }
-            };
-            let (k, ks, ke) = match kind {
-                "straight" => (Some((0.0, 0.0)), None, None),
-                "arc" => {
-                    let r = radius_key("radius")?.flatten().ok_or_else(|| {
-                        bad(
-                            &place,
-                            "an arc needs a signed \"radius\" in metres (positive curving left)"
-                                .into(),
-                        )
-                    })?;
-                    (Some((1.0 / r, 1.0 / r)), None, None)
-                }
-                "transition" => (
-                    None,
-                    radius_key("r_start")?.map(|r| r.map_or(0.0, |r| 1.0 / r)),
-                    radius_key("r_end")?.map(|r| r.map_or(0.0, |r| 1.0 / r)),
-                ),
-                other => {
-                    return Err(bad(
-                        &place,
-                        format!(
-                            "kind '{other}' is not known; use \"straight\", \"transition\" or \"arc\""
-                        ),
-                    ));
-                }
-            };
-            raw.push(Raw {
-                kind: kind.to_string(),
-                length,
-                k,
-                k_start: ks,
-                k_end: ke,
-            });
-        }
-        let mut elements = Vec::with_capacity(raw.len());
-        for i in 0..raw.len() {
-            let r = &raw[i];
-            let e = match r.kind.as_str() {
-                "straight" => Element::straight(r.length),
-                "arc" => {
-                    let (k, _) = r.k.unwrap_or((0.0, 0.0));
-                    Element::arc(r.length, 1.0 / k)
-                }
-                _ => {
-                    let prev = if i > 0 {
-                        raw[i - 1].k.map(|k| k.1)
-                    } else {
-                        Some(0.0)
-                    };
-                    let next = raw.get(i + 1).map_or(Some(0.0), |n| n.k.map(|k| k.0));
-                    let k0 = r.k_start.or(prev).unwrap_or(0.0);
-                    let k1 = r.k_end.or(next).unwrap_or(0.0);
-                    Element::transition(r.length, k0, k1)
-                }
-            };
-            elements.push(e);
-        }
-        Ok(Design { elements, setup })
-    }
-}
-
 /// Write a survey in the project's survey-file format (see the README):
 /// a comment header, then `chainage_<unit>,versine_<unit>`; gaps are empty cells;
 /// marks at either end without a full chord are left out.
@@ -882,185 +714,4 @@ fn decimals_for(step: f64) -> usize {
 }
 
 #[cfg(test)]
-mod tests {
-    use super::*;
-    use approx::assert_relative_eq;
-
-    fn simple_curve() -> Alignment {
-        Alignment::new(
-            Pose::default(),
-            0.0,
-            vec![
-                Element::straight(200.0),
-                Element::transition(60.0, 0.0, -1.0 / 450.0),
-                Element::arc(300.0, -450.0),
-                Element::transition(60.0, -1.0 / 450.0, 0.0),
-                Element::straight(200.0),
-            ],
-        )
-    }
-
-    #[test]
-    fn circle_versines_match_closed_forms() {
-        // METHODS.md §1 / CHECKS.md 1.4: on a circle of rail radius R, taped marks
-        // give v = R(1 − cos(a/R)); a straight wire of length c gives R − √(R² − c²/4).
-        let rc = 150.0;
-        let design = Alignment::new(Pose::default(), 0.0, vec![Element::arc(400.0, rc)]);
-        for (rail, rr) in [(Rail::Left, rc - 0.7175), (Rail::Right, rc + 0.7175)] {
-            let mut s = SimSetup::classic(20.0, rail);
-            let sim = simulate(&design, &s).unwrap();
-            let v = sim.survey.readings[5].versine.unwrap();
-            // Left-hand curve: the right rail is the outer rail (positive).
-            let expect = rr * (1.0 - (10.0 / rr).cos());
-            let sign = if rail == Rail::Right { 1.0 } else { -1.0 };
-            assert_relative_eq!(v, sign * expect, epsilon = 1e-9);
-            s.marking = Marking::Wire;
-            let sim = simulate(&design, &s).unwrap();
-            let v = sim.survey.readings[5].versine.unwrap();
-            let expect = rr - (rr * rr - 100.0).sqrt();
-            assert_relative_eq!(v, sign * expect, epsilon = 1e-9);
-        }
-    }
-
-    #[test]
-    fn checks_table_worked_values_on_the_centreline_radius() {
-        // CHECKS.md 1.4 (computed): R = 500 m, c = 20 m: wire 100.0100 mm,
-        // marks along the arc 99.9967 mm. Gauge 0 puts the rail on the centreline.
-        let design = Alignment::new(Pose::default(), 0.0, vec![Element::arc(200.0, -500.0)]);
-        let mut s = SimSetup::classic(20.0, Rail::Left);
-        s.gauge = 1e-12;
-        let v = simulate(&design, &s).unwrap().survey.readings[8]
-            .versine
-            .unwrap();
-        assert!((v * 1e3 - 99.9967).abs() < 1e-4, "{}", v * 1e3);
-        s.marking = Marking::Wire;
-        let v = simulate(&design, &s).unwrap().survey.readings[8]
-            .versine
-            .unwrap();
-        assert!((v * 1e3 - 100.0100).abs() < 1e-4, "{}", v * 1e3);
-    }
-
-    #[test]
-    fn clothoid_versines_follow_the_kernel_signature() {
-        // CHECKS.md 1.11 (computed): along a clothoid R = 450, L = 60, c = 20 m,
-        // away from its ends v = c²s/(8RL): s = 30 m → 55.5556 mm (exact geometry
-        // within 0.003 mm; we measure the centreline with a tiny gauge).
-        let design = Alignment::new(
-            Pose::default(),
-            0.0,
-            vec![
-                Element::straight(100.0),
-                Element::transition(60.0, 0.0, 1.0 / 450.0),
-                Element::arc(100.0, 450.0),
-            ],
-        );
-        let mut s = SimSetup::classic(20.0, Rail::Right);
-        s.gauge = 1e-12;
-        s.spacing = 5.0;
-        let sim = simulate(&design, &s).unwrap();
-        let at = |c: f64| {
-            sim.survey
-                .readings
-                .iter()
-                .find(|r| (r.chainage - c).abs() < 1e-9)
-                .and_then(|r| r.versine)
-                .unwrap()
-                * 1e3
-        };
-        assert!((at(130.0) - 55.5556).abs() < 0.003, "{}", at(130.0));
-        // CHECKS.md 1.12: v(TS) = a³/(12RL) = 3.0864 mm, v(SC) ≈ 108.0206 mm (exact geometry).
-        assert!((at(100.0) - 3.0864).abs() < 0.005, "{}", at(100.0));
-        assert!((at(160.0) - 108.0206).abs() < 0.005, "{}", at(160.0));
-    }
-
-    #[test]
-    fn noise_rounding_and_seed_are_reproducible() {
-        let mut s = SimSetup::classic(20.0, Rail::Left);
-        s.noise_sd = 1e-3;
-        s.resolution = 1e-3;
-        s.irregularity_rms = 1.5e-3;
-        s.seed = 7;
-        let a = simulate(&simple_curve(), &s).unwrap();
-        let b = simulate(&simple_curve(), &s).unwrap();
-        assert_eq!(a, b);
-        for r in &a.survey.readings {
-            if let Some(v) = r.versine {
-                let mm = v * 1e3;
-                assert!((mm - mm.round()).abs() < 1e-9, "not rounded: {mm}");
-            }
-        }
-        s.seed = 8;
-        let c = simulate(&simple_curve(), &s).unwrap();
-        assert_ne!(a.survey, c.survey);
-    }
-
-    #[test]
-    fn irregularity_has_the_stated_rms() {
-        let irr = Irregularity::new(1.5e-3, 3);
-        let n = 200_000;
-        let ms: f64 = (0..n).map(|i| irr.at(i as f64 * 0.1).powi(2)).sum::<f64>() / n as f64;
-        assert!((ms.sqrt() - 1.5e-3).abs() < 0.25e-3, "rms {}", ms.sqrt());
-    }
-
-    #[test]
-    fn bad_setups_are_refused() {
-        let mut s = SimSetup::classic(20.0, Rail::Left);
-        s.spacing = 3.0;
-        assert!(matches!(
-            simulate(&simple_curve(), &s),
-            Err(SimulateError::SpacingDoesNotFit { .. })
-        ));
-        let short = Alignment::new(Pose::default(), 0.0, vec![Element::straight(5.0)]);
-        assert!(matches!(
-            simulate(&short, &SimSetup::classic(20.0, Rail::Left)),
-            Err(SimulateError::TooShort { .. })
-        ));
-        let mut s = SimSetup::classic(20.0, Rail::Left);
-        s.noise_sd = f64::NAN;
-        assert!(simulate(&simple_curve(), &s).is_err());
-    }
-
-    #[test]
-    fn design_json_builds_transitions_from_neighbours() {
-        let text = r#"{"chord_m": 20, "rail": "right", "elements": [
-            {"kind": "straight", "length": 100},
-            {"kind": "transition", "length": 60},
-            {"kind": "arc", "length": 100, "radius": -450},
-            {"kind": "transition", "length": 40, "r_end": 900}
-        ]}"#;
-        let d = Design::from_json("d.json", text).unwrap();
-        assert_eq!(d.setup.rail, Rail::Right);
-        assert_relative_eq!(d.elements[1].k_end, -1.0 / 450.0);
-        assert_relative_eq!(d.elements[3].k_start, -1.0 / 450.0);
-        assert_relative_eq!(d.elements[3].k_end, 1.0 / 900.0);
-        let e = Design::from_json(
-            "d.json",
-            "{\"elements\": [{\"kind\": \"arc\", \"length\": 5}]}",
-        )
-        .unwrap_err();
-        assert!(e.to_string().contains("element 1"), "{e}");
-        let e = Design::from_json("d.json", "{\n \"elements\": [,]}").unwrap_err();
-        assert!(e.to_string().starts_with("d.json: line 2"), "{e}");
-    }
-
-    #[test]
-    fn synthetic_route_round_trips_through_json() {
-        let els = synthetic_route(20_000.0, 5);
-        assert!(els.iter().map(|e| e.length).sum::<f64>() >= 20_000.0);
-        let d = Design::from_json("route", &design_json(&els)).unwrap();
-        assert_eq!(d.elements.len(), els.len());
-        for (a, b) in d.elements.iter().zip(&els) {
-            assert_eq!(a.kind, b.kind);
-            assert_relative_eq!(a.k_end, b.k_end, epsilon = 1e-15);
-        }
-        assert_eq!(synthetic_route(5000.0, 9), synthetic_route(5000.0, 9));
-    }
-
-    #[test]
-    fn decimals_cover_common_resolutions() {
-        assert_eq!(decimals_for(1.0), 0);
-        assert_eq!(decimals_for(0.5), 1);
-        assert_eq!(decimals_for(0.125), 3);
-        assert_eq!(decimals_for(0.1), 1);
-    }
-}
+mod tests;

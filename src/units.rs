@@ -153,41 +153,75 @@ pub enum LengthParseError {
     /// No unit after the number.
     #[error("'{0}' has no unit: write it as e.g. 20m or 62ft")]
     NoUnit(String),
-    /// A unit we do not know.
-    #[error("'{0}' has an unknown unit: use m or ft (e.g. 20m, 62ft)")]
+    /// A unit that is not read.
+    #[error("'{0}' has an unknown unit: use m, mm, cm, km, ft or in (e.g. 20m, 62ft)")]
     UnknownUnit(String),
-    /// The number part is not a number.
-    #[error("'{0}' is not a number followed by m or ft (e.g. 20m, 62ft)")]
+    /// Not a number before the unit.
+    #[error("'{0}' is not a number followed by a unit (e.g. 20m, 62ft)")]
     NotANumber(String),
-    /// Zero, negative or not finite.
+    /// Zero, negative, infinite or NaN.
     #[error("'{0}' must be a positive, finite length")]
     NotPositive(String),
+    /// A typographic minus sign (U+2212), as word processors write it.
+    #[error("'{0}' has a typographic minus sign (U+2212); type the minus as '-' (a hyphen)")]
+    UnicodeMinus(String),
+    /// The next option where a value was expected.
+    #[error("'{0}' is an option, not a value: give the value (e.g. 20m) before the next option")]
+    OptionNotValue(String),
+}
+
+/// A length unit as a user types it: its size in metres and the unit system
+/// a survey in it would use (`mm`, `cm`, `m`, `km` metric; `in`, `ft`
+/// imperial). `None` for an unknown unit.
+pub fn length_unit_of(suffix: &str) -> Option<(f64, LengthUnit)> {
+    Some(match suffix {
+        "m" => (1.0, LengthUnit::Metre),
+        "mm" => (1e-3, LengthUnit::Metre),
+        "cm" => (1e-2, LengthUnit::Metre),
+        "km" => (1e3, LengthUnit::Metre),
+        "ft" => (FOOT, LengthUnit::Foot),
+        "in" => (INCH, LengthUnit::Foot),
+        _ => return None,
+    })
+}
+
+/// Split `20m`, `20 m`, `-1.5mm` into the number text and the unit text
+/// (the trailing letters); refuses a typographic minus and an option name.
+///
+/// # Errors
+/// [`LengthParseError::UnicodeMinus`], [`LengthParseError::OptionNotValue`].
+pub fn split_unit(s: &str) -> Result<(&str, &str), LengthParseError> {
+    let t = s.trim();
+    if t.contains('\u{2212}') {
+        return Err(LengthParseError::UnicodeMinus(s.to_string()));
+    }
+    if t.starts_with("--") {
+        return Err(LengthParseError::OptionNotValue(s.to_string()));
+    }
+    let split = t.trim_end_matches(|c: char| c.is_ascii_alphabetic()).len();
+    let (num, unit) = t.split_at(split);
+    Ok((num.trim(), unit))
 }
 
 impl FromStr for Length {
     type Err = LengthParseError;
     fn from_str(s: &str) -> Result<Self, Self::Err> {
-        let t = s.trim();
-        // The unit is the trailing run of letters.
-        let split = t.trim_end_matches(|c: char| c.is_ascii_alphabetic()).len();
-        if split == t.len() {
+        let (num, unit) = split_unit(s)?;
+        if unit.is_empty() {
             return Err(LengthParseError::NoUnit(s.to_string()));
         }
-        let (num, unit) = t.split_at(split);
-        let unit = match unit.trim() {
-            "m" => LengthUnit::Metre,
-            "ft" => LengthUnit::Foot,
-            _ => return Err(LengthParseError::UnknownUnit(s.to_string())),
+        let Some((scale, unit)) = length_unit_of(unit) else {
+            return Err(LengthParseError::UnknownUnit(s.to_string()));
         };
         let v: f64 = num
-            .trim()
             .parse()
             .map_err(|_| LengthParseError::NotANumber(s.to_string()))?;
         if !(v.is_finite() && v > 0.0) {
             return Err(LengthParseError::NotPositive(s.to_string()));
         }
         Ok(Length {
-            metres: unit.to_m(v),
+            metres: v * scale,
+
             unit,
         })
     }
@@ -216,6 +250,19 @@ mod tests {
         assert!(matches!(
             "20yd".parse::<Length>(),
             Err(LengthParseError::UnknownUnit(_))
+        ));
+        let l: Length = "20000mm".parse().unwrap();
+        assert!((l.metres() - 20.0).abs() < 1e-12);
+        assert_eq!(l.unit(), LengthUnit::Metre);
+        let l: Length = "744in".parse().unwrap();
+        assert_eq!(l.unit(), LengthUnit::Foot);
+        assert!(matches!(
+            "\u{2212}20m".parse::<Length>(),
+            Err(LengthParseError::UnicodeMinus(_))
+        ));
+        assert!(matches!(
+            "--rail".parse::<Length>(),
+            Err(LengthParseError::OptionNotValue(_))
         ));
         assert!(matches!(
             "1.2.3m".parse::<Length>(),

@@ -4,7 +4,7 @@
 
 mod common;
 
-use common::{check_contract, run_demo_to, stderr};
+use common::{check_contract, run_demo_to, stderr, stdout};
 use std::path::Path;
 
 /// Data rows (not `#` comments) of a CSV file, header first.
@@ -35,7 +35,7 @@ fn speed_writes_advice_with_one_row_per_arc_and_transition() {
     let out = dir.path().join("out");
     let o = run_demo_to(&out, &["--speed", "100km/h"]);
     assert!(o.status.success(), "{}", stderr(&o));
-    let err = stderr(&o);
+    let err = stdout(&o);
     assert!(err.contains("ADVISORY ONLY"), "{err}");
     assert!(err.contains("competent engineer"), "{err}");
     let text = std::fs::read_to_string(out.join("advice.csv")).expect("advice.csv written");

@@ -9,6 +9,9 @@ use chordline::survey::Rail;
 use chordline::survey::read::{ReadOptions, read_survey_file};
 use chordline::units::Length;
 
+#[path = "bad_inputs/cli_cases.rs"]
+mod cli_cases;
+
 fn fixture(name: &str) -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR"))
         .join("tests/fixtures")
@@ -164,7 +167,7 @@ const CASES: &[(&str, &str, Option<Rail>, &str)] = &[
         "bad/feet_spacing_metre_chord.csv",
         "20m",
         L,
-        "bad/feet_spacing_metre_chord.csv: the readings are 31 ft apart, and half the chord of 20 m (65.617 ft) is not a whole number of such spacings (1.06 of them); readings must be every half chord or a whole fraction of it (32.808 ft, 16.404 ft, 8.202 ft, ...); check --chord (a chord of 62 ft fits this spacing)",
+        "bad/feet_spacing_metre_chord.csv: the readings are 31 ft apart, and half the chord of 20 m (65.617 ft), that is 32.808 ft, is not a whole number of such spacings (1.06 of them); readings must be every half chord or a whole fraction of it (32.808 ft, 16.404 ft, 8.202 ft, ...); check --chord (a chord of 62 ft fits this spacing)",
     ),
     (
         "bad/header_only.csv",
@@ -427,10 +430,65 @@ const CASES: &[(&str, &str, Option<Rail>, &str)] = &[
     ("ok/spreadsheet_padding.csv", "20m", L, ""),
     ("ok/tab_separated.csv", "20m", None, ""),
     (
-        "ok/thousands_like_chainage.csv",
+        "bad/thousands_like_chainage.csv",
         "20m",
         L,
-        "ok/thousands_like_chainage.csv:3, column chainage_m: warning: every chainage has three digits after a point, like 1.010 on line 3, in a semicolon-separated file where '.' may separate thousands; they are read with '.' as the decimal point (1.01 m) (if the '.' separates thousands, write the chainages without it, e.g. 1010 rather than 1.010)",
+        "bad/thousands_like_chainage.csv: the readings are 0.01 m apart, closer than any chord survey reads (every 0.1 m at the closest); the chainages are written like 1.010, where '.' separates thousands in this file: write them without it (1010)",
+    ),
+    (
+        "bad/chainage_in_km.csv",
+        "20m",
+        L,
+        "bad/chainage_in_km.csv: the readings are 0.01 m apart, closer than any chord survey reads (every 0.1 m at the closest); if the chainages are kilometres (like 12.01 for 12010 m), write them in metres in the column chainage_m",
+    ),
+    (
+        "ok/deleted_rows.csv",
+        "20m",
+        L,
+        "ok/deleted_rows.csv:20, column chainage_m: warning: gap: no readings between chainage 1170 (line 19) and 1220, 4 station(s) missing (the alignment is bridged across the gap, less certainly; check that no lines were lost)",
+    ),
+    (
+        "ok/sharp_versine.csv",
+        "20m",
+        L,
+        "ok/sharp_versine.csv:8, column versine_mm: warning: the versine 3000 mm means a curve of radius 16.7 m on a chord of 20 m, sharper than almost any railway (only tramways and some sidings go below 60 m) (check the value for a typing error, the unit in the column name and --chord)\nok/sharp_versine.csv:8, column versine_mm: warning: the versine 3000 mm is far from what its neighbours imply (about 40 mm): an outlier of 59200 robust sigmas (check it for a reading or typing error; if it is wrong, correct it or leave the cell empty)",
+    ),
+    (
+        "bad/gap_too_long.csv",
+        "20m",
+        L,
+        "bad/gap_too_long.csv:6, column chainage_m (field 1): chainage jumps from 1030 (line 5) to 101030, a gap of 100000 m with no readings, more than 50 chords; nothing measured bridges a gap that long: if it is a typing error, correct the chainage; otherwise split the file there and run each part",
+    ),
+    (
+        "bad/chainage_huge.csv",
+        "20m",
+        L,
+        "bad/chainage_huge.csv:4, column chainage_m (field 1): chainage '1020000000000000' is too large to be a chainage (at most 1000000000 in this column): numbers this large lose the digits that tell readings apart; check the value, or subtract a constant from every chainage",
+    ),
+    (
+        "bad/quoted_thousands.csv",
+        "20m",
+        L,
+        "bad/quoted_thousands.csv:3, column chainage_m (field 1): '1,010' is not a number; this file separates fields with commas: if the comma is a decimal comma, write a decimal point (1.010); if it separates thousands, leave it out (1010)",
+    ),
+    (
+        "bad/unicode_minus.csv",
+        "20m",
+        L,
+        "bad/unicode_minus.csv:3, column versine_mm (field 2): '−5' is not a number; it has a typographic minus sign (−, U+2212), which word processors write; type the minus as a hyphen (-5)",
+    ),
+    (
+        "bad/utf16_no_bom.csv",
+        "20m",
+        L,
+        "bad/utf16_no_bom.csv: the file is UTF-16 text; re-save it as UTF-8 (in a spreadsheet: Save As, CSV UTF-8; in a text editor: encoding UTF-8)",
+    ),
+    ("ok/all_zero.csv", "20m", L, ""),
+    (
+        "ok/plain.csv",
+        "200m",
+        None,
+        "warning: the readings are 10 m apart, 10 to the half chord of 200 m: a hand survey with taped marks reads every half chord or a few times more often (check --chord (a chord of 20 m reads every half chord at this spacing); for a trolley or vehicle give --marking wire)",
     ),
 ];
 
@@ -605,12 +663,158 @@ fn a_million_lines_are_read() {
     let dir = tempfile::tempdir().expect("temporary folder");
     let path = dir.path().join("big.csv");
     std::fs::write(&path, s).expect("write");
+    // Readings every 0.25 m are a recording vehicle's (a taped hand survey
+    // this dense gets a warning about --chord).
     let opts = ReadOptions {
         rail: L,
+        marking: chordline::survey::Marking::Wire,
         ..ReadOptions::new(20.0)
     };
     let (survey, diags) = read_survey_file(&path, &opts).expect("reads");
     assert_eq!(survey.readings.len(), n);
     assert_eq!(survey.readings[n - 1].line, n + 1);
     assert!(diags.is_empty(), "{:?}", &diags[..diags.len().min(3)]);
+}
+
+#[test]
+fn chord_longer_than_any_survey_is_refused() {
+    let e = outcome(&fixture("ok/plain.csv"), "1000000000m", None).unwrap_err();
+    assert_eq!(
+        relative(e),
+        "ok/plain.csv: the chord length 1000000000 m is longer than any chord a survey uses (at most 1000 m); give the chord the readings were taken with, e.g. --chord 20m or --chord 62ft"
+    );
+}
+
+#[test]
+fn a_huge_cell_is_quoted_short() {
+    let mut s = String::from("chainage_m,versine_mm\n1000,0\n1010,");
+    s.push_str(&"9x".repeat(5_000_000));
+    s.push_str("\n1020,1\n");
+    let text = "'9x9x9x9x9x9x9x9x9x9x9x9x9x9x9x9x9x9x9x9x… (10000000 characters)' is not a number";
+    check_generated(
+        "big_cell.csv",
+        s.as_bytes(),
+        true,
+        "20m",
+        L,
+        &format!(
+            "big_cell.csv:3, column versine_mm (field 2): {text}; write the versine in millimetres, e.g. 12.5, or leave the cell empty for a missing reading"
+        ),
+    );
+}
+
+#[test]
+fn thousands_of_unused_columns_give_a_capped_list() {
+    let n = 100_000;
+    let mut s = String::from("chainage_m,versine_mm");
+    for i in 0..n {
+        s.push_str(&format!(",x{i}"));
+    }
+    s.push_str("\n1000,0\n1010,1\n1020,2\n");
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("wide.csv");
+    std::fs::write(&path, s).unwrap();
+    let (_, diags) = read_survey_file(
+        &path,
+        &ReadOptions {
+            rail: L,
+            ..ReadOptions::new(20.0)
+        },
+    )
+    .unwrap();
+    assert_eq!(diags.len(), 21, "{diags:?}");
+    assert_eq!(
+        diags[20].message,
+        format!("{} more columns are not used (not listed)", n - 20)
+    );
+}
+
+#[test]
+fn a_dangling_link_or_a_folder_is_named_as_such() {
+    let dir = tempfile::tempdir().unwrap();
+    let link = dir.path().join("survey.csv");
+    #[cfg(unix)]
+    {
+        std::os::unix::fs::symlink(dir.path().join("moved.csv"), &link).unwrap();
+        let e = read_survey_file(&link, &ReadOptions::new(20.0)).unwrap_err();
+        assert_eq!(
+            e.to_string(),
+            format!(
+                "{}: this is a symbolic link to '{}', which does not exist; point the link at the survey file, or give the survey file's own path",
+                link.display(),
+                dir.path().join("moved.csv").display()
+            )
+        );
+    }
+    let e = read_survey_file(dir.path(), &ReadOptions::new(20.0)).unwrap_err();
+    assert!(
+        e.to_string()
+            .contains("this is a folder, not a survey file"),
+        "{e}"
+    );
+}
+
+/// Lines deleted inside a curve take the path of empty versine cells: the
+/// same stations, the same bridged geometry and the same (grown)
+/// uncertainty, never a silent join of the neighbours.
+#[test]
+fn deleted_lines_are_bridged_like_empty_cells() {
+    use chordline::pipeline::{Options, process};
+    use chordline::survey::read::read_survey_bytes;
+    let mut deleted = String::from("chainage_m,versine_mm\n");
+    let mut empty = deleted.clone();
+    for i in 0..40 {
+        let c = 1000 + 10 * i;
+        let v = if (8..32).contains(&i) { 62.5 } else { 0.0 };
+        if (18..=21).contains(&i) {
+            empty.push_str(&format!("{c},\n"));
+        } else {
+            deleted.push_str(&format!("{c},{v}\n"));
+            empty.push_str(&format!("{c},{v}\n"));
+        }
+    }
+    let ropts = ReadOptions {
+        rail: L,
+        ..ReadOptions::new(20.0)
+    };
+    let mut opts = Options::new(20.0, Rail::Left);
+    opts.fit = None;
+    let plan = |text: &str| {
+        let (s, _) = read_survey_bytes("s.csv", text.as_bytes(), &ropts).unwrap();
+        process(s, &opts).unwrap().plan
+    };
+    let (a, b) = (plan(&deleted), plan(&empty));
+    assert_eq!(a.stations.len(), b.stations.len());
+    let (ea, eb) = (a.stations.last().unwrap(), b.stations.last().unwrap());
+    assert_eq!((ea.x, ea.y, ea.position_sd), (eb.x, eb.y, eb.position_sd));
+    // The gap makes the end uncertain: far more than the 4 readings' worth
+    // of noise a silent join would report.
+    assert!(ea.position_sd > 1.0, "{}", ea.position_sd);
+}
+
+/// The command-line catalogue: each case prints exactly its message, exits
+/// with its code, and leaves the scratch folder as it was (nothing written,
+/// nothing lost).
+#[test]
+fn cli_catalogue() {
+    let print = std::env::var_os("CHORDLINE_PRINT_CATALOGUE").is_some();
+    let mut failures = Vec::new();
+    for (what, args, code, expected) in cli_cases::CLI_CASES {
+        let dir = cli_cases::scratch();
+        let before = cli_cases::listing(dir.path());
+        let (got_code, _, err) = cli_cases::run_in(dir.path(), args);
+        let err = err.trim_end().to_string();
+        if print {
+            println!("{what}\t{err:?}");
+        }
+        if got_code != Some(*code) || err != *expected {
+            failures.push(format!(
+                "{what}: expected exit {code} and\n  {expected:?}\ngot exit {got_code:?} and\n  {err:?}"
+            ));
+        }
+        if cli_cases::listing(dir.path()) != before {
+            failures.push(format!("{what}: the refused run changed the folder"));
+        }
+    }
+    assert!(failures.is_empty(), "{}", failures.join("\n"));
 }

@@ -3,7 +3,7 @@
 
 mod common;
 
-use common::{check_contract, chordline, demo_survey, run_demo_to, stderr};
+use common::{check_contract, chordline, demo_survey, run_demo_to, stderr, stdout};
 
 #[test]
 fn run_on_the_demo_follows_the_output_contract() {
@@ -150,9 +150,9 @@ fn demo_says_where_it_wrote() {
     let o = chordline(&["demo", "--out", out.to_str().unwrap()]);
     assert!(o.status.success(), "{}", stderr(&o));
     assert!(
-        stderr(&o).contains(&format!("in {}", out.display())),
+        stdout(&o).contains(&format!("in {}", out.display())),
         "{}",
-        stderr(&o)
+        stdout(&o)
     );
     assert!(out.join("stations.csv").exists());
 }
@@ -225,7 +225,7 @@ fn slews_add_columns_and_keep_the_contract() {
     let o = run_demo_to(&out, &["--fixed", "12500", "--max-slew", "50mm"]);
     assert!(o.status.success(), "{}", stderr(&o));
     assert!(
-        stderr(&o).contains("indicative"),
+        (stdout(&o) + &stderr(&o)).contains("indicative"),
         "slews must carry their caution"
     );
     let stations = std::fs::read_to_string(out.join("stations.csv")).unwrap();
@@ -241,4 +241,161 @@ fn slews_add_columns_and_keep_the_contract() {
     let html = std::fs::read_to_string(out.join("report.html")).unwrap();
     assert!(html.contains("Slews onto the design (indicative)"));
     assert_eq!(html.matches("<svg").count(), 6, "five diagrams plus slews");
+}
+
+#[test]
+fn run_dash_reads_standard_input_and_results_go_to_standard_output() {
+    use std::io::Write;
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("out");
+    let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_chordline"))
+        .args(["run", "-", "--chord", "20m", "--rail", "L", "--out"])
+        .arg(&out)
+        .stdin(std::process::Stdio::piped())
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    let survey = std::fs::read(demo_survey()).unwrap();
+    child.stdin.take().unwrap().write_all(&survey).unwrap();
+    let o = child.wait_with_output().unwrap();
+    assert!(o.status.success(), "{}", stderr(&o));
+    let results = stdout(&o);
+    assert!(
+        results.starts_with("survey   standard input: 116 readings"),
+        "{results}"
+    );
+    assert!(results.contains("wrote    stations.csv"), "{results}");
+    // Diagnostics stay on stderr.
+    assert!(!results.contains("warning:"), "{results}");
+    assert!(stderr(&o).contains("warning:"), "{}", stderr(&o));
+    assert!(out.join("stations.csv").exists());
+}
+
+#[test]
+fn simulate_writes_standard_output_and_never_half_of_two_files() {
+    let dir = tempfile::tempdir().unwrap();
+    let design =
+        std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/eastvale-design.json");
+    let o = chordline(&["simulate", design.to_str().unwrap(), "-"]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    assert!(
+        stdout(&o).contains("chainage_m,versine_mm"),
+        "{}",
+        stdout(&o)
+    );
+    // --truth naming an existing file: refused before the survey is written.
+    let survey = dir.path().join("s.csv");
+    let truth = dir.path().join("t.csv");
+    std::fs::write(&truth, "keep").unwrap();
+    let o = chordline(&[
+        "simulate",
+        design.to_str().unwrap(),
+        survey.to_str().unwrap(),
+        "--truth",
+        truth.to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
+    assert!(!survey.exists());
+    assert_eq!(std::fs::read(&truth).unwrap(), b"keep");
+}
+
+/// The README's five-minute tour, run as written (in a scratch folder holding
+/// a copy of demo-data), each command must succeed.
+#[test]
+fn the_readme_tour_runs_as_written() {
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
+    let readme = std::fs::read_to_string(root.join("README.md")).unwrap();
+    let start = readme
+        .find("B=target/release/chordline\n")
+        .expect("tour block");
+    let block = &readme[start..];
+    let block = &block[..block.find("```").expect("end of the tour block")];
+    let commands: Vec<String> = block
+        .replace("\\\n", " ")
+        .lines()
+        .map(str::trim)
+        .filter(|l| l.starts_with("$B "))
+        .map(str::to_string)
+        .collect();
+    assert!(commands.len() >= 7, "{commands:?}");
+    let dir = tempfile::tempdir().unwrap();
+    let copy = std::process::Command::new("cp")
+        .arg("-r")
+        .arg(root.join("demo-data"))
+        .arg(dir.path())
+        .status()
+        .unwrap();
+    assert!(copy.success());
+    for c in &commands {
+        let o = std::process::Command::new("sh")
+            .arg("-c")
+            .arg(c)
+            .env("B", env!("CARGO_BIN_EXE_chordline"))
+            .current_dir(dir.path())
+            .output()
+            .unwrap();
+        assert!(o.status.success(), "{c}\n{}", stderr(&o));
+    }
+}
+
+#[test]
+fn every_help_shows_examples() {
+    for cmd in [
+        vec!["--help"],
+        vec!["run", "--help"],
+        vec!["check", "--help"],
+        vec!["batch", "--help"],
+        vec!["demo", "--help"],
+        vec!["simulate", "--help"],
+    ] {
+        let o = chordline(&cmd);
+        assert!(o.status.success(), "{cmd:?}");
+        let text = stdout(&o);
+        assert!(text.contains("Examples:\n  chordline "), "{cmd:?}: {text}");
+        assert!(text.contains("Exit status"), "{cmd:?}: {text}");
+    }
+}
+
+#[test]
+fn check_reports_and_writes_nothing() {
+    let dir = tempfile::tempdir().unwrap();
+    let good = dir.path().join("good.csv");
+    std::fs::copy(demo_survey(), &good).unwrap();
+    let bad = dir.path().join("bad.csv");
+    std::fs::write(&bad, "chainage_m,versine_mm\n0,1\n10,x2\n20,3\n").unwrap();
+    let o = chordline(&[
+        "check",
+        good.to_str().unwrap(),
+        "--chord",
+        "20m",
+        "--rail",
+        "left",
+    ]);
+    assert!(o.status.success(), "{}", stderr(&o));
+    let text = stdout(&o);
+    assert!(
+        text.contains(": can be run\nreadings 116 from 12310 to 13470 m"),
+        "{text}"
+    );
+    assert!(text.contains("spacing  10 m (every half chord)"), "{text}");
+    assert!(text.contains("gaps     1 (1 missing readings"), "{text}");
+    let o = chordline(&[
+        "check",
+        good.to_str().unwrap(),
+        bad.to_str().unwrap(),
+        "--chord",
+        "20m",
+        "--rail",
+        "left",
+    ]);
+    assert_eq!(o.status.code(), Some(1));
+    assert!(stdout(&o).contains("refused  "), "{}", stdout(&o));
+    assert!(stdout(&o).contains("bad.csv:3"), "{}", stdout(&o));
+    let mut names: Vec<_> = std::fs::read_dir(dir.path())
+        .unwrap()
+        .map(|e| e.unwrap().file_name().into_string().unwrap())
+        .collect();
+    names.sort();
+    assert_eq!(names, ["bad.csv", "good.csv"]);
 }

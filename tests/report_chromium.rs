@@ -1,7 +1,8 @@
 //! The demo report as a user sees it: rendered by headless Chromium (Debian's
 //! `chromium` package at /usr/bin/chromium; `.ci/run` installs it). Checks
 //! that the diagrams are in the rendered DOM and that the screenshot shows
-//! them (non-white pixels, and the two line colours of the diagrams).
+//! them (non-white pixels, and the two line colours of the diagrams), and that
+//! it prints to a few pages.
 //! Skips with "SKIPPED: ..." when Chromium is absent.
 //!
 //! `CHORDLINE_UPDATE_SCREENSHOT=1 cargo test --release --test report_chromium`
@@ -64,8 +65,9 @@ fn near(p: &[u8], c: [u8; 3], tol: u8) -> bool {
 #[test]
 fn the_demo_report_renders_in_headless_chromium() {
     if !Path::new(CHROMIUM).exists() {
-        eprintln!(
-            "SKIPPED: {CHROMIUM} is absent (apt-get install chromium); the report was not rendered"
+        common::skip::skipped(
+            "report rendering in Chromium",
+            &format!("{CHROMIUM} is absent (apt-get install chromium)"),
         );
         return;
     }
@@ -147,7 +149,7 @@ fn the_demo_report_renders_in_headless_chromium() {
         100.0 * share
     );
     // The measured (blue) and fitted (vermillion) lines of the first two
-    // diagrams are in the first 2000 px: 948 and 2424 pixels with Chromium
+    // diagrams are in the first 2000 px: about 980 and 2400 pixels with Chromium
     // 156 (the design line lies over the measured one). The legend swatches
     // alone make about 100 of each.
     assert!(blue > 300, "measured lines not drawn: {blue} pixels");
@@ -155,6 +157,26 @@ fn the_demo_report_renders_in_headless_chromium() {
         vermillion > 300,
         "design lines not drawn: {vermillion} pixels"
     );
+
+    // Printed (Chromium's default paper here is Letter): a few pages, each of
+    // the page size. 6 pages with Chromium 156.
+    let pdf = dir.path().join("report.pdf");
+    let mut p = browser(&dir.path().join("profile-pdf"));
+    p.arg("--no-pdf-header-footer")
+        .arg(format!("--print-to-pdf={}", pdf.display()))
+        .arg(&url);
+    run_bounded(p, "--print-to-pdf");
+    let pdf = std::fs::read(&pdf).expect("pdf written");
+    assert!(pdf.starts_with(b"%PDF-"));
+    let text = String::from_utf8_lossy(&pdf);
+    let pages: usize = text
+        .split("/Count ")
+        .nth(1)
+        .and_then(|t| t.split(|c: char| !c.is_ascii_digit()).next())
+        .and_then(|n| n.parse().ok())
+        .expect("page count in the PDF");
+    eprintln!("printed: {pages} pages");
+    assert!((3..=10).contains(&pages), "{pages} pages");
 
     if std::env::var_os("CHORDLINE_UPDATE_SCREENSHOT").is_some() {
         let docs = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("docs");

@@ -154,8 +154,8 @@ fn a_long_survey_is_shown_in_sections_and_summarised_short() {
         "{sections} sections for about 7 km"
     );
     assert!(h.contains("Overview of the whole survey"));
-    // The short summary: a handful of lines, no element table.
-    let err = stderr(&o);
+    // The short summary (on stdout): a handful of lines, no element table.
+    let err = String::from_utf8_lossy(&o.stdout).into_owned();
     let summary: Vec<&str> = err
         .lines()
         .skip_while(|l| !l.starts_with("survey "))

@@ -5,6 +5,7 @@ use super::Failure;
 use super::run::RunArgs;
 use chordline::pipeline;
 use clap::Args;
+use std::io::{IsTerminal, Write};
 use std::path::PathBuf;
 use std::sync::Mutex;
 use std::sync::atomic::{AtomicUsize, Ordering};
@@ -42,6 +43,7 @@ pub fn run(a: BatchArgs) -> Result<(), Failure> {
         .clamp(1, a.surveys.len().max(1));
     let next = AtomicUsize::new(0);
     let lines: Mutex<Vec<(usize, String, bool)>> = Mutex::new(Vec::new());
+    let progress = Progress::new(a.surveys.len(), a.run.quiet);
     std::thread::scope(|scope| {
         for _ in 0..jobs {
             scope.spawn(|| {
@@ -69,8 +71,19 @@ pub fn run(a: BatchArgs) -> Result<(), Failure> {
                                 true,
                             )
                         }
-                        Err(e) => (i, format!("failed  {}: {e}", path.display()), false),
+                        Err(e) => {
+                            // Most messages name the survey already.
+                            let e = e.to_string();
+                            let name = path.display().to_string();
+                            let text = if e.starts_with(&name) {
+                                format!("failed  {e}")
+                            } else {
+                                format!("failed  {name}: {e}")
+                            };
+                            (i, text, false)
+                        }
                     };
+                    progress.finished(&line.1);
                     if let Ok(mut l) = lines.lock() {
                         l.push(line);
                     }
@@ -78,17 +91,23 @@ pub fn run(a: BatchArgs) -> Result<(), Failure> {
             });
         }
     });
+    progress.done();
     let mut lines = lines.into_inner().unwrap_or_default();
     lines.sort_by_key(|l| l.0);
     let failed = lines.iter().filter(|l| !l.2).count();
+    // The results, in the order given, on standard output.
+    let mut text = String::new();
     for (_, l, _) in &lines {
-        eprintln!("{l}");
+        text.push_str(l);
+        text.push('\n');
     }
-    eprintln!(
-        "{} of {} surveys done, {failed} failed",
+    text.push_str(&format!(
+        "{} of {} surveys done, {failed} failed\n",
         lines.len() - failed,
         lines.len()
-    );
+    ));
+    let mut out = std::io::stdout().lock();
+    let _ = out.write_all(text.as_bytes()).and_then(|()| out.flush());
     if failed > 0 {
         return Err(Failure::Input(anyhow::anyhow!(
             "{failed} of {} surveys failed (see above); the others were written",
@@ -96,4 +115,49 @@ pub fn run(a: BatchArgs) -> Result<(), Failure> {
         )));
     }
     Ok(())
+}
+
+/// Progress on standard error while the surveys run: a bar on a terminal,
+/// one line per finished survey when standard error is a file or a pipe,
+/// nothing with `--quiet`.
+enum Progress {
+    Bar(indicatif::ProgressBar),
+    Lines,
+    Quiet,
+}
+
+impl Progress {
+    fn new(total: usize, quiet: bool) -> Self {
+        if quiet {
+            return Progress::Quiet;
+        }
+        if !std::io::stderr().is_terminal() {
+            return Progress::Lines;
+        }
+        let bar = indicatif::ProgressBar::new(total as u64);
+        if let Ok(style) = indicatif::ProgressStyle::with_template(
+            "{bar:30} {pos}/{len} surveys, {elapsed} ({eta} left) {wide_msg}",
+        ) {
+            bar.set_style(style);
+        }
+        Progress::Bar(bar)
+    }
+
+    /// One survey finished with the result line `line`.
+    fn finished(&self, line: &str) {
+        match self {
+            Progress::Bar(b) => {
+                b.inc(1);
+                b.set_message(line.split(':').next().unwrap_or("").to_string());
+            }
+            Progress::Lines => eprintln!("{line}"),
+            Progress::Quiet => {}
+        }
+    }
+
+    fn done(&self) {
+        if let Progress::Bar(b) = self {
+            b.finish_and_clear();
+        }
+    }
 }

@@ -2,6 +2,7 @@
 //! Only this module (and `main.rs`) knows about clap, stderr and exit codes.
 
 mod batch;
+mod check;
 mod demo;
 mod run;
 mod simulate;
@@ -11,29 +12,82 @@ use clap::{Parser, Subcommand};
 use std::process::ExitCode;
 
 /// Turn railway versine surveys into the as-built horizontal alignment.
-/// The exit codes, as `--help` states them.
-const EXIT_CODES: &str = "Exit status: 0 success; 1 input or usage error (the message names the file, line and column and says what to fix); 2 internal error (please report it).";
 
 #[derive(Debug, Parser)]
-#[command(name = "chordline", version, about, long_about = None, after_help = EXIT_CODES)]
+#[command(name = "chordline", version, about, long_about = None, after_help = TOP_EXAMPLES)]
 pub struct Cli {
     #[command(subcommand)]
     command: Command,
 }
 
+/// Examples shown by `chordline --help`.
+const TOP_EXAMPLES: &str = "Examples:
+  chordline demo
+  chordline run survey.csv --chord 20m --rail left --out results
+  chordline check survey.csv --chord 20m --rail left
+  chordline batch surveys/*.csv --chord 20m --rail left --out results
+
+Exit status: 0 success; 1 input or usage error (the message names the file, line and column and says what to fix); 2 internal error (please report it).";
+
+/// Examples shown by `chordline run --help`.
+const RUN_EXAMPLES: &str = "Examples:
+  chordline run survey.csv --chord 20m --rail left --out results
+  chordline run survey.csv --chord 62ft --rail right --out results --force
+  chordline run survey.csv --chord 20m --rail L --control control.csv --crs EPSG:25832 --out placed
+  chordline run survey.csv --chord 20m --rail left --fixed 12500m --max-slew 5cm --out slews
+  chordline run - --chord 20m --rail left --out results < survey.csv > summary.txt
+
+The summary goes to standard output, warnings and errors to standard error.
+
+Exit status: 0 success; 1 input or usage error (the message names the file, line and column and says what to fix); 2 internal error (please report it).";
+
+/// Examples shown by `chordline batch --help`.
+const BATCH_EXAMPLES: &str = "Examples:
+  chordline batch surveys/*.csv --chord 20m --rail left --out results
+  chordline batch a.csv b.csv --chord 20m --rail left --out results --jobs 2 --quiet
+
+Progress: a bar on a terminal; one line per finished survey when standard error is not a terminal; nothing with --quiet.
+
+Exit status: 0 success; 1 input or usage error (the message names the file, line and column and says what to fix); 2 internal error (please report it).";
+
+/// Examples shown by `chordline demo --help`.
+const DEMO_EXAMPLES: &str = "Examples:
+  chordline demo
+  chordline demo --out my-demo --force
+
+Exit status: 0 success; 1 input or usage error (the message names the file, line and column and says what to fix); 2 internal error (please report it).";
+
+/// Examples shown by `chordline simulate --help`.
+const SIMULATE_EXAMPLES: &str = "Examples:
+  chordline simulate design.json survey.csv
+  chordline simulate design.json --noise 1mm --resolution 1mm --seed 7 --out survey.csv --truth truth.csv
+  chordline simulate design.json - | chordline run - --chord 20m --rail left --out results
+
+Exit status: 0 success; 1 input or usage error (the message names the file, line and column and says what to fix); 2 internal error (please report it).";
+
+/// Examples shown by `chordline check --help`.
+const CHECK_EXAMPLES: &str = "Examples:
+  chordline check survey.csv --chord 20m --rail left
+  chordline check surveys/*.csv --chord 20m --rail left --quiet
+
+Writes nothing. Exit status: 0 every survey can be run; 1 a survey is refused (the message names the file, line and column and says what to fix), or a usage error; 2 internal error (please report it).";
+
 #[derive(Debug, Subcommand)]
 enum Command {
     /// Reconstruct the alignment from a versine survey file and write an output folder.
-    #[command(after_help = EXIT_CODES)]
+    #[command(after_help = RUN_EXAMPLES)]
     Run(run::RunCommand),
+    /// Read and check survey files without running them: readings, spacing, chord, gaps, outliers, warnings.
+    #[command(after_help = CHECK_EXAMPLES)]
+    Check(check::CheckArgs),
     /// Run many surveys with the same set-up in parallel, one output folder each.
-    #[command(after_help = EXIT_CODES)]
+    #[command(after_help = BATCH_EXAMPLES)]
     Batch(batch::BatchArgs),
     /// Run the whole job on the bundled demo survey and say where it wrote.
-    #[command(after_help = EXIT_CODES)]
+    #[command(after_help = DEMO_EXAMPLES)]
     Demo(demo::DemoArgs),
     /// Write the survey a chord would measure on a known design (exact geometry, optional noise).
-    #[command(after_help = EXIT_CODES)]
+    #[command(after_help = SIMULATE_EXAMPLES)]
     Simulate(simulate::SimulateArgs),
 }
 
@@ -67,6 +121,7 @@ pub fn main() -> ExitCode {
     };
     let result = match cli.command {
         Command::Run(a) => run::run(a),
+        Command::Check(a) => check::run(a),
         Command::Batch(a) => batch::run(a),
         Command::Demo(a) => demo::run(a),
         Command::Simulate(a) => simulate::run(a),
@@ -74,16 +129,32 @@ pub fn main() -> ExitCode {
     match result {
         Ok(()) => ExitCode::SUCCESS,
         Err(Failure::Input(e)) => {
-            eprintln!("error: {e:#}");
+            eprintln!("error: {}", chain_text(&e));
             ExitCode::from(1)
         }
         Err(Failure::Internal(e)) => {
             eprintln!(
-                "internal error: {e:#}\nThis is a bug in chordline; please report it with the input that caused it."
+                "internal error: {}\nThis is a bug in chordline; please report it with the input that caused it.",
+                chain_text(&e)
             );
             ExitCode::from(2)
         }
     }
+}
+
+/// An error and its causes, each cause once: a cause whose text the message
+/// already holds (many messages quote the operating system's error) is not
+/// repeated.
+fn chain_text(e: &anyhow::Error) -> String {
+    let mut text = e.to_string();
+    for cause in e.chain().skip(1) {
+        let c = cause.to_string();
+        if !text.contains(&c) {
+            text.push_str(": ");
+            text.push_str(&c);
+        }
+    }
+    text
 }
 
 #[cfg(test)]

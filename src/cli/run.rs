@@ -2,14 +2,15 @@
 
 use super::Failure;
 use super::simulate::{MarkingArg, RailArg};
-use super::util::small_length;
+use super::util::{ChainageArg, chainage, gauge, signed_length, small_length};
 use chordline::advice::{AdviceOptions, Limit, PROFILE_NAMES, Profile};
 use chordline::diag::Diagnostic;
 use chordline::georef::{GeorefArgs, parse_bearing};
 use chordline::pipeline::{self, Options, Outcome};
 use chordline::survey::{Rail, Setup};
-use chordline::units::Length;
+use chordline::units::{Length, LengthUnit};
 use clap::Args;
+use std::io::Write;
 use std::path::{Path, PathBuf};
 
 /// Options of `chordline run`.
@@ -26,7 +27,7 @@ pub struct RunCommand {
 #[derive(Debug, Args)]
 pub struct RunArgs {
     /// Chord length with unit, e.g. 20m or 62ft.
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub chord: Length,
     /// Rail measured, facing increasing chainage (needed when the file has no side column).
     #[arg(long, value_enum)]
@@ -35,13 +36,13 @@ pub struct RunArgs {
     #[arg(long)]
     pub out: PathBuf,
     /// Track gauge between running edges.
-    #[arg(long, value_parser = small_length, default_value = "1435mm")]
+    #[arg(long, value_parser = gauge, default_value = "1435mm", allow_hyphen_values = true)]
     pub gauge: f64,
     /// How stations were marked: taped along the rail (hand survey) or a rigid wire or beam (trolley, vehicle).
     #[arg(long, value_enum, default_value = "taped")]
     pub marking: MarkingArg,
     /// Standard deviation of one reading, e.g. 1mm (default: estimated from the readings).
-    #[arg(long, value_parser = small_length)]
+    #[arg(long, value_parser = small_length, allow_hyphen_values = true)]
     pub reading_sd: Option<f64>,
     /// Bearing of the track at the first station, degrees clockwise from (true) north; default 0.
     #[arg(long, allow_negative_numbers = true)]
@@ -58,8 +59,8 @@ pub struct RunArgs {
     /// Grid of --start-grid, of the control file's easting/northing and of the LandXML output, e.g. EPSG:25832.
     #[arg(long, value_name = "EPSG:CODE")]
     pub crs: Option<String>,
-    /// Height of the track above the WGS 84 ellipsoid, metres (scales ground lengths to the ellipsoid).
-    #[arg(long, allow_negative_numbers = true)]
+    /// Height of the track above the WGS 84 ellipsoid, e.g. 350m or 1150ft (a bare number is metres; scales ground lengths to the ellipsoid).
+    #[arg(long, value_parser = height, allow_hyphen_values = true)]
     pub height: Option<f64>,
     /// Replace the output folder if it exists.
     #[arg(long)]
@@ -79,12 +80,13 @@ pub struct RunArgs {
     /// Compute slews onto the fitted design (indicative only; see the README).
     #[arg(long)]
     pub slews: bool,
-    /// Survey chainages where the track must not move, in the survey's
-    /// chainage unit, comma separated (implies --slews).
-    #[arg(long, value_delimiter = ',', value_name = "CH,CH,..")]
-    pub fixed: Vec<f64>,
-    /// Largest slew either way, e.g. 50mm: a constraint of the realignment (implies --slews).
-    #[arg(long, value_parser = small_length)]
+    /// Survey chainages where the track must not move, comma separated, in
+    /// the survey's chainage unit or with m or ft, e.g. 4200,4310 or
+    /// 4200m,4310m (implies --slews).
+    #[arg(long, value_delimiter = ',', value_name = "CH,CH,..", value_parser = chainage, allow_hyphen_values = true)]
+    pub fixed: Vec<ChainageArg>,
+    /// Largest slew either way, e.g. 50mm or 5cm: a constraint of the realignment (implies --slews).
+    #[arg(long, value_parser = small_length, allow_hyphen_values = true)]
     pub max_slew: Option<f64>,
     /// How far a fixed point may move, e.g. 2mm (default 0: not at all).
     #[arg(long, value_parser = small_length, value_name = "LENGTH")]
@@ -270,7 +272,7 @@ impl RunArgs {
             None => None,
         };
         Ok(Some(chordline::realign::SlewOptions {
-            fixed: self.fixed.clone(),
+            fixed: self.fixed.iter().map(|c| c.value).collect(),
             fixed_tolerance: self.fixed_tolerance.unwrap_or(0.0),
             max_slew: self.max_slew,
             ranges,
@@ -372,10 +374,10 @@ pub enum SummaryLength {
 }
 
 /// The command line for the report, without the options that do not change
-/// the results (output folder, threads, --force, --quiet, --summary), so that
-/// the same input and options give the same report.
+/// the results (output folder, threads, batch jobs, --force, --quiet,
+/// --summary), so that the same input and options give the same report.
 fn recorded_command_line() -> Vec<String> {
-    const WITH_VALUE: [&str; 3] = ["--out", "--threads", "--summary"];
+    const WITH_VALUE: [&str; 4] = ["--out", "--threads", "--jobs", "--summary"];
     const FLAGS: [&str; 3] = ["--force", "--quiet", "-q"];
     let mut out = vec!["chordline".to_string()];
     let mut args = std::env::args_os()
@@ -393,6 +395,23 @@ fn recorded_command_line() -> Vec<String> {
     out
 }
 
+/// Parse `--height`: metres, or a length with its unit; may be negative.
+fn height(s: &str) -> Result<f64, String> {
+    signed_length(s, false)
+}
+
+/// Put `--fixed` chainages written with a unit into the survey's chainage
+/// unit `unit` (those without one are in it already).
+pub fn fixed_in_unit(fixed: &[ChainageArg], unit: LengthUnit) -> Vec<f64> {
+    fixed
+        .iter()
+        .map(|c| match c.unit {
+            Some(u) if u != unit => unit.from_m(u.to_m(c.value)),
+            _ => c.value,
+        })
+        .collect()
+}
+
 /// Check a `--speed` value and keep its text (the unit chooses the default profile).
 fn speed_text(s: &str) -> Result<String, String> {
     chordline::advice::parse_speed(s).map(|_| s.to_string())
@@ -401,12 +420,48 @@ fn speed_text(s: &str) -> Result<String, String> {
 /// Run `chordline run`.
 pub fn run(c: RunCommand) -> Result<(), Failure> {
     let a = &c.args;
-    let outcome = execute(&c.survey, &a.options()?, &a.out, a.force)?;
+    refuse_stdout_folder(&a.out)?;
+    let mut opts = a.options()?;
+    if a.fixed.iter().any(|f| f.unit.is_some()) {
+        let unit = survey_unit(&c.survey, &opts)?;
+        if let Some(s) = &mut opts.slew {
+            s.fixed = fixed_in_unit(&a.fixed, unit);
+        }
+    }
+    let outcome = execute(&c.survey, &opts, &a.out, a.force)?;
     match a.summary {
         SummaryLength::Full => print_outcome(&outcome, a.quiet),
         SummaryLength::Short => print_short(&outcome, a.quiet),
     }
     Ok(())
+}
+
+/// `--out -`: an output folder cannot go to standard output.
+pub fn refuse_stdout_folder(out: &Path) -> Result<(), Failure> {
+    if out == Path::new("-") {
+        return Err(Failure::Input(anyhow::anyhow!(
+            "--out names a folder, and a folder of several files cannot go to standard output (-); give a folder name, e.g. --out results (the summary is printed to standard output anyway)"
+        )));
+    }
+    Ok(())
+}
+
+/// The chainage unit of the survey file (read once more, to convert
+/// `--fixed` values written with a unit). A file that cannot be read is
+/// left for the run to report.
+fn survey_unit(survey: &Path, opts: &Options) -> Result<LengthUnit, Failure> {
+    if survey == Path::new("-") {
+        return Err(Failure::Input(anyhow::anyhow!(
+            "with the survey on standard input, write the --fixed chainages without a unit (in the survey's chainage unit)"
+        )));
+    }
+    let ropts = chordline::survey::read::ReadOptions {
+        rail: opts.rail_stated.then_some(opts.setup.rail),
+        chord: opts.setup.chord,
+        marking: opts.setup.marking,
+    };
+    Ok(chordline::survey::read::read_survey_file(survey, &ropts)
+        .map_or(LengthUnit::Metre, |(s, _)| s.chainage_unit))
 }
 
 /// Run the pipeline, mapping its error to an exit class.
@@ -420,38 +475,71 @@ pub fn execute(survey: &Path, opts: &Options, out: &Path, force: bool) -> Result
     })
 }
 
-/// Print the warnings and the summary to stderr.
+/// Print the warnings to standard error, and the results (the summary, the
+/// slews and advice lines, where it wrote) to standard output, so that
+/// `> summary.txt` keeps the results and the terminal still shows warnings.
 pub fn print_outcome(o: &Outcome, quiet: bool) {
     if !quiet {
-        for d in &o.results.diagnostics {
-            eprintln!("{}", fmt_diag(d));
-        }
+        print_diagnostics(&o.results.diagnostics, " (report.html lists them all)");
     }
-    eprint!("{}", chordline::report::summary(&o.results));
+    let mut text = chordline::report::summary(&o.results);
     if let Some(s) = &o.results.slews {
-        eprintln!(
-            "{}",
-            chordline::realign::summary_line(s, o.results.survey.chainage_unit)
-        );
+        text.push_str(&chordline::realign::summary_line(
+            s,
+            o.results.survey.chainage_unit,
+        ));
+        text.push('\n');
     }
     if let Some(a) = &o.results.advice {
-        eprint!(
-            "{}",
-            chordline::report::advice_text(a, o.results.survey.chainage_unit)
-        );
+        text.push_str(&chordline::report::advice_text(
+            a,
+            o.results.survey.chainage_unit,
+        ));
     }
-    eprintln!("wrote    {} in {}", o.files.join(", "), o.folder.display());
+    text.push_str(&format!(
+        "wrote    {} in {}\n",
+        o.files.join(", "),
+        o.folder.display()
+    ));
+    let mut out = std::io::stdout().lock();
+    // A closed pipe (e.g. `| head`) is not a failure of the run: the
+    // results are already in the folder.
+    let _ = out.write_all(text.as_bytes()).and_then(|()| out.flush());
 }
 
-/// Print the warnings and the short summary (`--summary short`) to stderr.
+/// Most diagnostics printed on the terminal; the rest are counted.
+const MAX_PRINTED: usize = 200;
+
+/// Print diagnostics to standard error, at most [`MAX_PRINTED`] of them.
+/// `rest` says where the others can be read.
+pub fn print_diagnostics(diags: &[Diagnostic], rest: &str) {
+    let mut err = std::io::stderr().lock();
+    for d in diags.iter().take(MAX_PRINTED) {
+        let _ = writeln!(err, "{}", fmt_diag(d));
+    }
+    if diags.len() > MAX_PRINTED {
+        let _ = writeln!(
+            err,
+            "... and {} more warnings and notes, not printed{rest}",
+            diags.len() - MAX_PRINTED
+        );
+    }
+}
+
+/// Print the warnings (stderr) and the short summary (`--summary short`, stdout).
 pub fn print_short(o: &Outcome, quiet: bool) {
     if !quiet {
-        for d in &o.results.diagnostics {
-            eprintln!("{}", fmt_diag(d));
-        }
+        print_diagnostics(&o.results.diagnostics, " (report.html lists them all)");
     }
-    eprint!("{}", chordline::report::summary_short(&o.results));
-    eprintln!("wrote    {} in {}", o.files.join(", "), o.folder.display());
+    let mut text = chordline::report::summary_short(&o.results);
+    text.push_str(&format!(
+        "wrote    {} in {}\n",
+        o.files.join(", "),
+        o.folder.display()
+    ));
+    let mut out = std::io::stdout().lock();
+    // A closed pipe is not a failure of the run: the results are in the folder.
+    let _ = out.write_all(text.as_bytes()).and_then(|()| out.flush());
 }
 
 fn fmt_diag(d: &Diagnostic) -> String {

@@ -1,20 +1,23 @@
 //! `chordline simulate`: write the survey a chord would measure on a known design.
 
 use super::Failure;
-use super::util::{small_length, write_file_atomic};
+use super::util::{StagedFile, gauge, same_file, small_length};
 use anyhow::Context;
 use chordline::simulate::{Design, simulate, write_survey_csv};
 use chordline::survey::{Marking, Rail};
 use chordline::units::{Length, LengthUnit, VersineUnit};
 use clap::{Args, ValueEnum};
-use std::path::PathBuf;
+use std::io::Write;
+use std::path::{Path, PathBuf};
 
 /// Which rail, on the command line.
 #[derive(Debug, Clone, Copy, ValueEnum)]
 pub enum RailArg {
-    /// The left rail facing increasing chainage.
+    /// The left rail facing increasing chainage (also: L).
+    #[value(alias = "L", alias = "l")]
     Left,
-    /// The right rail facing increasing chainage.
+    /// The right rail facing increasing chainage (also: R).
+    #[value(alias = "R", alias = "r")]
     Right,
 }
 
@@ -61,10 +64,10 @@ pub struct SimulateArgs {
     )]
     pub out: Option<PathBuf>,
     /// Chord length with unit, e.g. 20m or 62ft.
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub chord: Option<Length>,
     /// Distance between marks along the rail, e.g. 10m (default: half the chord).
-    #[arg(long)]
+    #[arg(long, allow_hyphen_values = true)]
     pub spacing: Option<Length>,
     /// Rail measured, facing increasing chainage.
     #[arg(long, value_enum)]
@@ -73,16 +76,16 @@ pub struct SimulateArgs {
     #[arg(long, value_enum)]
     pub marking: Option<MarkingArg>,
     /// Track gauge between running edges, e.g. 1435mm.
-    #[arg(long, value_parser = small_length)]
+    #[arg(long, value_parser = gauge, allow_hyphen_values = true)]
     pub gauge: Option<f64>,
     /// Standard deviation of the random reading noise, e.g. 1mm.
-    #[arg(long, value_parser = small_length)]
+    #[arg(long, value_parser = small_length, allow_hyphen_values = true)]
     pub noise: Option<f64>,
     /// Readings are rounded to this step, e.g. 1mm or 0.125in.
-    #[arg(long, value_parser = small_length)]
+    #[arg(long, value_parser = small_length, allow_hyphen_values = true)]
     pub resolution: Option<f64>,
     /// RMS of a lateral irregularity of the track (3–70 m wavelengths), e.g. 1.5mm.
-    #[arg(long, value_parser = small_length)]
+    #[arg(long, value_parser = small_length, allow_hyphen_values = true)]
     pub irregularity: Option<f64>,
     /// Seed for the noise and the irregularity.
     #[arg(long)]
@@ -142,48 +145,31 @@ pub fn run(a: SimulateArgs) -> Result<(), Failure> {
         s.seed = seed;
     }
     let setup = design.setup.clone();
+    check_paths(&a.design, &out, a.truth.as_deref())?;
     let sim = simulate(&design.alignment(), &setup)?;
-    let comment = format!(
-        "Simulated survey of {name} (chordline simulate)\nchord {} m, marks every {} m on the {} rail, {:?} marking, gauge {} m\nreading noise sd {} mm, bias {} mm, resolution {} mm, track irregularity {} mm RMS, seed {}",
-        setup.chord,
-        setup.spacing,
-        setup.rail.name(),
-        setup.marking,
-        setup.gauge,
-        setup.noise_sd * 1e3,
-        setup.bias * 1e3,
-        setup.resolution * 1e3,
-        setup.irregularity_rms * 1e3,
-        setup.seed
-    );
-    write_file_atomic(&out, a.force, |w| {
-        write_survey_csv(w, &sim.survey, setup.resolution, &comment)
-    })?;
-    if let Some(t) = &a.truth {
-        let cu = setup.chainage_unit;
-        write_file_atomic(t, a.force, |w| {
-            writeln!(
-                w,
-                "chainage_{u},centre_distance_{u},easting_{u},northing_{u},bearing_deg,curvature_1_per_km,irregularity_mm,exact_versine_mm",
-                u = cu.suffix()
-            )?;
-            for t in &sim.truth {
-                writeln!(
-                    w,
-                    "{:.4},{:.4},{:.4},{:.4},{:.8},{:.6},{:.4},{}",
-                    cu.from_m(t.chainage),
-                    cu.from_m(t.centre_s),
-                    cu.from_m(t.centre.x),
-                    cu.from_m(t.centre.y),
-                    chordline::geometry::heading_to_bearing(t.centre.heading),
-                    t.centre_curvature * 1e3,
-                    t.irregularity * 1e3,
-                    t.versine
-                        .map_or(String::new(), |v| format!("{:.4}", v * 1e3))
-                )?;
-            }
-            Ok(())
-        })?;
+    let comment = header_comment(&name, &setup);
+    let survey = |w: &mut dyn Write| write_survey_csv(w, &sim.survey, setup.resolution, &comment);
+    let truth = |w: &mut dyn Write| write_truth_csv(w, &sim.truth, setup.chainage_unit);
+    // Both files are written in full before either is put in place, so a
+    // failure leaves neither half-written nor one without the other.
+    let staged_survey = (out != Path::new("-"))
+        .then(|| StagedFile::write(&out, a.force, survey))
+        .transpose()?;
+    let staged_truth = match a.truth.as_deref() {
+        Some(t) if t != Path::new("-") => Some(StagedFile::write(t, a.force, truth)?),
+        _ => None,
+    };
+    if out == Path::new("-") {
+        write_stdout(survey)?;
+    }
+    if a.truth.as_deref() == Some(Path::new("-")) {
+        write_stdout(truth)?;
+    }
+    if let Some(f) = staged_survey {
+        f.commit()?;
+    }
+    if let Some(f) = staged_truth {
+        f.commit()?;
     }
     eprintln!(
         "wrote {} readings to {}",
@@ -192,7 +178,121 @@ pub fn run(a: SimulateArgs) -> Result<(), Failure> {
             .iter()
             .filter(|r| r.versine.is_some())
             .count(),
-        out.display()
+        if out == Path::new("-") {
+            "standard output".to_string()
+        } else {
+            out.display().to_string()
+        }
     );
+    Ok(())
+}
+
+/// Refuse outputs that would overwrite the design or each other, and two
+/// outputs on standard output.
+fn check_paths(design: &Path, out: &Path, truth: Option<&Path>) -> Result<(), Failure> {
+    let refuse = |msg: String| Err(Failure::Input(anyhow::anyhow!(msg)));
+    let stdout = Path::new("-");
+    for (what, p) in [("--out", Some(out)), ("--truth", truth)] {
+        if let Some(p) = p
+            && p != stdout
+            && same_file(p, design)
+        {
+            return refuse(format!(
+                "{what} {} is the design file itself, which writing would overwrite; name another file (e.g. survey.csv)",
+                p.display()
+            ));
+        }
+    }
+    if let Some(t) = truth {
+        if t == stdout && out == stdout {
+            return refuse(
+                "the survey and --truth cannot both go to standard output (-); write one of them to a file".into(),
+            );
+        }
+        if t != stdout && same_file(t, out) {
+            return refuse(format!(
+                "--truth {} is the survey file too; give the truth its own file (e.g. truth.csv)",
+                t.display()
+            ));
+        }
+    }
+    Ok(())
+}
+
+/// Write one output to standard output.
+fn write_stdout(f: impl FnOnce(&mut dyn Write) -> std::io::Result<()>) -> Result<(), Failure> {
+    let stdout = std::io::stdout();
+    let mut w = std::io::BufWriter::new(stdout.lock());
+    f(&mut w)
+        .and_then(|()| w.flush())
+        .context("could not write to standard output")?;
+    Ok(())
+}
+
+/// The survey file's comment: the set-up in the units of the survey.
+fn header_comment(name: &str, s: &chordline::simulate::SimSetup) -> String {
+    let imperial = s.chainage_unit == LengthUnit::Foot;
+    let len = |m: f64| {
+        if imperial {
+            format!("{} ft", round6(m / chordline::units::FOOT))
+        } else {
+            format!("{} m", round6(m))
+        }
+    };
+    let small = |m: f64| {
+        if imperial {
+            format!("{} in", round6(m / chordline::units::INCH))
+        } else {
+            format!("{} mm", round6(m * 1e3))
+        }
+    };
+    format!(
+        "Simulated survey of {name} (chordline simulate)\nchord {}, marks every {} on the {} rail, {:?} marking, gauge {}\nreading noise sd {}, bias {}, resolution {}, track irregularity {} RMS, seed {}",
+        len(s.chord),
+        len(s.spacing),
+        s.rail.name(),
+        s.marking,
+        small(s.gauge),
+        small(s.noise_sd),
+        small(s.bias),
+        small(s.resolution),
+        small(s.irregularity_rms),
+        s.seed
+    )
+}
+
+/// A number to six decimals without trailing zeros (20, 18.8976, 1.27).
+fn round6(v: f64) -> String {
+    let t = format!("{v:.6}");
+    let t = t.trim_end_matches('0').trim_end_matches('.');
+    if t == "-0" { "0".into() } else { t.into() }
+}
+
+/// The exact geometry at every mark, in the survey's chainage unit.
+fn write_truth_csv(
+    w: &mut dyn Write,
+    truth: &[chordline::simulate::Truth],
+    cu: LengthUnit,
+) -> std::io::Result<()> {
+    writeln!(
+        w,
+        "chainage_{u},centre_distance_{u},easting_{u},northing_{u},bearing_deg,curvature_1_per_km,irregularity_mm,exact_versine_mm",
+        u = cu.suffix()
+    )?;
+    for t in truth {
+        writeln!(
+            w,
+            "{:.4},{:.4},{:.4},{:.4},{:.8},{:.6},{:.4},{}",
+            cu.from_m(t.chainage),
+            cu.from_m(t.centre_s),
+            cu.from_m(t.centre.x),
+            cu.from_m(t.centre.y),
+            chordline::geometry::heading_to_bearing(t.centre.heading),
+            t.centre_curvature * 1e3,
+            t.irregularity * 1e3,
+            t.versine
+                .map_or(String::new(), |v| format!("{:.4}", v * 1e3))
+        )?;
+    }
     Ok(())
 }

@@ -1,71 +1,210 @@
 //! Small helpers shared by the commands.
 
 use anyhow::{Context, bail};
-use chordline::units::{FOOT, INCH};
+use chordline::units::{LengthUnit, length_unit_of, split_unit};
 use std::io::Write;
 use std::path::Path;
 
-/// Parse a small length with its unit (`1mm`, `0.5 mm`, `0.125in`, `0.001m`) into metres.
+/// Parse a small length with its unit (`1mm`, `0.5 mm`, `2cm`, `0.125in`, `0.001m`) into metres.
 pub fn small_length(s: &str) -> Result<f64, String> {
-    let t = s.trim();
-    let split = t.trim_end_matches(|c: char| c.is_ascii_alphabetic()).len();
-    let (num, unit) = t.split_at(split);
-    let scale = match unit.trim() {
-        "mm" => 1e-3,
-        "m" => 1.0,
-        "in" => INCH,
-        "ft" => FOOT,
-        "" => return Err(format!("'{s}' has no unit: write e.g. 1mm or 0.125in")),
-        _ => return Err(format!("'{s}' has an unknown unit: use mm, m, in or ft")),
+    let v = signed_length(s, true)?;
+    if v < 0.0 {
+        return Err(format!(
+            "'{s}' is below zero; give a length of zero or more, e.g. 1mm"
+        ));
+    }
+    Ok(v)
+}
+
+/// Parse a length with its unit into metres, negative values allowed; a
+/// bare number is refused unless `need_unit` is false (then it is metres).
+pub fn signed_length(s: &str, need_unit: bool) -> Result<f64, String> {
+    non_finite(s, "length")?;
+    let (num, unit) = split_unit(s).map_err(|e| e.to_string())?;
+    let scale = match unit {
+        "" if need_unit => {
+            return Err(format!("'{s}' has no unit: write e.g. 1mm or 0.125in"));
+        }
+        "" => 1.0,
+        u => match length_unit_of(u) {
+            Some((scale, _)) => scale,
+            None => {
+                return Err(format!(
+                    "'{s}' has an unknown unit: use mm, cm, m, in or ft"
+                ));
+            }
+        },
     };
     let v: f64 = num
-        .trim()
         .parse()
         .map_err(|_| format!("'{s}' is not a number with a unit (e.g. 1mm)"))?;
-    if !(v.is_finite() && v >= 0.0) {
-        return Err(format!("'{s}' must be a finite length not below zero"));
+    if !v.is_finite() {
+        return Err(format!("'{s}' is not a finite length"));
     }
     Ok(v * scale)
 }
 
-/// Write a file through a temporary file in the same folder, renamed into
-/// place only when complete. Refuses to replace an existing file unless `force`.
-pub fn write_file_atomic(
-    path: &Path,
-    force: bool,
-    f: impl FnOnce(&mut dyn Write) -> std::io::Result<()>,
-) -> anyhow::Result<()> {
+/// Refuse `NaN`, `inf` and the like (which would otherwise look like a unit).
+fn non_finite(s: &str, what: &str) -> Result<(), String> {
+    match s.trim().parse::<f64>() {
+        Ok(v) if !v.is_finite() => Err(format!(
+            "'{s}' is not a finite {what}: write a number, e.g. 4200 (with a unit where one is asked for)"
+        )),
+        _ => Ok(()),
+    }
+}
+
+/// The narrowest and widest track gauges accepted (metres): 381 mm (15 in,
+/// the narrowest minimum-gauge railways) to 1676 mm (the broad gauge of India,
+/// the widest in wide use), with room for tolerances. From memory; common
+/// practice, not a standard.
+const GAUGE_RANGE: (f64, f64) = (0.35, 1.75);
+
+/// Parse `--gauge`: a length with unit within the range of real track gauges.
+pub fn gauge(s: &str) -> Result<f64, String> {
+    let g = small_length(s)?;
+    if !(GAUGE_RANGE.0..=GAUGE_RANGE.1).contains(&g) {
+        return Err(format!(
+            "'{s}' is not a track gauge: gauges run from about 381 mm (15 in) to 1676 mm (5 ft 6 in); give the distance between the running edges of the rails, e.g. 1435mm (standard gauge) or 1000mm"
+        ));
+    }
+    Ok(g)
+}
+
+/// A chainage on the command line: a number, optionally with the unit m or
+/// ft (without one, it is in the survey's chainage unit).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ChainageArg {
+    /// The number as written.
+    pub value: f64,
+    /// The unit written after it, if any.
+    pub unit: Option<LengthUnit>,
+}
+
+/// Parse one `--fixed` chainage (`4200`, `4200m`, `13780ft`, `-100`).
+pub fn chainage(s: &str) -> Result<ChainageArg, String> {
+    non_finite(s, "chainage")?;
+    let (num, unit) = split_unit(s).map_err(|e| e.to_string())?;
+    let unit = match unit {
+        "" => None,
+        "m" => Some(LengthUnit::Metre),
+        "ft" => Some(LengthUnit::Foot),
+        _ => {
+            return Err(format!(
+                "'{s}' has an unknown unit: write the chainage as a number, in the survey's unit or with m or ft (e.g. 4200 or 4200m)"
+            ));
+        }
+    };
+    let value: f64 = num.parse().map_err(|_| {
+        format!("'{s}' is not a chainage: write a number, e.g. 4200 or 4200m (several separated by commas)")
+    })?;
+    if !value.is_finite() {
+        return Err(format!(
+            "'{s}' is not a finite chainage: write a number, e.g. 4200"
+        ));
+    }
+    Ok(ChainageArg { value, unit })
+}
+
+/// A file written beside its destination under a hidden temporary name and
+/// renamed into place only by [`StagedFile::commit`]; dropped uncommitted,
+/// the temporary file is removed. Staging every file of a command before
+/// committing any means a failure leaves none of them half-written.
+pub struct StagedFile {
+    tmp: std::path::PathBuf,
+    path: std::path::PathBuf,
+    done: bool,
+}
+
+impl StagedFile {
+    /// Write `path`'s new content through `f` into the temporary file.
+    /// Refuses to replace an existing file unless `force`, and a folder always.
+    pub fn write(
+        path: &Path,
+        force: bool,
+        f: impl FnOnce(&mut dyn Write) -> std::io::Result<()>,
+    ) -> anyhow::Result<Self> {
+        refuse_existing(path, force)?;
+        let dir = path
+            .parent()
+            .filter(|p| !p.as_os_str().is_empty())
+            .unwrap_or(Path::new("."));
+        let name = path
+            .file_name()
+            .with_context(|| format!("{} is not a file name", path.display()))?;
+        static N: std::sync::atomic::AtomicU64 = std::sync::atomic::AtomicU64::new(0);
+        let n = N.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+        let tmp = dir.join(format!(
+            ".{}.{}-{n}.tmp",
+            name.to_string_lossy(),
+            std::process::id()
+        ));
+        let staged = StagedFile {
+            tmp,
+            path: path.to_path_buf(),
+            done: false,
+        };
+        let result = (|| -> std::io::Result<()> {
+            let file = std::fs::File::create(&staged.tmp)?;
+            let mut w = std::io::BufWriter::new(file);
+            f(&mut w)?;
+            let file = w.into_inner().map_err(|e| e.into_error())?;
+            file.sync_all()
+        })();
+        result.with_context(|| {
+            format!(
+                "could not write {} (nothing was replaced); check that its folder exists and the free disk space",
+                path.display()
+            )
+        })?;
+        Ok(staged)
+    }
+
+    /// Rename the finished file into place.
+    pub fn commit(mut self) -> anyhow::Result<()> {
+        std::fs::rename(&self.tmp, &self.path)
+            .with_context(|| format!("could not write {}", self.path.display()))?;
+        self.done = true;
+        Ok(())
+    }
+}
+
+impl Drop for StagedFile {
+    fn drop(&mut self) {
+        if !self.done {
+            let _ = std::fs::remove_file(&self.tmp);
+        }
+    }
+}
+
+/// Refuse to write over a folder, or over an existing file without `force`.
+pub fn refuse_existing(path: &Path, force: bool) -> anyhow::Result<()> {
+    if path.is_dir() {
+        bail!(
+            "{} is a folder; name a file to write (e.g. {})",
+            path.display(),
+            path.join("survey.csv").display()
+        );
+    }
     if path.exists() && !force {
         bail!(
             "{} already exists; pass --force to replace it, or choose another name",
             path.display()
         );
     }
-    let dir = path
-        .parent()
-        .filter(|p| !p.as_os_str().is_empty())
-        .unwrap_or(Path::new("."));
-    let name = path
-        .file_name()
-        .with_context(|| format!("{} is not a file name", path.display()))?;
-    let tmp = dir.join(format!(
-        ".{}.{}.tmp",
-        name.to_string_lossy(),
-        std::process::id()
-    ));
-    let result = (|| -> std::io::Result<()> {
-        let file = std::fs::File::create(&tmp)?;
-        let mut w = std::io::BufWriter::new(file);
-        f(&mut w)?;
-        let file = w.into_inner().map_err(|e| e.into_error())?;
-        file.sync_all()?;
-        std::fs::rename(&tmp, path)
-    })();
-    if let Err(e) = result {
-        let _ = std::fs::remove_file(&tmp);
-        return Err(e).with_context(|| format!("could not write {}", path.display()));
-    }
     Ok(())
+}
+
+/// Whether two paths name the same file (the same text, or the same file
+/// once links and `..` are resolved).
+pub fn same_file(a: &Path, b: &Path) -> bool {
+    if a == b {
+        return true;
+    }
+    match (std::fs::canonicalize(a), std::fs::canonicalize(b)) {
+        (Ok(x), Ok(y)) => x == y,
+        _ => false,
+    }
 }
 
 #[cfg(test)]
@@ -75,9 +214,22 @@ mod tests {
     #[test]
     fn small_lengths_need_units() {
         assert_eq!(small_length("1mm"), Ok(1e-3));
-        assert_eq!(small_length("0.125in"), Ok(0.125 * INCH));
+        assert_eq!(small_length("0.125in"), Ok(0.125 * chordline::units::INCH));
         assert!(small_length("1").is_err());
         assert!(small_length("-1mm").is_err());
         assert!(small_length("1yd").is_err());
+        assert!((small_length("5cm").unwrap() - 0.05).abs() < 1e-15);
+        assert!(gauge("0mm").is_err() && gauge("3000mm").is_err() && gauge("10m").is_err());
+        assert!((gauge("1435mm").unwrap() - 1.435).abs() < 1e-15);
+        assert_eq!(signed_length("350m", false), Ok(350.0));
+        assert_eq!(signed_length("-20", false), Ok(-20.0));
+        assert_eq!(
+            chainage("4200m"),
+            Ok(ChainageArg {
+                value: 4200.0,
+                unit: Some(LengthUnit::Metre)
+            })
+        );
+        assert!(chainage("NaN").is_err() && chainage("inf").is_err());
     }
 }

@@ -130,7 +130,8 @@ fn civil_from_days(z: i64) -> (i64, u32, u32) {
     (if m <= 2 { y + 1 } else { y }, m, d)
 }
 
-/// UTC date `YYYY-MM-DD` and time `HH:MM:SS` of a time stamp (also used by the IFC writer and the report).
+/// UTC date `YYYY-MM-DD` and time `HH:MM:SS` of a time stamp (also used by
+/// the IFC writer and the report).
 pub(crate) fn date_time(t: SystemTime) -> (String, String) {
     let secs = t
         .duration_since(SystemTime::UNIX_EPOCH)

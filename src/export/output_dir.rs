@@ -5,15 +5,24 @@
 //! into place, after every file was written, flushed and synced. Until then an
 //! earlier output folder of the same name is untouched; if the run fails (the
 //! `OutputDir` is dropped without `commit`, including on a panic), the
-//! staging folder is removed and nothing else changes. An existing output
-//! folder is replaced only with `force`, and never when it is, or holds, one
-//! of the run's input files.
+//! staging folder is removed, and so are the folders above the target that
+//! the run created; nothing else changes. An existing output folder is
+//! replaced only with `force`, only when chordline wrote it (it holds the
+//! [`MARKER`] file; an empty folder is used as it is), and never when it is,
+//! or holds, one of the run's input files or the working folder. A symlink
+//! at the target is followed: the folder it points to is replaced, the link
+//! stays.
 //!
 //! If the process is killed outright (a signal that does not unwind), a
-//! hidden `.NAME.chordline-partial-*` folder may be left beside the target;
-//! it holds nothing of value and can be deleted. A kill in the instant between
-//! the two renames of a forced commit leaves the earlier results in
-//! `.NAME.chordline-old-*` beside the target.
+//! hidden `.NAME.chordline-partial-PID-N` folder may be left beside the
+//! target, and a kill in the instant between the two renames of a forced
+//! commit leaves the earlier results in `.NAME.chordline-old-PID-N`. The next
+//! run writing the same target removes the first, puts the second back (or
+//! removes it when newer results are in place), and says so in
+//! [`OutputDir::notes`]; where it cannot tell that the process is gone (no
+//! `/proc`), it names them instead. Runs writing one target at the same time
+//! commit one after the other (a lock on the folder above the target), so each
+//! swap is whole and the last one wins.
 //!
 //! # Examples
 //! ```
@@ -78,6 +87,34 @@ pub enum OutputError {
         /// The input file inside it.
         input: PathBuf,
     },
+    /// `--force` on a folder that holds files but no [`MARKER`]: it was not
+    /// written by chordline, and replacing it could delete the user's files.
+    #[error(
+        "the folder '{}' was not written by chordline (it has no {MARKER} file), so --force does not replace it: it may hold your own files; choose a new folder with --out, or empty the folder yourself",
+        .path.display()
+    )]
+    NotOurs {
+        /// The target folder.
+        path: PathBuf,
+    },
+    /// The target is a symlink to nothing.
+    #[error(
+        "'{}' is a symbolic link to something that does not exist; remove the link or choose another folder with --out",
+        .path.display()
+    )]
+    DanglingLink {
+        /// The target path.
+        path: PathBuf,
+    },
+    /// The target is, or holds, the current working folder.
+    #[error(
+        "the output folder '{}' holds the folder you are working in; choose a new folder below it with --out (e.g. --out results)",
+        .path.display()
+    )]
+    HoldsWorkingFolder {
+        /// The target folder.
+        path: PathBuf,
+    },
     /// A file name that is empty, has a path separator or is `.`/`..`.
     #[error(
         "'{name}' is not a plain file name (internal error: output files are named by the program)"
@@ -118,6 +155,18 @@ pub enum OutputError {
         #[source]
         source: io::Error,
     },
+    /// A writer refused its content (e.g. GeoJSON of a track across the
+    /// 180th meridian): not a disk problem.
+    #[error("{source}; no output folder was written (earlier results were left as they were)")]
+    Content {
+        /// The file name.
+        name: String,
+        /// The target folder.
+        path: PathBuf,
+        /// The writer's error (kind `InvalidData` or `InvalidInput`).
+        #[source]
+        source: io::Error,
+    },
     /// Moving the finished folder into place failed.
     #[error(
         "cannot move the finished results into '{}': {source}; earlier results were left as they were",
@@ -145,27 +194,52 @@ impl OutputError {
     }
 }
 
+/// The file chordline puts in every output folder it writes. `--force`
+/// replaces only a folder that holds it (or an empty one): a folder without it
+/// was not written by chordline and may hold the user's own files.
+pub const MARKER: &str = ".chordline-output";
+
+/// What the marker file says to a person who opens it.
+const MARKER_TEXT: &str = "This folder was written by chordline. `chordline run ... --force` may replace it whole;\nkeep your own files elsewhere.\n";
+
 /// An output folder being written. See the [module docs](self).
 #[derive(Debug)]
 pub struct OutputDir {
+    /// The folder as the user named it (for messages).
     target: PathBuf,
+    /// Where the folder really goes: `target`, or the folder a symlink at
+    /// `target` points to.
+    real: PathBuf,
     staging: PathBuf,
     force: bool,
     inputs: Vec<PathBuf>,
     files: Vec<String>,
+    /// Folders above the target that this run created (deepest last);
+    /// removed again if the run fails.
+    made_parents: Vec<PathBuf>,
+    notes: Vec<String>,
     committed: bool,
 }
 
 static COUNTER: AtomicU64 = AtomicU64::new(0);
 
-/// A hidden sibling of `target` whose name starts with `.name.kind-`.
-fn sibling(target: &Path, kind: &str) -> PathBuf {
-    let parent = parent_of(target);
+/// The name of `target` as a staging prefix: `.NAME.`.
+fn prefix_of(target: &Path) -> String {
     let name = target
         .file_name()
         .map_or_else(|| "out".into(), |n| n.to_string_lossy().into_owned());
+    format!(".{name}.")
+}
+
+/// A hidden sibling of `target` whose name starts with `.name.kind-`.
+fn sibling(target: &Path, kind: &str) -> PathBuf {
+    let parent = parent_of(target);
     let n = COUNTER.fetch_add(1, Ordering::Relaxed);
-    parent.join(format!(".{name}.{kind}-{}-{n}", std::process::id()))
+    parent.join(format!(
+        "{}{kind}-{}-{n}",
+        prefix_of(target),
+        std::process::id()
+    ))
 }
 
 fn parent_of(target: &Path) -> PathBuf {
@@ -175,17 +249,83 @@ fn parent_of(target: &Path) -> PathBuf {
     }
 }
 
+/// Create `dir` and any missing folders above it; return those created,
+/// outermost first.
+fn create_parents(dir: &Path) -> io::Result<Vec<PathBuf>> {
+    let mut missing = Vec::new();
+    let mut p = Some(dir);
+    while let Some(d) = p {
+        if d.as_os_str().is_empty() || fs::symlink_metadata(d).is_ok() {
+            break;
+        }
+        missing.push(d.to_path_buf());
+        p = d.parent();
+    }
+    missing.reverse();
+    let mut made = Vec::new();
+    for d in missing {
+        match fs::create_dir(&d) {
+            Ok(()) => made.push(d),
+            Err(e) if e.kind() == io::ErrorKind::AlreadyExists => {}
+            Err(e) => {
+                remove_made(&made);
+                return Err(e);
+            }
+        }
+    }
+    Ok(made)
+}
+
+/// Remove the folders in `made` (outermost first) if they are still empty.
+fn remove_made(made: &[PathBuf]) {
+    for d in made.iter().rev() {
+        let _ = fs::remove_dir(d);
+    }
+}
+
+/// An exclusive lock on the folder that holds the target, so that two runs
+/// writing the same target one after the other swap their folders whole.
+/// `None` where the platform cannot lock a folder (the renames stay safe for
+/// one run at a time).
+fn lock_parent(parent: &Path) -> Option<File> {
+    let f = File::open(parent).ok()?;
+    f.lock().ok()?;
+    Some(f)
+}
+
+/// Whether the process `pid` is still running: `Some(false)` only where
+/// that can be told (Linux's /proc), `None` elsewhere.
+fn process_alive(pid: u32) -> Option<bool> {
+    let proc = Path::new("/proc");
+    if !proc.join("self").exists() {
+        return None;
+    }
+    Some(proc.join(pid.to_string()).exists())
+}
+
+/// The process id in a staging name `.NAME.KIND-PID-N`.
+fn pid_in(name: &str, prefix: &str, kind: &str) -> Option<u32> {
+    let rest = name.strip_prefix(prefix)?.strip_prefix(kind)?;
+    let rest = rest.strip_prefix('-')?;
+    let (pid, n) = rest.split_once('-')?;
+    n.parse::<u64>().ok()?;
+    pid.parse().ok()
+}
+
 impl OutputDir {
     /// Start writing the output folder `target`.
     ///
-    /// Creates the folder above `target` if missing, and a hidden staging
-    /// folder beside `target`. Nothing at `target` changes until
-    /// [`commit`](Self::commit).
+    /// Creates the folders above `target` if missing (and removes them again
+    /// if the run fails), and a hidden staging folder beside `target`.
+    /// Nothing at `target` changes until [`commit`](Self::commit). Staging
+    /// folders that an earlier run killed outright left beside `target` are
+    /// removed, or named in [`notes`](Self::notes).
     ///
     /// # Errors
     /// [`OutputError::Exists`] if `target` exists and `force` is false,
-    /// [`OutputError::NotAFolder`] if it is a file, [`OutputError::Stage`] if
-    /// the staging folder cannot be made.
+    /// [`OutputError::NotAFolder`] if it is a file, [`OutputError::NotOurs`]
+    /// if it holds files but was not written by chordline,
+    /// [`OutputError::Stage`] if the staging folder cannot be made.
     pub fn create(target: &Path, force: bool) -> Result<Self, OutputError> {
         Self::create_for_inputs(target, force, &[])
     }
@@ -202,25 +342,45 @@ impl OutputDir {
         inputs: &[&Path],
     ) -> Result<Self, OutputError> {
         let inputs: Vec<PathBuf> = inputs.iter().map(|p| p.to_path_buf()).collect();
-        check_target(target, force, &inputs)?;
-        let parent = parent_of(target);
-        fs::create_dir_all(&parent).map_err(|source| OutputError::Stage {
+        let real = check_target(target, force, &inputs)?;
+        let parent = parent_of(&real);
+        let staging = sibling(&real, "chordline-partial");
+        let stage_err = |source| OutputError::Stage {
             path: target.to_path_buf(),
             source,
-        })?;
-        let staging = sibling(target, "chordline-partial");
-        fs::create_dir(&staging).map_err(|source| OutputError::Stage {
-            path: target.to_path_buf(),
-            source,
-        })?;
-        Ok(OutputDir {
+        };
+        // Twice: a failed run of a batch may remove a parent folder it made
+        // just as another run finds it there.
+        let mut made_parents = create_parents(&parent).map_err(stage_err)?;
+        if let Err(first) = fs::create_dir(&staging) {
+            remove_made(&made_parents);
+            if first.kind() != io::ErrorKind::NotFound {
+                return Err(stage_err(first));
+            }
+            made_parents = create_parents(&parent).map_err(stage_err)?;
+            if let Err(source) = fs::create_dir(&staging) {
+                remove_made(&made_parents);
+                return Err(stage_err(source));
+            }
+        }
+        let mut dir = OutputDir {
             target: target.to_path_buf(),
+            real,
             staging,
             force,
             inputs,
             files: Vec::new(),
+            made_parents,
+            notes: Vec::new(),
             committed: false,
-        })
+        };
+        let marker = dir.staging.join(MARKER);
+        fs::write(&marker, MARKER_TEXT).map_err(|source| OutputError::Stage {
+            path: dir.target.clone(),
+            source,
+        })?;
+        dir.clean_leftovers();
+        Ok(dir)
     }
 
     /// The folder the results will be in after the commit.
@@ -228,9 +388,83 @@ impl OutputDir {
         &self.target
     }
 
-    /// Names of the files written so far.
+    /// Names of the files written so far (not counting the [`MARKER`]).
     pub fn files(&self) -> &[String] {
         &self.files
+    }
+
+    /// What was found beside the target and tidied up (folders left by runs
+    /// that were killed outright), one sentence each, for the user.
+    pub fn notes(&self) -> &[String] {
+        &self.notes
+    }
+
+    /// Remove staging folders of runs that were killed outright (their
+    /// process is gone), restore earlier results a killed forced run had
+    /// moved aside, and name what cannot be told apart.
+    fn clean_leftovers(&mut self) {
+        let parent = parent_of(&self.real);
+        let _lock = lock_parent(&parent);
+        let prefix = prefix_of(&self.real);
+        let Ok(entries) = fs::read_dir(&parent) else {
+            return;
+        };
+        let mut names: Vec<String> = entries
+            .filter_map(|e| e.ok())
+            .map(|e| e.file_name().to_string_lossy().into_owned())
+            .filter(|n| n.starts_with(&prefix))
+            .collect();
+        names.sort();
+        let me = std::process::id();
+        for name in names {
+            let path = parent.join(&name);
+            let (kind, pid) = match (
+                pid_in(&name, &prefix, "chordline-partial"),
+                pid_in(&name, &prefix, "chordline-old"),
+            ) {
+                (Some(p), _) => ("partial", p),
+                (_, Some(p)) => ("old", p),
+                _ => continue,
+            };
+            if pid == me {
+                continue;
+            }
+            match process_alive(pid) {
+                Some(false) => self.tidy(kind, &path),
+                Some(true) => {}
+                None => self.notes.push(format!(
+                    "'{}' was left by an earlier run of chordline that may have been stopped; if no other run is writing '{}', delete it",
+                    path.display(),
+                    self.target.display()
+                )),
+            }
+        }
+    }
+
+    /// Tidy one leftover of a dead process.
+    fn tidy(&mut self, kind: &str, path: &Path) {
+        if kind == "old" && fs::symlink_metadata(&self.real).is_err() {
+            // Killed between its two renames: the earlier results were moved
+            // aside and nothing took their place. Put them back.
+            if fs::rename(path, &self.real).is_ok() {
+                self.notes.push(format!(
+                    "an earlier run was stopped while replacing '{}'; the results it had moved aside were put back",
+                    self.target.display()
+                ));
+            }
+            return;
+        }
+        if fs::remove_dir_all(path).is_ok() {
+            let what = if kind == "old" {
+                "superseded results"
+            } else {
+                "a half-written folder"
+            };
+            self.notes.push(format!(
+                "removed '{}', {what} left by an earlier run that was stopped",
+                path.display()
+            ));
+        }
     }
 
     /// Write one output file `name` (a plain file name) through `f`, which
@@ -250,6 +484,7 @@ impl OutputDir {
         let plain = !name.is_empty()
             && name != "."
             && name != ".."
+            && name != MARKER
             && !name.contains(['/', '\\'])
             && Path::new(name).file_name().is_some_and(|n| n == name);
         if !plain {
@@ -262,10 +497,23 @@ impl OutputDir {
                 name: name.to_string(),
             });
         }
-        let werr = |source| OutputError::Write {
-            name: name.to_string(),
-            path: self.target.clone(),
-            source,
+        let werr = |source: io::Error| {
+            if matches!(
+                source.kind(),
+                io::ErrorKind::InvalidData | io::ErrorKind::InvalidInput
+            ) {
+                OutputError::Content {
+                    name: name.to_string(),
+                    path: self.target.clone(),
+                    source,
+                }
+            } else {
+                OutputError::Write {
+                    name: name.to_string(),
+                    path: self.target.clone(),
+                    source,
+                }
+            }
         };
         let path = self.staging.join(name);
         let file = File::create(&path).map_err(werr)?;
@@ -282,14 +530,17 @@ impl OutputDir {
     /// Without `force` this fails if the target appeared meanwhile. With
     /// `force` an existing target is first moved aside, then the new folder
     /// is moved in, then the old one deleted; if the move in fails, the old
-    /// one is moved back.
+    /// one is moved back. Runs writing the same target commit one at a time
+    /// (a lock on the folder above it, where the platform has one).
     ///
     /// # Errors
     /// [`OutputError::Exists`], [`OutputError::IsInput`],
-    /// [`OutputError::ContainsInput`] (checked again), or
-    /// [`OutputError::Commit`] if a rename fails. In every case the earlier
-    /// folder, if any, is left in place.
+    /// [`OutputError::ContainsInput`], [`OutputError::NotOurs`] (checked
+    /// again), or [`OutputError::Commit`] if a rename fails. In every case the
+    /// earlier folder, if any, is left in place.
     pub fn commit(mut self) -> Result<PathBuf, OutputError> {
+        let parent = parent_of(&self.real);
+        let _lock = lock_parent(&parent);
         check_target(&self.target, self.force, &self.inputs)?;
         let cerr = |source| OutputError::Commit {
             path: self.target.clone(),
@@ -299,16 +550,16 @@ impl OutputDir {
         if let Ok(d) = File::open(&self.staging) {
             let _ = d.sync_all();
         }
-        let old = if self.target.exists() {
-            let old = sibling(&self.target, "chordline-old");
-            fs::rename(&self.target, &old).map_err(cerr)?;
+        let old = if fs::symlink_metadata(&self.real).is_ok() {
+            let old = sibling(&self.real, "chordline-old");
+            fs::rename(&self.real, &old).map_err(cerr)?;
             Some(old)
         } else {
             None
         };
-        if let Err(e) = fs::rename(&self.staging, &self.target) {
+        if let Err(e) = fs::rename(&self.staging, &self.real) {
             if let Some(old) = &old {
-                let _ = fs::rename(old, &self.target);
+                let _ = fs::rename(old, &self.real);
             }
             return Err(cerr(e));
         }
@@ -318,7 +569,7 @@ impl OutputDir {
             // loses nothing, so it is not an error.
             let _ = fs::remove_dir_all(old);
         }
-        if let Ok(d) = File::open(parent_of(&self.target)) {
+        if let Ok(d) = File::open(&parent) {
             let _ = d.sync_all();
         }
         Ok(self.target.clone())
@@ -329,13 +580,16 @@ impl Drop for OutputDir {
     fn drop(&mut self) {
         if !self.committed {
             let _ = fs::remove_dir_all(&self.staging);
+            remove_made(&self.made_parents);
         }
     }
 }
 
 /// Refuse a target that exists (without force), is a file, is an input or
-/// holds one.
-fn check_target(target: &Path, force: bool, inputs: &[PathBuf]) -> Result<(), OutputError> {
+/// holds one, holds the working folder, or holds files chordline did not
+/// write. Returns where the folder really goes (through a symlink at
+/// `target`, the folder it points to).
+fn check_target(target: &Path, force: bool, inputs: &[PathBuf]) -> Result<PathBuf, OutputError> {
     let canon_target = fs::canonicalize(target).ok();
     for input in inputs {
         let same_text = input == target;
@@ -357,19 +611,44 @@ fn check_target(target: &Path, force: bool, inputs: &[PathBuf]) -> Result<(), Ou
             });
         }
     }
-    match fs::symlink_metadata(target) {
-        Ok(m) if !(m.is_dir() || m.file_type().is_symlink() && target.is_dir()) => {
-            Err(OutputError::NotAFolder {
-                path: target.to_path_buf(),
-            })
-        }
-        // An existing but empty folder holds nothing to lose (scripts often
-        // make the folder first): it is used without --force.
-        Ok(_) if !force && !is_empty_dir(target) => Err(OutputError::Exists {
+    let meta = match fs::symlink_metadata(target) {
+        Err(_) => return Ok(target.to_path_buf()),
+        Ok(m) => m,
+    };
+    if meta.file_type().is_symlink() && canon_target.is_none() {
+        return Err(OutputError::DanglingLink {
             path: target.to_path_buf(),
-        }),
-        _ => Ok(()),
+        });
     }
+    if !target.is_dir() {
+        return Err(OutputError::NotAFolder {
+            path: target.to_path_buf(),
+        });
+    }
+    let real = canon_target.unwrap_or_else(|| target.to_path_buf());
+    if let Ok(cwd) = std::env::current_dir().and_then(fs::canonicalize)
+        && cwd.starts_with(&real)
+    {
+        return Err(OutputError::HoldsWorkingFolder {
+            path: target.to_path_buf(),
+        });
+    }
+    // An existing but empty folder holds nothing to lose (scripts often
+    // make the folder first): it is used without --force.
+    if is_empty_dir(&real) {
+        return Ok(real);
+    }
+    if !force {
+        return Err(OutputError::Exists {
+            path: target.to_path_buf(),
+        });
+    }
+    if fs::symlink_metadata(real.join(MARKER)).is_err() {
+        return Err(OutputError::NotOurs {
+            path: target.to_path_buf(),
+        });
+    }
+    Ok(real)
 }
 
 /// Whether `p` is a folder with nothing in it.
@@ -378,201 +657,4 @@ fn is_empty_dir(p: &Path) -> bool {
 }
 
 #[cfg(test)]
-mod tests {
-    use super::*;
-
-    fn write(out: &mut OutputDir, name: &str, text: &str) {
-        let t = text.to_string();
-        out.write_file(name, move |w| w.write_all(t.as_bytes()))
-            .unwrap();
-    }
-
-    fn listing(dir: &Path) -> Vec<(String, Vec<u8>)> {
-        let mut v: Vec<_> = fs::read_dir(dir)
-            .unwrap()
-            .map(|e| {
-                let e = e.unwrap();
-                (
-                    e.file_name().to_string_lossy().into_owned(),
-                    fs::read(e.path()).unwrap(),
-                )
-            })
-            .collect();
-        v.sort();
-        v
-    }
-
-    fn no_leftovers(parent: &Path) {
-        let names: Vec<_> = fs::read_dir(parent)
-            .unwrap()
-            .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
-            .filter(|n| n.contains(".chordline-"))
-            .collect();
-        assert!(names.is_empty(), "left behind: {names:?}");
-    }
-
-    #[test]
-    fn an_empty_existing_folder_is_used_without_force() {
-        let tmp = tempfile::tempdir().unwrap();
-        let target = tmp.path().join("out");
-        fs::create_dir(&target).unwrap();
-        let mut out = OutputDir::create(&target, false).unwrap();
-        write(&mut out, "stations.csv", "x\n");
-        out.commit().unwrap();
-        assert_eq!(
-            listing(&target),
-            [("stations.csv".to_string(), b"x\n".to_vec())]
-        );
-        // Now it holds results: refused without force.
-        assert!(matches!(
-            OutputDir::create(&target, false),
-            Err(OutputError::Exists { .. })
-        ));
-        no_leftovers(tmp.path());
-    }
-
-    #[test]
-    fn commit_creates_the_files() {
-        let tmp = tempfile::tempdir().unwrap();
-        let target = tmp.path().join("a/b/out");
-        let mut out = OutputDir::create(&target, false).unwrap();
-        write(&mut out, "stations.csv", "x\n1\n");
-        write(&mut out, "elements.csv", "e\n");
-        assert!(!target.exists());
-        assert_eq!(out.files(), ["stations.csv", "elements.csv"]);
-        assert_eq!(out.commit().unwrap(), target);
-        assert_eq!(
-            listing(&target),
-            [
-                ("elements.csv".to_string(), b"e\n".to_vec()),
-                ("stations.csv".to_string(), b"x\n1\n".to_vec())
-            ]
-        );
-        no_leftovers(target.parent().unwrap());
-    }
-
-    #[test]
-    fn failure_mid_run_leaves_earlier_results_byte_identical() {
-        let tmp = tempfile::tempdir().unwrap();
-        let target = tmp.path().join("out");
-        let mut first = OutputDir::create(&target, false).unwrap();
-        write(&mut first, "stations.csv", "old results\n");
-        first.commit().unwrap();
-        let before = listing(&target);
-
-        // A forced rerun that fails while writing its second file.
-        let mut again = OutputDir::create(&target, true).unwrap();
-        write(&mut again, "stations.csv", "new, half done\n");
-        let e = again
-            .write_file("elements.csv", |w| {
-                w.write_all(b"partial")?;
-                Err(io::Error::other("disk full"))
-            })
-            .unwrap_err();
-        assert!(
-            e.to_string()
-                .starts_with("cannot write 'elements.csv' for the output folder"),
-            "{e}"
-        );
-        drop(again);
-        assert_eq!(listing(&target), before);
-        no_leftovers(tmp.path());
-
-        // A panic inside a writer unwinds through Drop just the same.
-        let t2 = target.clone();
-        let r = std::panic::catch_unwind(move || {
-            let mut o = OutputDir::create(&t2, true).unwrap();
-            let _ = o.write_file("stations.csv", |_| panic!("bug in a writer"));
-        });
-        assert!(r.is_err());
-        assert_eq!(listing(&target), before);
-        no_leftovers(tmp.path());
-    }
-
-    #[test]
-    fn existing_folder_needs_force() {
-        let tmp = tempfile::tempdir().unwrap();
-        let target = tmp.path().join("out");
-        fs::create_dir(&target).unwrap();
-        fs::write(target.join("keep.txt"), "mine").unwrap();
-        let e = OutputDir::create(&target, false).unwrap_err();
-        assert_eq!(
-            e.to_string(),
-            format!(
-                "output folder '{}' already exists; pass --force to replace it, or choose another folder with --out",
-                target.display()
-            )
-        );
-        assert_eq!(fs::read(target.join("keep.txt")).unwrap(), b"mine");
-        no_leftovers(tmp.path());
-    }
-
-    #[test]
-    fn force_replaces_the_folder() {
-        let tmp = tempfile::tempdir().unwrap();
-        let target = tmp.path().join("out");
-        fs::create_dir(&target).unwrap();
-        fs::write(target.join("stale.txt"), "old").unwrap();
-        let mut out = OutputDir::create(&target, true).unwrap();
-        write(&mut out, "stations.csv", "new\n");
-        out.commit().unwrap();
-        assert_eq!(
-            listing(&target),
-            [("stations.csv".to_string(), b"new\n".to_vec())]
-        );
-        no_leftovers(tmp.path());
-    }
-
-    #[test]
-    fn target_appearing_during_the_run_is_not_overwritten() {
-        let tmp = tempfile::tempdir().unwrap();
-        let target = tmp.path().join("out");
-        let mut out = OutputDir::create(&target, false).unwrap();
-        write(&mut out, "stations.csv", "new\n");
-        fs::create_dir(&target).unwrap();
-        fs::write(target.join("theirs.txt"), "t").unwrap();
-        assert!(matches!(out.commit(), Err(OutputError::Exists { .. })));
-        assert_eq!(
-            listing(&target),
-            [("theirs.txt".to_string(), b"t".to_vec())]
-        );
-        no_leftovers(tmp.path());
-    }
-
-    #[test]
-    fn input_file_is_never_the_output() {
-        let tmp = tempfile::tempdir().unwrap();
-        let input = tmp.path().join("survey.csv");
-        fs::write(&input, "chainage_m,versine_mm\n").unwrap();
-        let e = OutputDir::create_for_inputs(&input, true, &[&input]).unwrap_err();
-        assert!(matches!(e, OutputError::IsInput { .. }), "{e}");
-        assert!(e.to_string().contains("is the input file itself"), "{e}");
-        // A folder holding the input is not replaced, even with force.
-        let e = OutputDir::create_for_inputs(tmp.path(), true, &[&input]).unwrap_err();
-        assert!(matches!(e, OutputError::ContainsInput { .. }), "{e}");
-        // Without inputs named, a file at the target is still refused.
-        let e = OutputDir::create(&input, true).unwrap_err();
-        assert!(matches!(e, OutputError::NotAFolder { .. }), "{e}");
-        assert_eq!(fs::read(&input).unwrap(), b"chainage_m,versine_mm\n");
-    }
-
-    #[test]
-    fn names_must_be_plain() {
-        let tmp = tempfile::tempdir().unwrap();
-        let mut out = OutputDir::create(&tmp.path().join("out"), false).unwrap();
-        for bad in ["", ".", "..", "a/b", "../x", "a\\b"] {
-            assert!(
-                matches!(
-                    out.write_file(bad, |_| Ok(())),
-                    Err(OutputError::BadName { .. })
-                ),
-                "{bad:?}"
-            );
-        }
-        out.write_file("a.csv", |_| Ok(())).unwrap();
-        let e = out.write_file("a.csv", |_| Ok(())).unwrap_err();
-        assert!(matches!(e, OutputError::Duplicate { .. }) && e.is_internal());
-        let e = OutputDir::create(tmp.path(), false).unwrap_err();
-        assert!(!e.is_internal());
-    }
-}
+mod tests;

@@ -36,6 +36,8 @@ use crate::survey::Survey;
 use super::crs::Crs;
 use super::place::{LonLat, PlaceError, Placement};
 
+mod distinct;
+
 /// Default standard deviation of a control coordinate when the file has no
 /// `sd` column, metres (a good GNSS RTK fix; common practice).
 pub const DEFAULT_SD: f64 = 0.02;
@@ -269,6 +271,12 @@ pub fn read_controls(
         line: header_line,
         message: m,
     };
+    if headers.len() == 1 && headers[0].contains(';') {
+        return Err(header_err(format!(
+            "the header '{}' is one field: this file separates its fields with semicolons, and a control-point file is comma-separated; save it with commas between fields and decimal points (e.g. chainage_m,lon_deg,lat_deg)",
+            crate::diag::quote_capped(&headers[0])
+        )));
+    }
     let (ch_col, ch_name) = find(&headers, &["chainage_m", "chainage_ft"]).ok_or_else(|| {
         header_err(format!(
             "no chainage column: the header needs chainage_m (or chainage_ft); it has: {}",
@@ -427,6 +435,7 @@ pub fn read_controls(
     if points.is_empty() {
         return Err(ControlError::Empty { file: fname });
     }
+    distinct::check_distinct(&fname, &points)?;
     points.sort_by(|a, b| a.chainage.total_cmp(&b.chainage));
     for w in points.windows(2) {
         if w[1].chainage == w[0].chainage {

@@ -352,7 +352,27 @@ pub fn integrate(
 
     // Reading standard deviation.
     let vals: Vec<f64> = rd.iter().filter_map(|r| r.versine).collect();
-    let resolution = detect_resolution(&vals, survey.versine_unit);
+    let all_zero = !vals.is_empty() && vals.iter().all(|v| *v == 0.0);
+    let resolution = if all_zero {
+        // Nothing shows the rounding, and nothing can be estimated: take the
+        // coarsest usual reading step of the unit (1 mm, 1/8 in, 0.01 ft),
+        // so that the sd is not that of exact readings.
+        let step = match survey.versine_unit {
+            crate::units::VersineUnit::Inch => 0.125 * crate::units::INCH,
+            crate::units::VersineUnit::Foot => 0.01 * crate::units::FOOT,
+            _ => 1e-3,
+        };
+        diags.push(
+            Diagnostic::warning(format!(
+                "every versine is zero, so neither the rounding of the readings nor their noise shows; the reading standard deviation is taken as a reading step of {:.3} mm over √12",
+                step * 1e3
+            ))
+            .hint("state the reading standard deviation with --reading-sd (e.g. 1mm for a hand survey)"),
+        );
+        Some(step)
+    } else {
+        detect_resolution(&vals, survey.versine_unit)
+    };
     let floor = resolution.map_or(0.0, |q| q / 12f64.sqrt());
     let est = estimate_noise(&vcs);
     let (mut sigma, source) = match (setup.reading_sd, est) {

@@ -5,15 +5,15 @@
 
 use super::strip::Strip;
 use super::svg::{
-    BLACK, BLUE, Band, Chart, Dash, GREY, Mark, MarkSet, Marker, PURPLE, RefLine, Series, Style,
+    BLACK, BLUE, Band, Chart, GREY, Mark, MarkSet, Marker, PURPLE, Pattern, RefLine, Series, Style,
     VERMILLION, VMarks,
 };
 use crate::results::Results;
 use std::cell::Cell;
 
-const MEASURED: Style = Style::new(BLUE, Dash::Solid, 1.3);
-const DESIGN: Style = Style::new(VERMILLION, Dash::Dashed, 2.0);
-const LIMIT: Style = Style::new(BLACK, Dash::Chain, 1.2);
+const MEASURED: Style = Style::new(BLUE, Pattern::Solid, 1.3);
+const DESIGN: Style = Style::new(VERMILLION, Pattern::Dashed, 2.0);
+const LIMIT: Style = Style::new(BLACK, Pattern::DotDash, 1.2);
 
 /// A chainage range shown, chart units; `None`: the whole survey.
 pub(super) type Range = Option<(f64, f64)>;
@@ -151,7 +151,7 @@ impl<'a> Diagrams<'a> {
                     })
                     .collect(),
                 style: if overview {
-                    Style::new(VERMILLION, Dash::Solid, 1.3)
+                    Style::new(VERMILLION, Pattern::Solid, 1.3)
                 } else {
                     DESIGN
                 },
@@ -182,7 +182,7 @@ impl<'a> Diagrams<'a> {
                     )
                 })
                 .collect(),
-            style: Style::new(BLUE, Dash::Solid, 1.0),
+            style: Style::new(BLUE, Pattern::Solid, 1.0),
         });
         let band = self.v(2.0 * self.r.plan.reading_sd);
         for y in [band, -band] {
@@ -237,14 +237,14 @@ impl<'a> Diagrams<'a> {
                 .zip(&sl.slew)
                 .map(|(&ch, &s)| (self.ch(ch), self.v(s)))
                 .collect(),
-            style: Style::new(BLUE, Dash::Solid, 1.8),
+            style: Style::new(BLUE, Pattern::Solid, 1.8),
         });
         if let Some(l) = limit {
             for y in [l, -l] {
                 c.ref_lines.push(RefLine {
                     name: format!("slew limit ± {l:.0} {vs}"),
                     y,
-                    style: Style::new(VERMILLION, Dash::Chain, 1.6),
+                    style: Style::new(VERMILLION, Pattern::DotDash, 1.6),
                 });
             }
             // The stretches beyond the limit, drawn as a thick line under the slew.
@@ -268,7 +268,7 @@ impl<'a> Diagrams<'a> {
                     Series {
                         name: format!("beyond the limit ({} readings)", over.len()),
                         points,
-                        style: Style::new(VERMILLION, Dash::Solid, 5.0),
+                        style: Style::new(VERMILLION, Pattern::Solid, 5.0),
                     },
                 );
             }

@@ -38,7 +38,7 @@ code{font-family:monospace;font-size:.92em}code.cmd{white-space:pre-wrap;overflo
 .comments{font-family:monospace;font-size:.9em;white-space:pre-wrap;overflow-wrap:anywhere}\
 .wide{overflow-x:auto}\
 ul.stats{padding-left:1.2em;margin:.4em 0}p.note,figcaption{font-size:.9em;color:#333}\
-figure{margin:1em 0 1.8em;break-inside:avoid;page-break-inside:avoid}\
+figure,.keep{margin:1em 0 1.8em;break-inside:avoid;page-break-inside:avoid}\
 svg.chart{display:block;width:100%;height:auto}\
 ul.diag li{margin:.2em 0}ul.diag li.warn b{background:#1b1b1b;color:#fff;padding:0 .3em}\
 footer{margin-top:3em;font-size:.85em;color:#444}\
@@ -68,8 +68,12 @@ fn along_track(h: &mut String, d: &Diagrams<'_>, range: Range) {
         h.push_str(&figure(&s, None));
     }
     if let Some((s, cap)) = d.slews(range) {
-        h.push_str(SLEW_CAUTION);
-        h.push_str(&figure(&s, Some(&cap)));
+        // The caution stays on the page of its diagram.
+        let _ = writeln!(
+            h,
+            "<div class=\"keep\">{SLEW_CAUTION}{}</div>",
+            figure(&s, Some(&cap))
+        );
     }
 }
 

@@ -12,7 +12,6 @@ mod tables;
 
 pub use advice_text::advice_text;
 pub use html::html_report;
-pub use strip::{Block, Joint, Strip};
 
 use crate::diag::Severity;
 use crate::geometry::heading_to_bearing;

@@ -160,6 +160,14 @@ impl Strip {
         n as f64 * 6.0 > pw
     }
 
+    /// Whether a survey end lies in `x0..x1` (`None`: anywhere).
+    pub fn has_cut_in(&self, range: Option<(f64, f64)>) -> bool {
+        let inside = |x: f64| range.is_none_or(|(a, b)| x >= a && x <= b);
+        self.blocks
+            .iter()
+            .any(|b| (b.cut_start && inside(b.x0)) || (b.cut_end && inside(b.x1)))
+    }
+
     /// Whether any element is an arc.
     pub fn has_arcs(&self) -> bool {
         self.blocks.iter().any(|b| b.kind == ElementKind::Arc)
@@ -298,10 +306,15 @@ impl Strip {
 
 /// A zigzag edge: the element continues beyond the survey.
 fn ragged(o: &mut String, x: f64, top: f64) {
+    ragged_edge(o, x, top, BLOCK_H);
+}
+
+/// A zigzag edge `height` high from (`x`, `top`) (also the legend's swatch).
+pub(super) fn ragged_edge(o: &mut String, x: f64, top: f64, height: f64) {
     let mut d = format!("M{x:.1},{top:.1}");
     for k in 1..=6 {
         let dx = if k % 2 == 1 { 3.0 } else { -3.0 };
-        let _ = write!(d, " L{:.1},{:.1}", x + dx, top + BLOCK_H * k as f64 / 6.0);
+        let _ = write!(d, " L{:.1},{:.1}", x + dx, top + height * k as f64 / 6.0);
     }
     let _ = write!(
         o,

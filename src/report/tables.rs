@@ -40,19 +40,25 @@ pub(super) fn about(r: &Results, rec: &RunRecord) -> String {
         );
     }
     let s = &r.setup;
+    // Gauge and noise in the survey's small unit (mm, or inches for a survey in feet).
+    let vu = u.versine_unit();
+    let small = |m: f64, mm_decimals: usize, in_decimals: usize| match u {
+        LengthUnit::Foot => format!("{:.*} {}", in_decimals, vu.from_m(m), vu.suffix()),
+        LengthUnit::Metre => format!("{:.*} mm", mm_decimals, m * 1e3),
+    };
     row(
         "set-up",
         format!(
-            "chord {} {lu}; {} rail (facing increasing chainage); {}; gauge {:.0} mm; reading sd {}",
+            "chord {} {lu}; {} rail (facing increasing chainage); {}; gauge {}; reading sd {}",
             fmt_num(u.from_m(s.chord)),
             r.setup.rail.name(),
             match s.marking {
                 Marking::Taped => "marks taped along the rail",
                 Marking::Wire => "rigid wire or beam of the chord length",
             },
-            s.gauge * 1e3,
+            small(s.gauge, 0, 2),
             match s.reading_sd {
-                Some(sd) => format!("{:.2} mm (stated)", sd * 1e3),
+                Some(sd) => format!("{} (stated)", small(sd, 2, 3)),
                 None => "estimated from the readings".into(),
             }
         ),
@@ -61,7 +67,7 @@ pub(super) fn about(r: &Results, rec: &RunRecord) -> String {
         row(
             "command",
             format!(
-                "<code class=\"cmd\">{}</code><br><small>options that do not change the results (output folder, threads, --force, --quiet, --summary) are left out</small>",
+                "<code class=\"cmd\">{}</code><br><small>options that do not change the results (output folder, threads, jobs, --force, --quiet, --summary) are left out</small>",
                 esc(&shell_words(&rec.command_line))
             ),
         );

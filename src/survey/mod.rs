@@ -83,6 +83,8 @@ pub struct Reading {
     /// Free text from the `note` column, if any.
     pub note: Option<String>,
     /// 1-based line in the source file (0 when the survey was not read from a file).
+    /// A missing station the reader put into a gap of the chainages (lines
+    /// deleted from the file) carries the line of the reading after the gap.
     pub line: usize,
 }
 

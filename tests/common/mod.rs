@@ -45,6 +45,11 @@ pub fn stderr(o: &Output) -> String {
     String::from_utf8_lossy(&o.stderr).into_owned()
 }
 
+/// What the run wrote to stdout (the results: summary, where it wrote).
+pub fn stdout(o: &Output) -> String {
+    String::from_utf8_lossy(&o.stdout).into_owned()
+}
+
 /// Run the team's output-contract checker (`../shared/tools/check-outputs`,
 /// Python standard library) on `dir` and assert that it passes. Returns
 /// `false`, after saying why, where the checker is absent (a user's clone has

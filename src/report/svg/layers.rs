@@ -9,26 +9,8 @@
 pub const BLUE: &str = "#0072B2";
 /// Okabe–Ito vermillion.
 pub const VERMILLION: &str = "#D55E00";
-/// Okabe–Ito bluish green.
-#[allow(
-    dead_code,
-    reason = "the palette is kept whole; not every colour is drawn yet"
-)]
-pub const GREEN: &str = "#009E73";
 /// Okabe–Ito reddish purple.
 pub const PURPLE: &str = "#CC79A7";
-/// Okabe–Ito orange.
-#[allow(
-    dead_code,
-    reason = "the palette is kept whole; not every colour is drawn yet"
-)]
-pub const ORANGE: &str = "#E69F00";
-/// Okabe–Ito sky blue.
-#[allow(
-    dead_code,
-    reason = "the palette is kept whole; not every colour is drawn yet"
-)]
-pub const SKY: &str = "#56B4E9";
 /// Black (Okabe–Ito's eighth colour).
 pub const BLACK: &str = "#000000";
 /// A mid grey for bands and intervals.
@@ -36,28 +18,21 @@ pub const GREY: &str = "#777777";
 
 /// How a line is stroked.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Dash {
+pub enum Pattern {
     /// Continuous.
     Solid,
     /// Long dashes.
     Dashed,
-    /// Dots.
-    #[allow(
-        dead_code,
-        reason = "kept with the other strokes; no layer uses dots yet"
-    )]
-    Dotted,
-    /// Dash and dot (a chain line, in drafting terms).
-    Chain,
+    /// Dot and dash.
+    DotDash,
 }
 
-impl Dash {
+impl Pattern {
     pub(super) fn attr(self) -> &'static str {
         match self {
-            Dash::Solid => "",
-            Dash::Dashed => r#" stroke-dasharray="8 4""#,
-            Dash::Dotted => r#" stroke-dasharray="1.5 3" stroke-linecap="round""#,
-            Dash::Chain => r#" stroke-dasharray="10 3 2 3""#,
+            Pattern::Solid => "",
+            Pattern::Dashed => r#" stroke-dasharray="8 4""#,
+            Pattern::DotDash => r#" stroke-dasharray="10 3 2 3""#,
         }
     }
 }
@@ -68,14 +43,14 @@ pub struct Style {
     /// CSS colour.
     pub colour: &'static str,
     /// Stroke pattern.
-    pub dash: Dash,
+    pub dash: Pattern,
     /// Stroke width, user units.
     pub width: f64,
 }
 
 impl Style {
     /// A style.
-    pub const fn new(colour: &'static str, dash: Dash, width: f64) -> Self {
+    pub const fn new(colour: &'static str, dash: Pattern, width: f64) -> Self {
         Style {
             colour,
             dash,

@@ -1,6 +1,6 @@
 //! SVG line charts for the HTML report: round-numbered axes, lines, shaded
 //! bands, reference lines, point marks, vertical marks, and an element strip
-//! (see [`super::strip`]) with the joints drawn through the plot. The legend
+//! (see [`super::Strip`]) with the joints drawn through the plot. The legend
 //! sits above the plot, never on the data.
 //!
 //! Hand-written rather than taken from a plotting crate (plotters, say):
@@ -209,6 +209,7 @@ enum Swatch {
     Hatch,
     Shade,
     Joint,
+    Ragged,
 }
 
 struct Extent {
@@ -332,6 +333,9 @@ impl Chart<'_> {
             }
             if !s.joints.is_empty() && !dense {
                 v.push(("joint, 95 % interval".into(), Swatch::Joint));
+            }
+            if s.has_cut_in(self.x_range) {
+                v.push(("element cut by the survey end".into(), Swatch::Ragged));
             }
         }
         v
@@ -462,6 +466,9 @@ impl Chart<'_> {
                         r##"<rect x="{x:.1}" y="{:.1}" width="26" height="10" fill="#000" fill-opacity="0.09" stroke="#999" stroke-width="0.5"/>"##,
                         y - 5.0
                     );
+                }
+                Swatch::Ragged => {
+                    super::strip::ragged_edge(o, x + 10.0, y - 7.0, 14.0);
                 }
                 Swatch::Joint => {
                     let _ = write!(
@@ -756,7 +763,7 @@ mod tests {
             series: vec![Series {
                 name: "s".into(),
                 points: vec![(0.0, 1.0), (f64::NAN, 2.0), (2.0, 3.0)],
-                style: Style::new(BLUE, Dash::Solid, 1.0),
+                style: Style::new(BLUE, Pattern::Solid, 1.0),
             }],
             ..Default::default()
         };
@@ -775,7 +782,7 @@ mod tests {
                 .map(|i| Series {
                     name: format!("a rather long legend entry {i}"),
                     points: vec![(0.0, 0.0), (1.0, 1.0)],
-                    style: Style::new(BLUE, Dash::Solid, 1.0),
+                    style: Style::new(BLUE, Pattern::Solid, 1.0),
                 })
                 .collect(),
             ..Default::default()

@@ -36,14 +36,28 @@ const OUTLIER_SIGMAS: f64 = 6.0;
 /// Floor of the robust sigma of second differences, metres, so that exact
 /// (noise-free) surveys do not flag rounding as outliers.
 const SIGMA_FLOOR: f64 = 1e-4;
+/// Closest spacing read (metres): recording vehicles read every 0.25 m or
+/// so; 0.1 m leaves room (common practice, from memory). Closer readings are
+/// usually kilometres in a metre column.
+const MIN_SPACING: f64 = 0.1;
+/// Hand surveys with taped marks read every half chord, or two or four times
+/// as often; more than this many steps per half chord suggests a wrong
+/// `--chord` (common practice).
+const MAX_TAPED_STEPS: f64 = 4.0;
+/// Longest gap bridged, in chords (1 km on a 20 m chord): beyond it the
+/// bridged geometry would be a guess, and one fitted element would span it.
+const MAX_GAP_CHORDS: f64 = 50.0;
 /// At most this many warnings of one kind are listed line by line.
-const MAX_LISTED: usize = 20;
+pub(crate) const MAX_LISTED: usize = 20;
 
 pub(crate) struct Context<'a> {
     pub file: &'a str,
     pub cols: &'a Columns,
     pub chord: f64,
     pub marking: Marking,
+    /// Every chainage is written like `1.010` in a file with decimal commas
+    /// (the '.' may separate thousands).
+    pub thousands_like: bool,
 }
 
 impl Context<'_> {
@@ -68,6 +82,15 @@ impl Context<'_> {
         fmt_num(self.cols.chainage_unit.from_m(metres))
     }
     /// The chord in metres, and in feet too for an imperial file.
+    /// For feet surveys, the half chord in feet (", that is 32.808 ft,"),
+    /// so that a metric chord is not misread; empty for metres.
+    fn half_note(&self) -> String {
+        match self.cols.chainage_unit {
+            crate::units::LengthUnit::Metre => String::new(),
+            crate::units::LengthUnit::Foot => format!(", that is {},", self.len(0.5 * self.chord)),
+        }
+    }
+
     fn chord_text(&self) -> String {
         let m = format!("{} m", fmt_num((self.chord * 1e4).round() / 1e4));
         match self.cols.chainage_unit {
@@ -88,12 +111,13 @@ fn median(v: &mut [f64]) -> f64 {
 
 /// Check the spacing of the chainages against the chord. Returns, for each
 /// reading, whether the step from the previous one is one regular spacing
-/// (within the pattern tolerance); `false` for the first reading.
+/// (within the pattern tolerance; `false` for the first reading), and the
+/// regular spacing, metres.
 pub(crate) fn spacing(
     ctx: &Context<'_>,
     r: &[Reading],
     diags: &mut Vec<Diagnostic>,
-) -> Result<Vec<bool>, SurveyError> {
+) -> Result<(Vec<bool>, f64), SurveyError> {
     let mut steps: Vec<f64> = r
         .windows(2)
         .map(|w| w[1].chainage - w[0].chainage)
@@ -113,22 +137,69 @@ pub(crate) fn spacing(
         );
         SurveyError::file(ctx.file, SurveyErrorKind::SpacingMisfit { what, todo })
     };
+    if s_med < MIN_SPACING {
+        return Err(SurveyError::file(
+            ctx.file,
+            SurveyErrorKind::SpacingTooSmall {
+                what: format!(
+                    "the readings are {} apart, closer than any chord survey reads (every {} at the closest)",
+                    ctx.len(s_med),
+                    ctx.len(MIN_SPACING)
+                ),
+                todo: if ctx.thousands_like {
+                    format!(
+                        "the chainages are written like {:.3}, where '.' separates thousands in this file: write them without it ({})",
+                        ctx.cols.chainage_unit.from_m(r[1].chainage),
+                        fmt_num((ctx.cols.chainage_unit.from_m(r[1].chainage) * 1000.0).round())
+                    )
+                } else {
+                    format!(
+                        "if the chainages are kilometres (like {} for {} m), write them in {} in the column {}",
+                        fmt_num(ctx.cols.chainage_unit.from_m(r[1].chainage)),
+                        fmt_num((ctx.cols.chainage_unit.from_m(r[1].chainage) * 1000.0).round()),
+                        if ctx.cols.chainage_unit == crate::units::LengthUnit::Foot {
+                            "feet"
+                        } else {
+                            "metres"
+                        },
+                        ctx.cols.name(ctx.cols.chainage)
+                    )
+                },
+            },
+        ));
+    }
     if ratio < 1.0 - FIT_TOL {
         return Err(misfit(format!(
-            "the readings are {} apart, more than half the chord of {}",
+            "the readings are {} apart, more than half the chord of {}{}",
             ctx.len(s_med),
-            ctx.chord_text()
+            ctx.chord_text(),
+            ctx.half_note()
         )));
     }
     if (s_med - s_nom).abs() > FIT_TOL * s_nom {
         return Err(misfit(format!(
-            "the readings are {} apart, and half the chord of {} is not a whole number of such spacings ({} of them)",
+            "the readings are {} apart, and half the chord of {}{} is not a whole number of such spacings ({} of them)",
             ctx.len(s_med),
             ctx.chord_text(),
+            ctx.half_note(),
             fmt_num((ratio * 100.0).round() / 100.0)
         )));
     }
 
+    if ctx.marking == Marking::Taped && m > MAX_TAPED_STEPS {
+        diags.push(
+            Diagnostic::warning(format!(
+                "the readings are {} apart, {} to the half chord of {}: a hand survey with taped marks reads every half chord or a few times more often",
+                ctx.len(s_nom),
+                fmt_num(m),
+                ctx.chord_text()
+            ))
+            .hint(format!(
+                "check --chord (a chord of {} reads every half chord at this spacing); for a trolley or vehicle give --marking wire",
+                ctx.len(2.0 * s_nom)
+            )),
+        );
+    }
     let mut regular = vec![false; r.len()];
     let mut irregular = 0usize;
     let mut worst: Option<(f64, usize, f64)> = None; // (deviation, index, step)
@@ -146,6 +217,24 @@ pub(crate) fn spacing(
                 regular[i] = true;
                 sum_regular += d;
                 n_regular += 1;
+            } else if d > MAX_GAP_CHORDS * ctx.chord {
+                return Err(SurveyError::cell(
+                    ctx.file,
+                    r[i].line,
+                    ctx.cols.name(ctx.cols.chainage),
+                    ctx.cols.chainage + 1,
+                    SurveyErrorKind::GapTooLong {
+                        what: format!(
+                            "chainage jumps from {} (line {}) to {}, a gap of {} with no readings, more than {} chords",
+                            ctx.ch(r[i - 1].chainage),
+                            r[i - 1].line,
+                            ctx.ch(r[i].chainage),
+                            ctx.len(d),
+                            fmt_num(MAX_GAP_CHORDS)
+                        ),
+                        todo: "nothing measured bridges a gap that long: if it is a typing error, correct the chainage; otherwise split the file there and run each part".into(),
+                    },
+                ));
             } else {
                 gaps += 1;
                 if gaps <= MAX_LISTED {
@@ -232,7 +321,46 @@ pub(crate) fn spacing(
             );
         }
     }
-    Ok(regular)
+    Ok((regular, s_nom))
+}
+
+/// Put a missing reading (no versine) at every station of the regular
+/// pattern that a gap in the chainages skips, so that deleted lines take the
+/// same path as empty cells: bridged, with the uncertainty that implies,
+/// never joined as if neighbours. Returns the readings and their regular
+/// flags (`false` for the inserted ones and the reading after them).
+pub(crate) fn fill_gaps(
+    r: Vec<Reading>,
+    regular: Vec<bool>,
+    s_nom: f64,
+) -> (Vec<Reading>, Vec<bool>) {
+    let mut out = Vec::with_capacity(r.len());
+    let mut flags = Vec::with_capacity(r.len());
+    let mut prev: Option<(f64, crate::survey::Rail)> = None;
+    for (x, reg) in r.into_iter().zip(regular) {
+        if let Some((c0, rail)) = prev
+            && !reg
+        {
+            let d = x.chainage - c0;
+            let k = (d / s_nom).round();
+            if k >= 2.0 {
+                for j in 1..k as usize {
+                    out.push(Reading {
+                        chainage: c0 + d * j as f64 / k,
+                        versine: None,
+                        rail,
+                        note: None,
+                        line: x.line,
+                    });
+                    flags.push(false);
+                }
+            }
+        }
+        prev = Some((x.chainage, x.rail));
+        out.push(x);
+        flags.push(reg);
+    }
+    (out, flags)
 }
 
 /// Curve radius implied by a versine `v` (metres) on a chord `c`:
@@ -311,6 +439,7 @@ pub(crate) fn units(
         let radius = implied_radius(c, u.from_m(p90) * a.metres());
         (radius >= ORDINARY_RADIUS).then_some((a, radius))
     });
+    let column_warned = p90 > 0.0 && implied_radius(c, p90) < SHARP_RADIUS && ordinary.is_some();
     if p90 > 0.0
         && implied_radius(c, p90) < SHARP_RADIUS
         && let Some((a, radius)) = ordinary
@@ -358,6 +487,31 @@ pub(crate) fn units(
                 },
             ));
         }
+    }
+    // The sharpest single reading, possible but found only on tramways.
+    let sharpest = r
+        .iter()
+        .filter_map(|x| x.versine.filter(|v| *v != 0.0).map(|v| (x.line, v)))
+        .min_by(|a, b| implied_radius(c, a.1).total_cmp(&implied_radius(c, b.1)));
+    if let Some((line, v)) = sharpest
+        && implied_radius(c, v) < SHARP_RADIUS
+        && !column_warned
+    {
+        diags.push(
+            Diagnostic::warning(format!(
+                "the versine {} means a curve of radius {} m on a chord of {}, sharper than almost any railway (only tramways and some sidings go below {} m)",
+                in_file(v),
+                fmt_num((implied_radius(c, v) * 10.0).round() / 10.0),
+                ctx.chord_text(),
+                fmt_num(SHARP_RADIUS)
+            ))
+            .at(Location {
+                file: ctx.file.to_string(),
+                line,
+                column: Some(col_name.clone()),
+            })
+            .hint("check the value for a typing error, the unit in the column name and --chord"),
+        );
     }
     // Millimetre column holding metres: every value under 1 mm, written to
     // three or more decimals, finer than any tape or gauge reads.

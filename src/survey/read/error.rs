@@ -90,12 +90,65 @@ impl std::error::Error for SurveyError {
 #[derive(Debug, thiserror::Error)]
 #[non_exhaustive]
 pub enum SurveyErrorKind {
-    /// The file could not be opened or read.
-    #[error("cannot read the file: {source}; check the path and that you may read it")]
+    /// The file could not be opened or read. (The operating system's error
+    /// is in the message, so it is not also a `source`: printed with its
+    /// chain it would appear twice.)
+    #[error("cannot read the file: {error}; check the path and that you may read it")]
     Io {
         /// The operating system's error.
-        #[source]
-        source: std::io::Error,
+        error: std::io::Error,
+    },
+    /// A symbolic link to something that does not exist.
+    #[error(
+        "this is a symbolic link to '{target}', which does not exist; point the link at the survey file, or give the survey file's own path"
+    )]
+    DanglingLink {
+        /// Where the link points.
+        target: String,
+    },
+    /// Readings closer than any chord survey reads.
+    #[error("{what}; {todo}")]
+    SpacingTooSmall {
+        /// What was found.
+        what: String,
+        /// What to do.
+        todo: String,
+    },
+    /// A gap in the chainages too long to bridge.
+    #[error("{what}; {todo}")]
+    GapTooLong {
+        /// What was found.
+        what: String,
+        /// What to do.
+        todo: String,
+    },
+    /// A chord longer than any chord survey uses.
+    #[error(
+        "the chord length {chord} m is longer than any chord a survey uses (at most {max} m); give the chord the readings were taken with, e.g. --chord 20m or --chord 62ft"
+    )]
+    ChordTooLong {
+        /// The chord as given, metres.
+        chord: f64,
+        /// The longest accepted, metres.
+        max: f64,
+    },
+    /// A chainage too large to tell neighbouring readings apart.
+    #[error(
+        "chainage '{text}' is too large to be a chainage (at most {max} in this column): numbers this large lose the digits that tell readings apart; check the value, or subtract a constant from every chainage"
+    )]
+    ChainageTooLarge {
+        /// The cell as written.
+        text: String,
+        /// The largest accepted, in the column's unit.
+        max: String,
+    },
+    /// A folder where a survey file was expected.
+    #[error(
+        "this is a folder, not a survey file; give the path of a CSV file in it (e.g. {example})"
+    )]
+    IsFolder {
+        /// An example path.
+        example: String,
     },
     /// The chord given is zero, negative or not a number.
     #[error(

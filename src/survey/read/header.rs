@@ -122,7 +122,7 @@ pub(crate) fn parse_header(
         return Err((
             None,
             SurveyErrorKind::HeaderLooksLikeData {
-                text: cells.join(","),
+                text: crate::diag::quote_capped(&cells.join(",")),
             },
         ));
     }

@@ -37,17 +37,21 @@ use std::path::Path;
 
 use super::{Marking, Rail, Reading, Survey};
 use crate::diag::{Diagnostic, Location};
-use crate::units::{LengthUnit, VersineUnit};
 
 mod checks;
 mod error;
 mod header;
+mod numbers;
+mod source;
 mod text;
 
 pub use error::{ColumnRef, SurveyError, SurveyErrorKind};
+pub use source::{STDIN_NAME, read_survey_input, read_survey_source};
 
 use header::Columns;
-use text::{LineKind, NumProblem};
+pub(crate) use numbers::versine_word;
+use numbers::{Quantity, number_error};
+use text::LineKind;
 
 /// What the reader needs to know that the file does not say.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -73,6 +77,14 @@ impl ReadOptions {
     }
 }
 
+/// Longest chord accepted, metres: hand chords are 10–30 m, long-chord
+/// measurements a few hundred metres at most (common practice, from memory).
+pub const MAX_CHORD: f64 = 1000.0;
+
+/// Largest chainage accepted, metres (a million kilometres): beyond about
+/// 1e9 m a double keeps too few decimals to tell readings apart.
+pub const MAX_CHAINAGE: f64 = 1e9;
+
 /// Read a survey file.
 ///
 /// The path is used as written in messages. See the [module docs](self) for
@@ -86,8 +98,7 @@ pub fn read_survey_file(
     opts: &ReadOptions,
 ) -> Result<(Survey, Vec<Diagnostic>), SurveyError> {
     let name = path.display().to_string();
-    let bytes = std::fs::read(path)
-        .map_err(|source| SurveyError::file(&name, SurveyErrorKind::Io { source }))?;
+    let bytes = source::read_bytes(path)?;
     read_survey_bytes(&name, &bytes, opts)
 }
 
@@ -123,6 +134,15 @@ pub fn read_survey_bytes(
         return Err(SurveyError::file(
             name,
             SurveyErrorKind::ChordNotPositive { chord: opts.chord },
+        ));
+    }
+    if opts.chord > MAX_CHORD {
+        return Err(SurveyError::file(
+            name,
+            SurveyErrorKind::ChordTooLong {
+                chord: opts.chord,
+                max: MAX_CHORD,
+            },
         ));
     }
     let text = text::decode(bytes).map_err(|(line, kind)| match line {
@@ -236,16 +256,31 @@ impl<'a> Reader<'a> {
         // Unnamed columns (often trailing empty cells of a spreadsheet) get a
         // warning only when a line has something in them.
         let mut unnamed: Vec<usize> = Vec::new();
+        let mut unused = 0usize;
         for &i in &cols.unknown {
             if cols.names[i].is_empty() {
                 unnamed.push(i);
                 continue;
             }
-            let what = format!("column '{}' (field {}) is not used", cols.names[i], i + 1);
+            unused += 1;
+            if unused > checks::MAX_LISTED {
+                continue;
+            }
+            let col = crate::diag::quote_capped(&cols.names[i]);
+            let what = format!("column '{col}' (field {}) is not used", i + 1);
             let d = Diagnostic::warning(what)
-                .at(self.loc(header_line, Some(&cols.names[i])))
+                .at(self.loc(header_line, Some(&col)))
                 .hint("the columns read are chainage_m|chainage_ft, versine_mm|versine_m|versine_in|versine_ft, side and note");
             self.diags.push(d);
+        }
+        if unused > checks::MAX_LISTED {
+            self.diags.push(
+                Diagnostic::warning(format!(
+                    "{} more columns are not used (not listed)",
+                    unused - checks::MAX_LISTED
+                ))
+                .at(self.loc(header_line, None)),
+            );
         }
         if cols.side.is_none() && self.opts.rail.is_none() {
             return Err(SurveyError::file(name, SurveyErrorKind::NoRail));
@@ -395,6 +430,12 @@ impl<'a> Reader<'a> {
                 }
             };
             let chainage = cols.chainage_unit.to_m(chainage_file);
+            if chainage.abs() > MAX_CHAINAGE {
+                let max = fmt_num(cols.chainage_unit.from_m(MAX_CHAINAGE).round());
+                let text = crate::diag::quote_capped(ch_text);
+                let kind = SurveyErrorKind::ChainageTooLarge { text, max };
+                return Err(self.cell_err(&cols, no, cols.chainage, kind));
+            }
             if decimal_comma && looks_like_thousands(ch_text) {
                 stats.thousands_like += 1;
             }
@@ -481,7 +522,7 @@ impl<'a> Reader<'a> {
                             i,
                             SurveyErrorKind::RailContradicts {
                                 given: given.name(),
-                                text: s.to_string(),
+                                text: crate::diag::quote_capped(s),
                             },
                         ));
                     }
@@ -578,8 +619,10 @@ impl<'a> Reader<'a> {
             cols: &cols,
             chord: self.opts.chord,
             marking: self.opts.marking,
+            thousands_like: decimal_comma && stats.thousands_like == readings.len(),
         };
-        let regular = checks::spacing(&ctx, &readings, &mut self.diags)?;
+        let (regular, s_nom) = checks::spacing(&ctx, &readings, &mut self.diags)?;
+        let (readings, regular) = checks::fill_gaps(readings, regular, s_nom);
         checks::units(
             &ctx,
             &readings,
@@ -633,7 +676,7 @@ fn parse_side(s: &str) -> Result<Rail, SurveyErrorKind> {
         "r" | "right" => Ok(Rail::Right),
         "" => Err(SurveyErrorKind::EmptySide),
         other => Err(SurveyErrorKind::BadSide {
-            text: s.to_string(),
+            text: crate::diag::quote_capped(s),
             extra: if matches!(
                 other,
                 "inner" | "outer" | "in" | "out" | "i" | "o" | "high" | "low"
@@ -647,91 +690,6 @@ fn parse_side(s: &str) -> Result<Rail, SurveyErrorKind> {
 }
 
 /// Which column a number came from, for the advice.
-#[derive(Clone, Copy)]
-enum Quantity {
-    Chainage(LengthUnit),
-    Versine(VersineUnit),
-}
-
-fn length_word(u: LengthUnit) -> &'static str {
-    match u {
-        LengthUnit::Metre => "metres",
-        LengthUnit::Foot => "feet",
-    }
-}
-
-pub(crate) fn versine_word(u: VersineUnit) -> &'static str {
-    match u {
-        VersineUnit::Millimetre => "millimetres",
-        VersineUnit::Metre => "metres",
-        VersineUnit::Inch => "inches",
-        VersineUnit::Foot => "feet",
-    }
-}
-
-fn number_error(p: NumProblem, text: &str, q: Quantity, delim: char) -> SurveyErrorKind {
-    let comma = |s: &str| {
-        if delim == ';' {
-            s.replace('.', ",")
-        } else {
-            s.to_string()
-        }
-    };
-    let (word, example) = match q {
-        Quantity::Chainage(u) => (
-            length_word(u),
-            comma(if u == LengthUnit::Metre {
-                "1234.5"
-            } else {
-                "4050.5"
-            }),
-        ),
-        Quantity::Versine(u) => (
-            versine_word(u),
-            comma(match u {
-                VersineUnit::Millimetre => "12.5",
-                VersineUnit::Metre => "0.0125",
-                VersineUnit::Inch => "0.5",
-                VersineUnit::Foot => "0.04",
-            }),
-        ),
-    };
-    let base = match q {
-        Quantity::Chainage(_) => format!("write the chainage in {word}, e.g. {example}"),
-        Quantity::Versine(_) => format!(
-            "write the versine in {word}, e.g. {example}, or leave the cell empty for a missing reading"
-        ),
-    };
-    let text = text.to_string();
-    let todo = match p {
-        NumProblem::NotFinite => return SurveyErrorKind::NotFinite { text, todo: base },
-        NumProblem::Garbage => base,
-        NumProblem::HasUnit(u) => format!(
-            "write the number alone, e.g. {example}: the unit ({word}) comes from the column name, not '{u}'"
-        ),
-        NumProblem::SheetError => match q {
-            Quantity::Chainage(_) => "this is a spreadsheet error value; fix the formula in the spreadsheet and export again, or delete the line".to_string(),
-            Quantity::Versine(_) => "this is a spreadsheet error value; fix the formula in the spreadsheet and export again, or leave the cell empty for a missing reading".to_string(),
-        },
-        NumProblem::Separators => format!(
-            "write numbers without thousands separators and with one decimal separator, e.g. {example}"
-        ),
-        NumProblem::DecimalCommaInCommaFile => format!(
-            "this file separates fields with commas, so write a decimal point ({})",
-            text.replace(',', ".")
-        ),
-        NumProblem::StationPlus => match q {
-            Quantity::Chainage(_) => format!(
-                "write the chainage as one number of {word} ({} is {})",
-                text,
-                text.replace('+', "")
-            ),
-            Quantity::Versine(_) => base,
-        },
-    };
-    SurveyErrorKind::NotANumber { text, todo }
-}
-
 /// A number for a message: integers without decimals, others to at most six.
 pub(crate) fn fmt_num(v: f64) -> String {
     if !v.is_finite() {

@@ -2,6 +2,7 @@
 //! inputs is in `tests/bad_inputs.rs`.
 
 use super::*;
+use crate::units::{LengthUnit, VersineUnit};
 
 fn opts() -> ReadOptions {
     ReadOptions {

@@ -16,6 +16,19 @@ const SHEET_ERRORS: [&str; 8] = [
     "#N/A", "#REF!", "#DIV/0!", "#VALUE!", "#NAME?", "#NUM!", "#NULL!", "#SPILL!",
 ];
 
+/// UTF-16 without a byte-order mark: in the first bytes, every second byte
+/// is NUL and the others are not (ASCII text in UTF-16, little or big endian).
+fn looks_utf16(bytes: &[u8]) -> bool {
+    let head = &bytes[..bytes.len().min(256) & !1];
+    if head.len() < 8 {
+        return false;
+    }
+    let pairs = head.chunks_exact(2);
+    let le = pairs.clone().all(|p| p[1] == 0 && p[0] != 0);
+    let be = pairs.clone().all(|p| p[0] == 0 && p[1] != 0);
+    le || be
+}
+
 /// Check the raw bytes and return the text without a byte-order mark.
 /// Errors carry the 1-based line where that applies.
 pub(crate) fn decode(bytes: &[u8]) -> Result<&str, (Option<usize>, SurveyErrorKind)> {
@@ -25,7 +38,7 @@ pub(crate) fn decode(bytes: &[u8]) -> Result<&str, (Option<usize>, SurveyErrorKi
     if bytes.starts_with(b"PK\x03\x04") {
         return Err((None, SurveyErrorKind::Workbook));
     }
-    if bytes.starts_with(&[0xFF, 0xFE]) || bytes.starts_with(&[0xFE, 0xFF]) {
+    if bytes.starts_with(&[0xFF, 0xFE]) || bytes.starts_with(&[0xFE, 0xFF]) || looks_utf16(bytes) {
         return Err((None, SurveyErrorKind::Utf16));
     }
     let body = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
