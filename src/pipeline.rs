@@ -85,6 +85,10 @@ pub enum RunError {
     /// The output folder could not be written.
     #[error(transparent)]
     Output(#[from] OutputError),
+    /// The realignment asked for cannot be done (a constraint no slews meet,
+    /// a fixed point or section outside the survey).
+    #[error(transparent)]
+    Slews(#[from] crate::realign::SlewError),
     /// An option does not fit the survey (e.g. a fixed point outside it).
     #[error("{0}")]
     Options(String),
@@ -96,6 +100,7 @@ impl RunError {
     pub fn is_internal(&self) -> bool {
         match self {
             RunError::Output(e) => e.is_internal(),
+            RunError::Slews(e) => matches!(e, crate::realign::SlewError::Solver { .. }),
             RunError::Survey(_)
             | RunError::Integrate(_)
             | RunError::Georef(_)
@@ -193,22 +198,7 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
             ),
         }
     }
-    let mut slews = None;
-    if let (Some(sopts), Some(f)) = (&opts.slew, &fitted) {
-        let mut sopts = sopts.clone();
-        let to_m = survey.chainage_unit.metres();
-        sopts.fixed.iter_mut().for_each(|c| *c *= to_m);
-        match crate::realign::slews_for_fit(&survey, &setup, f, &sopts) {
-            Ok((s, mut d)) => {
-                diagnostics.append(&mut d);
-                slews = Some(s);
-            }
-            Err(e) => diagnostics.push(
-                Diagnostic::warning(format!("no slews: {e}"))
-                    .hint("stations.csv is written without the slew columns"),
-            ),
-        }
-    }
+    let slews = realign_stage(&survey, &setup, opts, fitted.as_ref(), &mut diagnostics)?;
     let advice = match (&opts.advice, &fitted) {
         (Some(a), Some(f)) => Some(crate::advice::advise(f, a)),
         (Some(_), None) => {
@@ -232,6 +222,38 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
         control_checks,
         diagnostics,
     })
+}
+
+/// Slews onto the design asked for (`None` without `opts.slew` or a fit).
+/// A realignment that cannot be done as asked ends the run; one the data
+/// cannot support leaves the slews out with a warning.
+fn realign_stage(
+    survey: &Survey,
+    setup: &Setup,
+    opts: &Options,
+    fitted: Option<&crate::fit::FitResult>,
+    diagnostics: &mut Vec<Diagnostic>,
+) -> Result<Option<crate::realign::Slews>, RunError> {
+    let (Some(sopts), Some(f)) = (&opts.slew, fitted) else {
+        return Ok(None);
+    };
+    let sopts = sopts.in_metres(survey.chainage_unit.metres());
+    match crate::realign::slews_for_fit(survey, setup, f, &sopts) {
+        Ok((s, mut d)) => {
+            diagnostics.append(&mut d);
+            Ok(Some(s))
+        }
+        Err(e) if e.is_request() || matches!(e, crate::realign::SlewError::Solver { .. }) => {
+            Err(e.into())
+        }
+        Err(e) => {
+            diagnostics.push(
+                Diagnostic::warning(format!("no slews: {e}"))
+                    .hint("stations.csv is written without the slew columns"),
+            );
+            Ok(None)
+        }
+    }
 }
 
 /// Refuse fixed points (in the survey's chainage unit) that are not finite
@@ -390,6 +412,9 @@ pub fn run(
         dir.write_file("outliers.csv", |w| {
             crate::export::outliers::write_outliers_csv(w, &f.outliers, unit, vunit)
         })?;
+    }
+    if let Some(s) = &results.slews {
+        crate::export::slews::write_slew_files(&mut dir, s, &results.survey)?;
     }
     if let Some(a) = &results.advice {
         dir.write_file("advice.csv", |w| {

@@ -91,9 +91,35 @@ pub struct RunArgs {
     /// 4200m,4310m (implies --slews).
     #[arg(long, value_delimiter = ',', value_name = "CH,CH,..", value_parser = chainage, allow_hyphen_values = true)]
     pub fixed: Vec<ChainageArg>,
-    /// Warn where a slew exceeds this, e.g. 50mm or 5cm (implies --slews).
+    /// Largest slew either way, e.g. 50mm or 5cm: a constraint of the realignment (implies --slews).
     #[arg(long, value_parser = small_length, allow_hyphen_values = true)]
     pub max_slew: Option<f64>,
+    /// How far a fixed point may move, e.g. 2mm (default 0: not at all).
+    #[arg(long, value_parser = small_length, value_name = "LENGTH")]
+    pub fixed_tolerance: Option<f64>,
+    /// One-sided limit over a chainage range, repeatable: FROM,TO,DIRECTION,LARGEST with
+    /// DIRECTION left, right, in or out, e.g. 12600,12700,in,20mm ("at most 20 mm towards
+    /// the curve centre") or 12400,12480,left,0mm ("not to the left"); implies --slews.
+    #[arg(long = "limit", value_name = "FROM,TO,DIR,MAX", value_parser = range_limit_text)]
+    pub limits_range: Vec<String>,
+    /// Work section of the realignment: first and last survey chainage, e.g. 12400,12900
+    /// (default: the whole survey); its ends are held in position and direction.
+    #[arg(long, value_name = "FROM,TO", value_parser = section_text)]
+    pub section: Option<String>,
+    /// Largest change of a design versine allowed to hold the held points and meet the
+    /// limits, e.g. 1.5mm (default: three reading standard deviations).
+    #[arg(long, value_parser = small_length, value_name = "LENGTH")]
+    pub versine_tolerance: Option<f64>,
+    /// Design to move the track onto: fitted (default), optimised (radii and boundaries
+    /// adjusted to move the track least), or the path of an elements.csv (implies --slews).
+    #[arg(long, value_name = "fitted|optimised|FILE")]
+    pub design: Option<String>,
+    /// What an optimised design minimises: squares (sum of squared slews) or largest.
+    #[arg(long, value_name = "squares|largest", value_parser = ["squares", "largest"])]
+    pub objective: Option<String>,
+    /// Round the radii of an optimised design to this step, e.g. 5m.
+    #[arg(long, value_name = "LENGTH")]
+    pub radius_step: Option<Length>,
     /// Line speed for cant and speed advice, e.g. 120km/h or 75mph (writes advice.csv; advisory only).
     #[arg(long, value_parser = speed_text, help_heading = "Cant and speed advice (advisory only)")]
     pub speed: Option<String>,
@@ -215,12 +241,7 @@ impl RunArgs {
                 allow_outside_area: self.allow_outside_area,
             },
             created: None,
-            slew: (self.slews || !self.fixed.is_empty() || self.max_slew.is_some()).then(|| {
-                chordline::realign::SlewOptions {
-                    fixed: self.fixed.iter().map(|c| c.value).collect(),
-                    max_slew: self.max_slew,
-                }
-            }),
+            slew: self.slew_options()?,
             advice: self.advice()?,
             command_line: recorded_command_line(),
             fit: (!self.no_fit).then(|| chordline::fit::FitOptions {
@@ -231,6 +252,124 @@ impl RunArgs {
             }),
         })
     }
+}
+
+impl RunArgs {
+    /// The realignment asked for (`None` without any slew option). Chainages
+    /// stay in the survey's chainage unit; the pipeline converts them.
+    fn slew_options(&self) -> Result<Option<chordline::realign::SlewOptions>, Failure> {
+        let wanted = self.slews
+            || !self.fixed.is_empty()
+            || self.max_slew.is_some()
+            || self.fixed_tolerance.is_some()
+            || !self.limits_range.is_empty()
+            || self.section.is_some()
+            || self.versine_tolerance.is_some()
+            || self.design.is_some();
+        if !wanted {
+            return Ok(None);
+        }
+        let input = |e: String| Failure::Input(anyhow::anyhow!(e));
+        let ranges = self
+            .limits_range
+            .iter()
+            .map(|t| parse_range_limit(t).map_err(|e| input(format!("--limit {t}: {e}"))))
+            .collect::<Result<Vec<_>, _>>()?;
+        let section = match &self.section {
+            Some(t) => Some(parse_section(t).map_err(|e| input(format!("--section {t}: {e}")))?),
+            None => None,
+        };
+        Ok(Some(chordline::realign::SlewOptions {
+            fixed: self.fixed.iter().map(|c| c.value).collect(),
+            fixed_tolerance: self.fixed_tolerance.unwrap_or(0.0),
+            max_slew: self.max_slew,
+            ranges,
+            section,
+            versine_tolerance: self.versine_tolerance,
+            design: self.design_choice()?,
+        }))
+    }
+
+    /// The design of `--design`, `--objective`, `--radius-step`.
+    fn design_choice(&self) -> Result<chordline::realign::DesignChoice, Failure> {
+        use chordline::realign::{DesignChoice, Objective};
+        let input = |e: String| Failure::Input(anyhow::anyhow!(e));
+        let optimised = self.design.as_deref() == Some("optimised");
+        if !optimised && (self.objective.is_some() || self.radius_step.is_some()) {
+            return Err(input(
+                "--objective and --radius-step apply to --design optimised".into(),
+            ));
+        }
+        Ok(match self.design.as_deref() {
+            None | Some("fitted") => DesignChoice::Fitted,
+            Some("optimised") => DesignChoice::Optimised {
+                objective: match self.objective.as_deref() {
+                    Some("largest") => Objective::Largest,
+                    _ => Objective::SumOfSquares,
+                },
+                radius_step: self.radius_step.map(|l| l.metres()),
+            },
+            Some(path) => {
+                let text = std::fs::read_to_string(path).map_err(|e| {
+                    input(format!(
+                        "--design {path}: cannot read it ({e}); give fitted, optimised or an elements.csv"
+                    ))
+                })?;
+                let els = chordline::realign::parse_elements_csv(&text, path)
+                    .map_err(|e| input(e.to_string()))?;
+                DesignChoice::Elements(els)
+            }
+        })
+    }
+}
+
+/// Two numbers `FROM,TO` (survey chainage unit), FROM before TO.
+fn parse_section(t: &str) -> Result<(f64, f64), String> {
+    let parts: Vec<&str> = t.split(',').map(str::trim).collect();
+    let [a, b] = parts.as_slice() else {
+        return Err("give two survey chainages, FROM,TO, e.g. 12400,12900".into());
+    };
+    let num = |x: &str| {
+        x.parse::<f64>()
+            .ok()
+            .filter(|v| v.is_finite())
+            .ok_or_else(|| format!("'{x}' is not a chainage (a number in the survey's unit)"))
+    };
+    let (a, b) = (num(a)?, num(b)?);
+    if a >= b {
+        return Err(format!("FROM ({a}) must come before TO ({b})"));
+    }
+    Ok((a, b))
+}
+
+/// `FROM,TO,DIRECTION,LARGEST` → a range limit (chainages in the survey's
+/// unit, LARGEST a length with unit).
+fn parse_range_limit(t: &str) -> Result<chordline::realign::RangeLimit, String> {
+    let parts: Vec<&str> = t.split(',').map(str::trim).collect();
+    let [a, b, dir, max] = parts.as_slice() else {
+        return Err("give FROM,TO,DIRECTION,LARGEST, e.g. 12600,12700,in,20mm".into());
+    };
+    let (from, to) = parse_section(&format!("{a},{b}"))?;
+    let toward = chordline::realign::parse_toward(dir)
+        .ok_or_else(|| format!("direction '{dir}' is not one of left, right, in, out"))?;
+    let max = small_length(max)?;
+    if max < 0.0 {
+        return Err(format!("LARGEST '{max}' must be 0 or more"));
+    }
+    Ok(chordline::realign::RangeLimit {
+        from,
+        to,
+        toward,
+        max,
+    })
+}
+
+fn range_limit_text(s: &str) -> Result<String, String> {
+    parse_range_limit(s).map(|_| s.to_string())
+}
+
+fn section_text(s: &str) -> Result<String, String> {
+    parse_section(s).map(|_| s.to_string())
 }
 
 /// How much summary `run` prints.

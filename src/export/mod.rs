@@ -15,5 +15,7 @@ pub mod landxml;
 /// `outliers.csv`: readings the fit set aside as blunders.
 pub mod outliers;
 pub mod output_dir;
+/// `slews.csv`: the slew sheet for site.
+pub mod slews;
 /// `stations.csv`: the plan at every station.
 pub mod stations;
