@@ -12,10 +12,10 @@ use crate::export::geojson::{ElementProps, GeoJsonError, GeoJsonInput, write_geo
 use crate::export::landxml::{LandXmlError, LandXmlFrame, LandXmlOptions, write_landxml};
 use crate::export::output_dir::{OutputDir, OutputError};
 use crate::export::stations::{GeoAtStation, StationExtras, write_stations_with};
-use crate::fit::{FitOptions, fit};
+use crate::fit::{FitOptions, FitResult, fit};
 use crate::geometry::{Pose, bearing_to_heading};
 use crate::georef::{Georef, GeorefArgs, GeorefError, leave_one_out, prepare};
-use crate::integrate::{IntegrateError, IntegrateOptions, integrate};
+use crate::integrate::{IntegrateError, IntegrateOptions, Plan, integrate};
 pub use crate::results::Results;
 use crate::survey::read::{ReadOptions, SurveyError, read_survey_bytes, read_survey_source};
 use crate::survey::{Rail, Setup, Survey};
@@ -138,7 +138,7 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
             position_obs: Vec::new(),
         },
     };
-    let (plan, mut d) = integrate(&survey, &setup, &iopts)?;
+    let (mut plan, mut d) = integrate(&survey, &setup, &iopts)?;
     if !iopts.position_obs.is_empty() {
         // The control-point verdicts come from `assess` below, which singles
         // out the culprit; the integrator's per-point warnings would blame all.
@@ -173,9 +173,14 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
         if fopts.reading_sd.is_none() {
             fopts.reading_sd = setup.reading_sd;
         }
+        // One reading-noise figure: the plan's.
+        fopts.reading_noise = fopts.reading_noise.or(Some(plan.reading_sd));
         match fit(&survey, &setup, &fopts) {
             Ok((f, mut d)) => {
                 diagnostics.append(&mut d);
+                if f.outliers.iter().any(|o| o.excluded) {
+                    plan = bridge_outliers(&survey, &setup, &iopts, &f, plan, &mut diagnostics)?;
+                }
                 let points: Vec<(f64, f64, f64)> = plan
                     .stations
                     .iter()
@@ -270,6 +275,39 @@ fn check_fixed(survey: &Survey, fixed: &[f64]) -> Result<(), RunError> {
     Ok(())
 }
 
+/// Integrate again with the readings the fit set aside as blunders treated
+/// as missing: the plan bridges them with the larger uncertainty a gap has.
+fn bridge_outliers(
+    survey: &Survey,
+    setup: &Setup,
+    iopts: &IntegrateOptions,
+    f: &FitResult,
+    plan: Plan,
+    diagnostics: &mut Vec<Diagnostic>,
+) -> Result<Plan, RunError> {
+    let mut cleaned = survey.clone();
+    for o in f.outliers.iter().filter(|o| o.excluded) {
+        cleaned.readings[o.index].versine = None;
+    }
+    let mut s2 = setup.clone();
+    // Keep the one reading-noise figure already decided.
+    s2.reading_sd = Some(plan.reading_sd);
+    let (mut bridged, _) = integrate(&cleaned, &s2, iopts)?;
+    bridged.noise_source = plan.noise_source;
+    for (st, orig) in bridged.stations.iter_mut().zip(&plan.stations) {
+        st.versine = orig.versine;
+    }
+    let end = |p: &Plan| p.stations.last().map_or(0.0, |s| s.position_sd);
+    diagnostics.push(Diagnostic::note(format!(
+        "the plan bridges the {} reading{} set aside as blunders like missing readings (position sd at the end {:.3} m instead of {:.3} m)",
+        f.outliers.iter().filter(|o| o.excluded).count(),
+        if f.outliers.iter().filter(|o| o.excluded).count() == 1 { "" } else { "s" },
+        end(&bridged),
+        end(&plan)
+    )));
+    Ok(bridged)
+}
+
 /// What [`run`] produced.
 #[derive(Debug)]
 pub struct Outcome {
@@ -352,6 +390,12 @@ pub fn run(
     }
     if let Some(s) = &results.slews {
         crate::export::slews::write_slew_files(&mut dir, s, &results.survey)?;
+    }
+    if let Some(f) = results.fit.as_ref().filter(|f| !f.outliers.is_empty()) {
+        let vunit = results.survey.versine_unit;
+        dir.write_file("outliers.csv", |w| {
+            crate::export::outliers::write_outliers_csv(w, &f.outliers, unit, vunit)
+        })?;
     }
     if let Some(a) = &results.advice {
         dir.write_file("advice.csv", |w| {

@@ -71,6 +71,9 @@ pub struct RunArgs {
     /// Skip the element fit (stations.csv only).
     #[arg(long)]
     pub no_fit: bool,
+    /// Keep readings that look like typing blunders in the fit and the plan (they are still listed).
+    #[arg(long)]
+    pub keep_outliers: bool,
     /// Do not print warnings (the summary still counts them).
     #[arg(long, short)]
     pub quiet: bool,
@@ -240,6 +243,7 @@ impl RunArgs {
             fit: (!self.no_fit).then(|| chordline::fit::FitOptions {
                 reading_sd: self.reading_sd,
                 threads: self.threads,
+                keep_outliers: self.keep_outliers,
                 ..Default::default()
             }),
         })

@@ -19,7 +19,7 @@ use crate::fit::{ElementStatus, Estimate, FitResult, FittedElement};
 use crate::units::LengthUnit;
 use std::io::{self, Write};
 
-fn num(x: f64, dec: usize) -> String {
+pub(crate) fn num(x: f64, dec: usize) -> String {
     if x.is_finite() {
         let s = format!("{x:.dec$}");
         // No "-0.000".
@@ -230,12 +230,13 @@ pub fn summary_table(fit: &FitResult, unit: LengthUnit) -> String {
         st.p
     ));
     s.push_str(&format!(
-        "noise: white {} {vs}, at element scale {} {vs}; chi-square {:.1} on {:.0} degrees of freedom against {} {vs} ({}), p = {:.3}\n",
+        "noise: readings {} {vs}, about the design {} {vs}, penalties at element scale {} {vs}; chi-square {:.1} on {:.0} degrees of freedom against {} {vs} ({}), p = {:.3}\n",
         num(vu.from_m(st.sigma_white), vdec + 1),
+        num(vu.from_m(st.sigma_residual), vdec + 1),
         num(vu.from_m(st.sigma_penalty), vdec + 1),
         st.chi2.0,
         st.chi2.1,
-        num(vu.from_m(st.reading_sd), vdec + 1),
+        num(vu.from_m(st.chi2_sd), vdec + 1),
         if st.reading_sd_stated { "stated" } else { "estimated" },
         st.chi2.2
     ));

@@ -12,6 +12,8 @@ pub mod geojson;
 pub mod ifc;
 /// `alignment.xml`: the fitted elements as LandXML 1.2.
 pub mod landxml;
+/// `outliers.csv`: readings the fit set aside as blunders.
+pub mod outliers;
 pub mod output_dir;
 /// `slews.csv`: the slew sheet for site.
 pub mod slews;

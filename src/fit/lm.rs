@@ -307,6 +307,19 @@ pub fn project(c: &mut Chain, lo: f64, hi: f64) {
     }
 }
 
+/// Why a fit stopped.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Termination {
+    /// The possible gain (Gauss–Newton decrement) or the relative change of
+    /// the residual sum of squares fell below tolerance.
+    Converged,
+    /// No step along the damped directions lowered the residual sum of
+    /// squares: a minimum to rounding, or a stall at a bound.
+    NoImprovingStep,
+    /// The iteration cap was reached while the fit was still improving.
+    IterationLimit,
+}
+
 /// How a fit ended.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Outcome {
@@ -314,9 +327,30 @@ pub struct Outcome {
     pub rss: f64,
     /// Iterations used.
     pub iterations: usize,
-    /// Whether the relative change fell below tolerance.
-    pub converged: bool,
+    /// Why it stopped.
+    pub termination: Termination,
 }
+
+/// Starting damping of Levenberg–Marquardt (relative to the diagonal).
+const LAMBDA_START: f64 = 1e-3;
+/// Damping after a successful step is multiplied by this (trust more).
+const LAMBDA_DOWN: f64 = 0.3;
+/// Damping after a failed step is multiplied by this (trust less).
+const LAMBDA_UP: f64 = 10.0;
+/// Damping tries per iteration before the step is declared impossible.
+const DAMPING_TRIES: usize = 12;
+/// Relative ridge that keeps the decrement's Cholesky factor defined.
+const DECREMENT_RIDGE: f64 = 1e-12;
+/// A relative fall of the RSS below this is convergence by itself.
+const REL_CHANGE_TOL: f64 = 1e-14;
+/// A relative fall below this together with a boundary move below
+/// [`STEP_TOL`] is convergence.
+const REL_CHANGE_SMALL: f64 = 1e-9;
+/// When no step improves, a possible gain below this many times the RSS
+/// tolerance still counts as convergence (the minimum met to rounding).
+const STALL_FACTOR: f64 = 100.0;
+/// Boundary move (m) below which a step counts as nothing: a micrometre.
+const STEP_TOL: f64 = 1e-6;
 
 /// Fit `chain` to the data in place, respecting its holds.
 pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
@@ -337,17 +371,17 @@ pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
         return Outcome {
             rss,
             iterations: 0,
-            converged: true,
+            termination: Termination::Converged,
         };
     }
-    let mut lambda = 1e-3;
-    let mut converged = false;
+    let mut lambda = LAMBDA_START;
+    let mut termination = Termination::IterationLimit;
     let mut it = 0;
     while it < max_iter {
         it += 1;
         let maxd = (0..np).map(|i| jtj[(i, i)]).fold(0.0, f64::max);
         if maxd <= 0.0 {
-            converged = true;
+            termination = Termination::Converged;
             break;
         }
         // Gauss–Newton decrement gᵀ(JᵀJ)⁻¹g: the most a full step could gain
@@ -355,23 +389,25 @@ pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
         // left worth having.
         let mut ridge = jtj.clone();
         for i in 0..np {
-            ridge[(i, i)] += 1e-12 * maxd;
+            ridge[(i, i)] += DECREMENT_RIDGE * maxd;
         }
+        let mut dec = f64::INFINITY;
         if let Some(ch) = ridge.cholesky() {
-            let dec = g.dot(&ch.solve(&g));
+            dec = g.dot(&ch.solve(&g));
             if dec < d.rss_tol {
-                converged = true;
+                termination = Termination::Converged;
                 break;
             }
         }
         let mut improved = false;
-        for _ in 0..12 {
+        let mut converged = false;
+        for _ in 0..DAMPING_TRIES {
             let mut a = jtj.clone();
             for i in 0..np {
                 a[(i, i)] += lambda * jtj[(i, i)].max(1e-9 * maxd);
             }
             let Some(ch) = a.cholesky() else {
-                lambda *= 10.0;
+                lambda *= LAMBDA_UP;
                 continue;
             };
             let delta = &tm * ch.solve(&g);
@@ -399,26 +435,124 @@ pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
                 jtj = j2;
                 g = g2;
                 rss = r2;
-                lambda = (lambda * 0.3).max(1e-12);
+                lambda = (lambda * LAMBDA_DOWN).max(1e-12);
                 improved = true;
-                if rel < 1e-14 || (rel < 1e-9 && step < 1e-6) {
+                if rel < REL_CHANGE_TOL || (rel < REL_CHANGE_SMALL && step < STEP_TOL) {
                     converged = true;
                 }
                 break;
             }
-            lambda *= 10.0;
+            lambda *= LAMBDA_UP;
         }
         if !improved {
-            converged = true;
+            // Nothing lowers the RSS. If the most a step could gain is
+            // negligible, this is the minimum met to rounding; otherwise the
+            // fit is stuck (at a bound, or in a narrow valley).
+            termination = if dec < STALL_FACTOR * d.rss_tol {
+                Termination::Converged
+            } else {
+                Termination::NoImprovingStep
+            };
             break;
         }
         if converged {
+            termination = Termination::Converged;
             break;
         }
     }
     Outcome {
         rss,
         iterations: it,
-        converged,
+        termination,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A straight, a 40 m ramp to an arc, a 15 m ramp back (finite-angle
+    /// term on), and readings every 5 m with a 20 m chord.
+    fn case() -> (Chain, Vec<f64>) {
+        let c = Chain::new(
+            vec![Level::Zero, Level::Free(2e-3), Level::Zero],
+            vec![120.0, 235.0],
+            vec![40.0, 15.0],
+        );
+        let s: Vec<f64> = (0..70).map(|i| 5.0 * i as f64).collect();
+        (c, s)
+    }
+
+    #[test]
+    fn analytic_jacobian_matches_central_differences() {
+        let (c, s) = case();
+        let v = vec![0.0; s.len()];
+        let d = Data {
+            s: &s,
+            v: &v,
+            a: 10.0,
+            eps: -1.0 / 3.0,
+            lo: -1e9,
+            hi: 1e9,
+            rss_tol: 0.0,
+        };
+        let par = full_params(&c);
+        let (_, jm) = jacobian(&c, &par, &d);
+        for (k, p) in par.iter().enumerate() {
+            let h = match p {
+                Param::Level(_) => 1e-7,
+                _ => 1e-4,
+            };
+            let shifted = |sign: f64| {
+                let mut c2 = c.clone();
+                match *p {
+                    Param::Mid(j) => c2.mids[j] += sign * h,
+                    Param::Len(j) => c2.lens[j] += sign * h,
+                    Param::Level(i) => c2.levels[i] = Level::Free(c.levels[i].value() + sign * h),
+                }
+                predict(&c2, &d)
+            };
+            let (up, down) = (shifted(1.0), shifted(-1.0));
+            for i in 0..s.len() {
+                let fd = (up[i] - down[i]) / (2.0 * h);
+                let an = jm[(i, k)];
+                assert!(
+                    (fd - an).abs() <= 1e-6 * (1.0 + an.abs()) + 1e-9,
+                    "{p:?} at {} m: analytic {an:e}, differences {fd:e}",
+                    s[i]
+                );
+            }
+        }
+    }
+
+    #[test]
+    fn a_fit_from_a_shifted_start_converges_to_the_truth() {
+        let (truth, s) = case();
+        let v = predict_with(&truth, &s);
+        let d = Data {
+            s: &s,
+            v: &v,
+            a: 10.0,
+            eps: -1.0 / 3.0,
+            lo: -1e9,
+            hi: 1e9,
+            rss_tol: 1e-16,
+        };
+        let mut c = truth.clone();
+        c.mids[0] += 4.0;
+        c.lens[1] += 6.0;
+        c.levels[1] = Level::Free(1.8e-3);
+        let out = fit(&mut c, &d, 60);
+        assert_eq!(out.termination, Termination::Converged);
+        assert!((c.mids[0] - 120.0).abs() < 1e-4, "{}", c.mids[0]);
+        assert!((c.lens[1] - 15.0).abs() < 1e-3, "{}", c.lens[1]);
+        // One iteration is not enough from this start: the limit says so.
+        let mut c = truth.clone();
+        c.mids[0] += 4.0;
+        assert_eq!(fit(&mut c, &d, 1).termination, Termination::IterationLimit);
+    }
+
+    fn predict_with(c: &Chain, s: &[f64]) -> Vec<f64> {
+        s.iter().map(|&x| c.versine(x, 10.0, -1.0 / 3.0)).collect()
     }
 }

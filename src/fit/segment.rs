@@ -140,15 +140,14 @@ fn allowed(prev: SegKind, next: SegKind) -> bool {
     !(prev == SegKind::S && next == SegKind::S)
 }
 
-/// Typed penalised partition of the curvature estimates `k` at chainages `s`
-/// (sorted). Returns the segments in order.
-pub fn typed_partition(s: &[f64], k: &[f64], o: &DpOptions) -> Vec<Seg> {
+/// Scale of the local chainage in the prefix sums (m): keeps `x²` near 1.
+const XSCALE: f64 = 100.0;
+
+/// Prefix sums over bins of the normalised curvature, and the bin edges.
+fn binned(s: &[f64], k: &[f64], o: &DpOptions) -> (Prefix, Vec<f64>) {
     let n_read = s.len();
-    if n_read == 0 {
-        return Vec::new();
-    }
     let s0 = s[0];
-    let xscale = 100.0;
+    let xscale = XSCALE;
     // Bins: consecutive readings within the same bin-width cell.
     let mut bin_first = vec![0usize];
     for i in 1..n_read {
@@ -202,6 +201,18 @@ pub fn typed_partition(s: &[f64], k: &[f64], o: &DpOptions) -> Vec<Seg> {
         p.xz[b + 1] = p.xz[b] + axz;
         p.zz[b + 1] = p.zz[b] + azz;
     }
+    (p, pos)
+}
+
+/// Typed penalised partition of the curvature estimates `k` at chainages `s`
+/// (sorted). Returns the segments in order.
+pub fn typed_partition(s: &[f64], k: &[f64], o: &DpOptions) -> Vec<Seg> {
+    let n_read = s.len();
+    if n_read == 0 {
+        return Vec::new();
+    }
+    let (p, pos) = binned(s, k, o);
+    let nb = pos.len() - 1;
     let ln_n = (n_read as f64).ln().max(1.0) * o.log_n;
     let beta = |kd: SegKind| match kd {
         SegKind::S => 1.0 * ln_n,
@@ -286,7 +297,21 @@ pub fn typed_partition(s: &[f64], k: &[f64], o: &DpOptions) -> Vec<Seg> {
             }
         }
     }
-    // Backtrack.
+    backtrack(&f, &arg_tau, &g_arg, &p, &pos, s[0], o)
+}
+
+/// The segments of the optimal partition, from the DP tables.
+fn backtrack(
+    f: &[[f64; 3]],
+    arg_tau: &[[usize; 3]],
+    g_arg: &[[usize; 3]],
+    p: &Prefix,
+    pos: &[f64],
+    s0: f64,
+    o: &DpOptions,
+) -> Vec<Seg> {
+    let nb = pos.len() - 1;
+    let xscale = XSCALE;
     let mut xi = (0..3)
         .min_by(|&a, &b| f[nb][a].total_cmp(&f[nb][b]))
         .unwrap_or(1);
@@ -390,23 +415,23 @@ pub fn chain_from_segments(segs: &[Seg], zero_tol: f64, step_len: f64) -> Chain 
 }
 
 /// Effective noise of the readings at the scale of `m` consecutive readings:
-/// `√(m · median(window mean²)/0.4549)` over non-overlapping windows of the
-/// de-meaned `runs` (each run a stretch believed to be straight). The median
-/// makes it robust to a turnout or a stray element (0.4549 = median of χ²₁).
+/// `√m` times the robust spread ([`crate::integrate::trimmed_sigma`]) of the
+/// means of non-overlapping windows of the de-meaned `runs` (each run a
+/// stretch believed to be straight). For white noise this is the reading
+/// noise at every `m`; correlated irregularity makes it grow with `m`. The
+/// trimming keeps a turnout or a stray element out. `None` with fewer than
+/// 3 windows.
 pub fn scale_sigma(runs: &[&[f64]], m: usize) -> Option<f64> {
     let m = m.max(1);
-    let mut sq = Vec::new();
+    let mut means = Vec::new();
     for r in runs {
         let mean = r.iter().sum::<f64>() / r.len().max(1) as f64;
         for w in r.chunks_exact(m) {
-            let wm = w.iter().map(|x| x - mean).sum::<f64>() / m as f64;
-            sq.push(wm * wm);
+            means.push(w.iter().map(|x| x - mean).sum::<f64>() / m as f64);
         }
     }
-    if sq.len() < 3 {
+    if means.len() < 3 {
         return None;
     }
-    let mid = sq.len() / 2;
-    let (_, med, _) = sq.select_nth_unstable_by(mid, |a, b| a.total_cmp(b));
-    Some((m as f64 * *med / 0.4549).sqrt())
+    crate::integrate::trimmed_sigma(&means).map(|s| s * (m as f64).sqrt())
 }

@@ -43,7 +43,7 @@ pub use crate::chord::{
     curvature_from_versine, degree_of_curve, radius_from_degree_of_curve, radius_from_versine,
     radius_from_versine_approx, versine_from_curvature, versine_from_radius,
 };
-pub use noise::{detect_resolution, estimate_noise};
+pub use noise::{detect_resolution, estimate_noise, trimmed_sigma};
 
 /// A known position of the track centreline at a chainage, in the local plan
 /// frame (metres), used as an observation together with the versines.

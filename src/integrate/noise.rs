@@ -56,30 +56,89 @@ pub fn detect_resolution(readings_m: &[f64], unit: VersineUnit) -> Option<f64> {
 /// Robust estimate of the reading standard deviation from third differences
 /// of consecutive readings at (nearly) equal spacing: `Δ³v` removes a versine
 /// signal that is locally quadratic in chainage and has variance `20σ²` for
-/// independent noise, so `σ ≈ 1.4826·median|Δ³v|/√20`. Windows across gaps are
-/// skipped. Returns `None` with fewer than 8 usable windows.
+/// independent noise. The estimate starts from the trimmed mean square
+/// ([`trimmed_sigma`]) of the third differences and is refined by clipping at
+/// three standard deviations, then divided by √20. Windows across
+/// gaps are skipped. Returns `None` with fewer than 8 usable windows.
 ///
 /// Real short-wave irregularity of the rail also counts as "noise" here, so the
 /// estimate errs on the safe (larger) side.
-///
-/// ## Reference
-/// Median absolute deviation with the normal-consistency factor 1.4826:
-/// Hampel, "The influence curve and its role in robust estimation", JASA 69,
-/// 1974 (from memory).
 pub fn estimate_noise(versines: &[Option<f64>]) -> Option<f64> {
-    let mut d3: Vec<f64> = versines
+    let d3: Vec<f64> = versines
         .windows(4)
         .filter_map(|w| match (w[0], w[1], w[2], w[3]) {
-            (Some(a), Some(b), Some(c), Some(d)) => Some((d - 3.0 * c + 3.0 * b - a).abs()),
+            (Some(a), Some(b), Some(c), Some(d)) => Some(d - 3.0 * c + 3.0 * b - a),
             _ => None,
         })
         .collect();
     if d3.len() < 8 {
         return None;
     }
-    let mid = d3.len() / 2;
-    let (_, med, _) = d3.select_nth_unstable_by(mid, |a, b| a.total_cmp(b));
-    Some(1.4826 * *med / 20f64.sqrt())
+    trimmed_sigma(&d3).map(|s0| clipped_sigma(&d3, s0) / 20f64.sqrt())
+}
+
+/// Values beyond this many standard deviations are left out by
+/// [`clipped_sigma`] (a normal value is beyond it with probability 0.27 %).
+const CLIP_SIGMAS: f64 = 3.0;
+/// Mean square of a standard normal variable truncated to ±3:
+/// `1 − 2·3·φ(3)/0.99730` (derived here).
+const CLIP_MEAN_SQUARE: f64 = 0.973_35;
+
+/// Refine a robust starting scale `s0` of values centred on zero: the root
+/// mean square of the values within ±3σ, normalised for the truncation,
+/// iterated. From the trimmed start the gross values (blunders, kinks) stay
+/// out, and the clean ones all count, so a few percent of gross errors no
+/// longer bias the scale (the trimmed mean alone drops clean values too).
+fn clipped_sigma(x: &[f64], s0: f64) -> f64 {
+    let mut s = s0;
+    for _ in 0..20 {
+        let lim = CLIP_SIGMAS * s;
+        let (mut ss, mut k) = (0.0, 0usize);
+        for v in x.iter().filter(|v| v.abs() <= lim) {
+            ss += v * v;
+            k += 1;
+        }
+        if k < 8 || ss <= 0.0 {
+            return s;
+        }
+        let next = (ss / k as f64 / CLIP_MEAN_SQUARE).sqrt();
+        let done = (next - s).abs() <= 1e-9 * s;
+        s = next;
+        if done {
+            break;
+        }
+    }
+    s
+}
+
+/// Fraction of the values [`trimmed_sigma`] keeps (the smallest in size).
+const TRIM_KEEP: f64 = 0.8;
+/// Mean square of a standard normal variable truncated to its central 80 %:
+/// `1 − 2qφ(q)/0.8` with `q = 1.28155` (derived here; scipy.stats.truncnorm
+/// gives the same to five digits).
+const TRIM_MEAN_SQUARE: f64 = 0.437_72;
+
+/// Robust standard deviation of values centred on zero: the mean square of
+/// the smallest 80 % in size, divided by the same for a normal variable.
+/// Up to a fifth of the values may be gross errors or signal (kinks, joints)
+/// without effect; unlike a median it does not collapse to zero when the
+/// readings are rounded coarsely and many values are exactly zero.
+/// `None` for an empty slice.
+///
+/// ## Reference
+/// Trimmed estimators of scale: Huber & Ronchetti, *Robust Statistics*, 2nd
+/// ed., Wiley 2009, ch. 5 (from memory); the normal factor is derived here.
+pub fn trimmed_sigma(x: &[f64]) -> Option<f64> {
+    if x.is_empty() {
+        return None;
+    }
+    let mut sq: Vec<f64> = x.iter().map(|v| v * v).collect();
+    let keep = ((sq.len() as f64 * TRIM_KEEP).round() as usize).clamp(1, sq.len());
+    if keep < sq.len() {
+        sq.select_nth_unstable_by(keep - 1, f64::total_cmp);
+    }
+    let ms = sq[..keep].iter().sum::<f64>() / keep as f64;
+    Some((ms / TRIM_MEAN_SQUARE).sqrt())
 }
 
 #[cfg(test)]
@@ -100,6 +159,24 @@ mod tests {
             .collect();
         let est = estimate_noise(&v).unwrap();
         assert!((est - 1e-3).abs() < 0.06e-3, "{est}");
+    }
+
+    #[test]
+    fn trimmed_sigma_ignores_a_fifth_of_gross_errors_and_rounding() {
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(11);
+        let n = Normal::new(0.0, 1.0).unwrap();
+        let mut x: Vec<f64> = (0..20000).map(|_| n.sample(&mut rng)).collect();
+        let clean = trimmed_sigma(&x).unwrap();
+        assert!((clean - 1.0).abs() < 0.03, "{clean}");
+        // Rounded to whole units: variance 1 + 1/12 (Sheppard), no collapse.
+        let rounded: Vec<f64> = x.iter().map(|v| v.round()).collect();
+        let r = trimmed_sigma(&rounded).unwrap();
+        assert!((r - (1.0f64 + 1.0 / 12.0).sqrt()).abs() < 0.08, "{r}");
+        for v in x.iter_mut().step_by(20) {
+            *v = 50.0;
+        }
+        let dirty = trimmed_sigma(&x).unwrap();
+        assert!((dirty - 1.0).abs() < 0.1, "{dirty}");
     }
 
     #[test]
