@@ -7,11 +7,11 @@
 //! earlier folder survives a failed run.
 
 use crate::diag::Diagnostic;
-use crate::export::elements::write_elements_csv;
-use crate::export::geojson::{ElementProps, GeoJsonError, GeoJsonInput, write_geojson};
+use crate::export::elements::{ElementPlacement, write_elements_csv_placed};
+use crate::export::geojson::{ElementProps, GeoJsonInput, build_layers, write_layer};
 use crate::export::landxml::{LandXmlError, LandXmlFrame, LandXmlOptions, write_landxml};
 use crate::export::output_dir::{OutputDir, OutputError};
-use crate::export::stations::{GeoAtStation, StationExtras, write_stations_with};
+use crate::export::stations::{GeoAtStation, GridCoords, StationExtras, write_stations_with};
 use crate::fit::{FitOptions, FitResult, fit};
 use crate::geometry::{Pose, bearing_to_heading};
 use crate::georef::{Georef, GeorefArgs, GeorefError, leave_one_out, prepare};
@@ -377,7 +377,17 @@ pub fn run(
             .collect()
     });
     let slew_cols = results.slews.as_ref().map(|s| s.at_stations());
+    let grid = match &results.georef {
+        Some(g) => GridCoords::of(
+            g,
+            &results.plan,
+            results.design.as_ref().map(|(_, d)| d.as_slice()),
+        )
+        .map_err(GeorefError::from)?,
+        None => None,
+    };
     let extras = StationExtras {
+        grid: grid.as_ref().map(GridCoords::columns),
         design: results.design.as_ref().map(|(_, d)| d.as_slice()),
         geo: geo.as_deref(),
         slews: slew_cols.as_deref(),
@@ -386,7 +396,16 @@ pub fn run(
         write_stations_with(w, &results.plan, unit, &extras)
     })?;
     if let Some(f) = &results.fit {
-        dir.write_file("elements.csv", |w| write_elements_csv(f, unit, w))?;
+        let placed = match &results.design {
+            Some((al, _)) => Some(
+                ElementPlacement::of(al, results.georef.as_ref(), unit)
+                    .map_err(GeorefError::from)?,
+            ),
+            None => None,
+        };
+        dir.write_file("elements.csv", |w| {
+            write_elements_csv_placed(f, unit, placed.as_ref(), w)
+        })?;
     }
     if let Some(s) = &results.slews {
         crate::export::slews::write_slew_files(&mut dir, s, &results.survey)?;
@@ -420,9 +439,15 @@ pub fn run(
                 .as_ref()
                 .map(|c| (c, results.control_checks.as_slice())),
         };
-        dir.write_file("alignment.geojson", |w| {
-            write_geojson(w, &input).map_err(GeoJsonError::into_io)
-        })?;
+        match build_layers(&input) {
+            Ok(layers) => {
+                for layer in &layers {
+                    dir.write_file(layer.file, |w| write_layer(w, layer))?;
+                }
+            }
+            // Reported as a failure to write the first layer; nothing is committed.
+            Err(e) => dir.write_file("alignment.geojson", |_| Err(e.into_io()))?,
+        }
         if g.controls.is_some() {
             dir.write_file("controls.csv", |w| {
                 crate::export::controls::write_checks_csv(w, &results.control_checks)

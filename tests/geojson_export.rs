@@ -1,11 +1,14 @@
-//! alignment.geojson: structure, RFC 7946 rules, values against CHECKS.md 5.6,
-//! and a read by GDAL's ogrinfo when it is installed.
+//! The GeoJSON layers: structure, RFC 7946 rules, values against CHECKS.md
+//! 5.6, and conversion by GDAL's ogr2ogr to GeoPackage and Shapefile when it
+//! is installed.
 
 #[path = "support/skip.rs"]
 mod skip;
 use std::process::Command;
 
-use chordline::export::geojson::{ElementProps, GeoJsonError, GeoJsonInput, write_geojson};
+use chordline::export::geojson::{
+    ElementProps, GeoJsonError, GeoJsonInput, Layer, build_layers, write_layer,
+};
 use chordline::geometry::{Alignment, Element, Pose};
 use chordline::georef::{LonLat, Placement, read_controls};
 use chordline::integrate::{PositionResidual, Station};
@@ -47,7 +50,8 @@ fn case() -> Case {
             start_chainage: s0,
             end_chainage: s0 + alignment.elements()[i].length,
             start_chainage_ci95: (i > 0).then_some(0.8),
-            extra: vec![("length_se_m".into(), 0.4)],
+            extra: vec![("len_se_m".into(), Some(0.4)), ("r_end_se".into(), None)],
+            integers: vec![("readings".into(), 18)],
             labels: vec![("status".into(), "determined".into())],
         });
     }
@@ -98,141 +102,153 @@ fn case() -> Case {
     }
 }
 
-fn write(c: &Case) -> Vec<u8> {
-    let mut out = Vec::new();
-    write_geojson(
-        &mut out,
-        &GeoJsonInput {
-            placement: &c.placement,
-            stations: &c.stations,
-            design: Some((&c.alignment, &c.props)),
-            controls: Some((&c.controls, &c.checks)),
-        },
-    )
-    .unwrap();
-    out
+fn input(c: &Case) -> GeoJsonInput<'_> {
+    GeoJsonInput {
+        placement: &c.placement,
+        stations: &c.stations,
+        design: Some((&c.alignment, &c.props)),
+        controls: Some((&c.controls, &c.checks)),
+    }
 }
 
-fn features<'a>(doc: &'a Value, kind: &str) -> Vec<&'a Value> {
-    doc["features"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .filter(|f| f["properties"]["feature"] == kind)
-        .collect()
+fn layer<'a>(layers: &'a [Layer], file: &str) -> &'a Value {
+    &layers.iter().find(|l| l.file == file).unwrap().doc
+}
+
+fn features(doc: &Value) -> &Vec<Value> {
+    doc["features"].as_array().unwrap()
 }
 
 #[test]
-fn document_follows_rfc_7946_and_the_checks() {
+fn layers_follow_rfc_7946_and_the_checks() {
     let c = case();
-    let doc: Value = serde_json::from_slice(&write(&c)).unwrap();
-    assert_eq!(doc["type"], "FeatureCollection");
-    assert!(doc.get("crs").is_none(), "RFC 7946 §4: no crs member");
-    let bbox = doc["bbox"].as_array().unwrap();
-    assert_eq!(bbox.len(), 4);
-    assert!(bbox[0].as_f64() <= bbox[2].as_f64() && bbox[1].as_f64() <= bbox[3].as_f64());
-    assert_eq!(features(&doc, "measured_centreline").len(), 1);
-    assert_eq!(features(&doc, "element").len(), 4);
-    assert_eq!(features(&doc, "joint").len(), 3);
-    assert_eq!(features(&doc, "control").len(), 2);
-
-    // Every coordinate: [lon, lat], at most 7 decimals.
+    let layers = build_layers(&input(&c)).unwrap();
+    let files: Vec<&str> = layers.iter().map(|l| l.file).collect();
+    assert_eq!(
+        files,
+        [
+            "alignment.geojson",
+            "elements.geojson",
+            "joints.geojson",
+            "controls.geojson"
+        ]
+    );
     let mut n = 0;
-    for f in doc["features"].as_array().unwrap() {
-        let g = &f["geometry"];
-        let pts: Vec<&Value> = match g["type"].as_str().unwrap() {
-            "Point" => vec![&g["coordinates"]],
-            "LineString" => g["coordinates"].as_array().unwrap().iter().collect(),
-            t => panic!("unexpected geometry {t}"),
-        };
-        for p in pts {
-            let p = p.as_array().unwrap();
-            assert_eq!(p.len(), 2);
-            for v in p {
-                let v = v.as_f64().unwrap();
-                assert!(((v * 1e7).round() - v * 1e7).abs() < 1e-4, "{v}");
-                n += 1;
+    for (l, geom, count) in [
+        (&layers[0], "LineString", 1),
+        (&layers[1], "LineString", 4),
+        (&layers[2], "Point", 3),
+        (&layers[3], "Point", 2),
+    ] {
+        let doc = &l.doc;
+        assert_eq!(doc["type"], "FeatureCollection");
+        assert!(doc.get("crs").is_none(), "RFC 7946 §4: no crs member");
+        let bbox = doc["bbox"].as_array().unwrap();
+        assert!(bbox[0].as_f64() <= bbox[2].as_f64() && bbox[1].as_f64() <= bbox[3].as_f64());
+        let fs = features(doc);
+        assert_eq!(fs.len(), count, "{}", l.file);
+        let keys: Vec<&String> = fs[0]["properties"].as_object().unwrap().keys().collect();
+        for f in fs {
+            // One geometry type per layer, the same properties on every feature.
+            assert_eq!(f["geometry"]["type"], geom, "{}", l.file);
+            let k: Vec<&String> = f["properties"].as_object().unwrap().keys().collect();
+            assert_eq!(k, keys, "{}", l.file);
+            // dBase field names: at most 10 characters (ESRI Shapefile Technical Description, 1998).
+            assert!(k.iter().all(|k| k.len() <= 10), "{k:?}");
+            let g = &f["geometry"];
+            let pts: Vec<&Value> = match geom {
+                "Point" => vec![&g["coordinates"]],
+                _ => g["coordinates"].as_array().unwrap().iter().collect(),
+            };
+            for p in pts {
+                let p = p.as_array().unwrap();
+                assert_eq!(p.len(), 2);
+                for v in p {
+                    // 9 decimals: 1e-9° ≤ 0.11 mm (CHECKS.md 5.1).
+                    let v = v.as_f64().unwrap();
+                    assert!(((v * 1e9).round() - v * 1e9).abs() < 1e-3, "{v}");
+                    n += 1;
+                }
+                let (lon, lat) = (p[0].as_f64().unwrap(), p[1].as_f64().unwrap());
+                assert!(
+                    (8.9..9.1).contains(&lon) && (47.9..48.2).contains(&lat),
+                    "lon, lat"
+                );
             }
-            let (lon, lat) = (p[0].as_f64().unwrap(), p[1].as_f64().unwrap());
-            assert!(
-                (8.9..9.1).contains(&lon) && (47.9..48.2).contains(&lat),
-                "order lon, lat"
-            );
         }
     }
     assert!(n > 20_000);
 
     // CHECKS.md 5.6 (geographiclib 2.1): the first joint, 10 km due north of
-    // (9°, 48°), is at latitude 48.089935176969° → 48.0899352 at 7 decimals.
-    let j = features(&doc, "joint")[0];
+    // (9°, 48°), is at latitude 48.089935176969° → 48.089935177 at 9 decimals.
+    let j = &features(layer(&layers, "joints.geojson"))[0];
     assert_eq!(j["properties"]["joint"], "straight-transition");
+    assert_eq!(j["properties"]["element"], 2);
     assert_eq!(j["geometry"]["coordinates"][0].as_f64().unwrap(), 9.0);
     assert_eq!(
         j["geometry"]["coordinates"][1].as_f64().unwrap(),
-        48.0899352
+        48.089935177
     );
     assert_eq!(j["properties"]["chainage_m"].as_f64().unwrap(), 10_000.0);
-    assert_eq!(j["properties"]["chainage_ci95_m"].as_f64().unwrap(), 0.8);
+    assert_eq!(j["properties"]["ch_ci95_m"].as_f64().unwrap(), 0.8);
 
-    // Element properties: signed radii, null for a straight end.
-    let e2 = features(&doc, "element")[1];
-    assert_eq!(e2["properties"]["kind"], "transition");
-    assert!(e2["properties"]["start_radius_m"].is_null());
-    assert_eq!(e2["properties"]["end_radius_m"].as_f64().unwrap(), -450.0);
-    assert_eq!(e2["properties"]["length_se_m"].as_f64().unwrap(), 0.4);
-    assert_eq!(e2["properties"]["status"], "determined");
+    // Element properties: signed radii (null for a straight end), an unsigned
+    // radius and a side for labels, integers as integers.
+    let els = features(layer(&layers, "elements.geojson"));
+    let e2 = &els[1]["properties"];
+    assert_eq!(e2["kind"], "transition");
+    assert!(e2["r_start_m"].is_null());
+    assert_eq!(e2["r_end_m"].as_f64().unwrap(), -450.0);
+    assert_eq!(e2["radius_m"].as_f64().unwrap(), 450.0);
+    assert_eq!(e2["turn"], "right");
+    // A = √(R L) = √(450 · 60) = 164.3168 m (clothoid definition).
+    assert_eq!(e2["clothoid_a"].as_f64().unwrap(), 164.3168);
+    assert!(e2["readings"].is_u64(), "{}", e2["readings"]);
+    assert_eq!(e2["len_se_m"].as_f64().unwrap(), 0.4);
+    assert!(e2["r_end_se"].is_null());
+    assert_eq!(e2["status"], "determined");
+    assert!(els[0]["properties"]["radius_m"].is_null() && els[0]["properties"]["turn"].is_null());
     // The element starts heading due north.
-    let b = e2["properties"]["start_bearing_deg"].as_f64().unwrap();
+    let b = e2["brg_start"].as_f64().unwrap();
     assert!(b.abs() < 1e-6 || (b - 360.0).abs() < 1e-6, "{b}");
     // Sampling: at most 1 m apart, ends included: 60 m → 61 points.
-    assert_eq!(e2["geometry"]["coordinates"].as_array().unwrap().len(), 61);
+    assert_eq!(
+        els[1]["geometry"]["coordinates"].as_array().unwrap().len(),
+        61
+    );
+    assert!(features(layer(&layers, "alignment.geojson"))[0]["properties"]["stations"].is_u64());
 
-    // Control points come back where the file put them (9 decimals in, 7 out).
-    let cb = features(&doc, "control")[1];
+    // Control points come back where the file put them (9 decimals in and out).
+    let cb = &features(layer(&layers, "controls.geojson"))[1];
     let (lon1, lat1) = c.placement.to_lonlat(0.0, 5000.0);
     let g = cb["geometry"]["coordinates"].as_array().unwrap();
-    assert!((g[0].as_f64().unwrap() - lon1).abs() < 6e-8);
-    assert!((g[1].as_f64().unwrap() - lat1).abs() < 6e-8);
+    assert!((g[0].as_f64().unwrap() - lon1).abs() < 2e-9);
+    assert!((g[1].as_f64().unwrap() - lat1).abs() < 2e-9);
     assert_eq!(cb["properties"]["flagged"], false);
     assert_eq!(cb["properties"]["line"], 3);
-    assert_eq!(
-        cb["properties"]["residual_north_m"].as_f64().unwrap(),
-        0.002
-    );
+    assert_eq!(cb["properties"]["res_n_m"].as_f64().unwrap(), 0.002);
 }
 
 #[test]
-fn nothing_is_written_for_nan_or_mismatched_input() {
+fn nothing_is_built_for_nan_mismatched_input_or_long_names() {
     let mut c = case();
     c.stations[7].x = f64::NAN;
-    let mut out = Vec::new();
-    let e = write_geojson(
-        &mut out,
-        &GeoJsonInput {
-            placement: &c.placement,
-            stations: &c.stations,
-            design: None,
-            controls: None,
-        },
-    )
+    let e = build_layers(&GeoJsonInput {
+        design: None,
+        controls: None,
+        ..input(&c)
+    })
     .unwrap_err();
     assert!(
         matches!(e, GeoJsonError::NotFinite(ref w) if w.contains("175")),
         "{e}"
     );
-    assert!(out.is_empty());
 
     let c = case();
-    let mut out = Vec::new();
-    let e = write_geojson(
-        &mut out,
-        &GeoJsonInput {
-            placement: &c.placement,
-            stations: &c.stations,
-            design: Some((&c.alignment, &c.props[..2])),
-            controls: None,
-        },
-    )
+    let e = build_layers(&GeoJsonInput {
+        design: Some((&c.alignment, &c.props[..2])),
+        ..input(&c)
+    })
     .unwrap_err();
     assert!(matches!(
         e,
@@ -241,62 +257,118 @@ fn nothing_is_written_for_nan_or_mismatched_input() {
             elements: 4
         }
     ));
-    assert!(out.is_empty());
     let mut bad = c.props.clone();
-    bad[1].extra.push(("radius_se_m".into(), f64::INFINITY));
-    let e = write_geojson(
-        &mut out,
-        &GeoJsonInput {
-            placement: &c.placement,
-            stations: &c.stations,
-            design: Some((&c.alignment, &bad)),
-            controls: None,
-        },
-    )
+    bad[1].extra.push(("r_se_m".into(), Some(f64::INFINITY)));
+    let e = build_layers(&GeoJsonInput {
+        design: Some((&c.alignment, &bad)),
+        ..input(&c)
+    })
     .unwrap_err();
-    assert!(e.to_string().contains("radius_se_m"), "{e}");
-    assert!(out.is_empty());
+    assert!(e.to_string().contains("r_se_m"), "{e}");
+    let mut long = c.props.clone();
+    long[0]
+        .extra
+        .push(("start_chainage_se_m".into(), Some(1.0)));
+    let e = build_layers(&GeoJsonInput {
+        design: Some((&c.alignment, &long)),
+        ..input(&c)
+    })
+    .unwrap_err();
+    assert!(
+        matches!(e, GeoJsonError::LongName(ref n) if n.contains("start_chainage_se_m")),
+        "{e}"
+    );
+}
+
+fn gdal(tool: &str) -> bool {
+    let ok = Command::new(tool)
+        .arg("--version")
+        .output()
+        .is_ok_and(|o| o.status.success());
+    if !ok {
+        skip::skipped(
+            "GDAL checks",
+            &format!("GDAL's {tool} is not installed (apt-get install gdal-bin)"),
+        );
+    }
+    ok
+}
+
+fn run(cmd: &mut Command) -> String {
+    let out = cmd.output().unwrap();
+    let text = format!(
+        "{}{}",
+        String::from_utf8_lossy(&out.stdout),
+        String::from_utf8_lossy(&out.stderr)
+    );
+    assert!(out.status.success(), "{text}");
+    text
 }
 
 #[test]
-fn gdal_reads_the_file() {
-    let ogrinfo = std::path::Path::new("/usr/bin/ogrinfo");
-    let found = ogrinfo.exists()
-        || Command::new("ogrinfo")
-            .arg("--version")
-            .output()
-            .is_ok_and(|o| o.status.success());
-    if !found {
-        skip::skipped(
-            "gdal_reads_the_file",
-            "GDAL's ogrinfo is not installed (apt-get install gdal-bin)",
-        );
+fn gdal_converts_every_layer_to_geopackage_and_shapefile() {
+    if !(gdal("ogrinfo") && gdal("ogr2ogr")) {
         return;
     }
     let c = case();
     let dir = tempfile::tempdir().unwrap();
-    let path = dir.path().join("alignment.geojson");
-    std::fs::write(&path, write(&c)).unwrap();
-    let out = Command::new("ogrinfo")
-        .args(["-ro", "-al", "-so"])
-        .arg(&path)
-        .output()
-        .unwrap();
-    let text = String::from_utf8_lossy(&out.stdout);
+    for l in build_layers(&input(&c)).unwrap() {
+        let src = dir.path().join(l.file);
+        let mut f = std::fs::File::create(&src).unwrap();
+        write_layer(&mut f, &l).unwrap();
+        let stem = l.file.trim_end_matches(".geojson");
+        let gpkg = dir.path().join(format!("{stem}.gpkg"));
+        let shp = dir.path().join(format!("{stem}_shp"));
+        // GDAL warns when it has to launder or truncate a field name, or
+        // when a geometry does not fit the layer type: no warning allowed.
+        for (driver, dst) in [("GPKG", &gpkg), ("ESRI Shapefile", &shp)] {
+            let text = run(Command::new("ogr2ogr")
+                .args(["-f", driver])
+                .arg(dst)
+                .arg(&src));
+            assert!(
+                !text.contains("Warning") && !text.contains("ERROR"),
+                "{driver} {}: {text}",
+                l.file
+            );
+        }
+        let info = run(Command::new("ogrinfo")
+            .args(["-ro", "-al", "-so"])
+            .arg(&shp));
+        let want = if stem == "joints" || stem == "controls" {
+            "Point"
+        } else {
+            "Line String"
+        };
+        assert!(info.contains(&format!("Geometry: {want}")), "{info}");
+        assert!(info.contains("WGS 84"), "{info}");
+        if stem == "elements" {
+            // Whole names and integer types survive the Shapefile.
+            for field in [
+                "readings: Integer",
+                "clothoid_a: Real",
+                "radius_m: Real",
+                "start_ch_m: Real",
+                "len_se_m: Real",
+            ] {
+                assert!(info.contains(field), "{field}: {info}");
+            }
+        }
+        let info = run(Command::new("ogrinfo")
+            .args(["-ro", "-al", "-so"])
+            .arg(&gpkg));
+        assert!(
+            info.contains(&format!("Feature Count: {}", features(&l.doc).len())),
+            "{info}"
+        );
+    }
+    // The joint as GDAL reads it: CHECKS.md 5.6 (geographiclib 2.1), 9 decimals.
+    let text = run(Command::new("ogrinfo")
+        .args(["-ro", "-al"])
+        .arg(dir.path().join("joints.geojson")));
     assert!(
-        out.status.success(),
-        "{text}{}",
-        String::from_utf8_lossy(&out.stderr)
+        text.contains("POINT (9 48.089935177)") || text.contains("POINT (9.0 48.089935177)"),
+        "{text}"
     );
-    assert!(text.contains("Feature Count: 10"), "{text}");
-    assert!(text.contains("WGS 84"), "{text}");
-    // The joint as GDAL reads it: CHECKS.md 5.6 (geographiclib 2.1), 7 decimals.
-    let out = Command::new("ogrinfo")
-        .args(["-ro", "-al", "-where", "feature = 'joint'"])
-        .arg(&path)
-        .output()
-        .unwrap();
-    let text = String::from_utf8_lossy(&out.stdout);
-    assert!(text.contains("POINT (9.0 48.0899352)"), "{text}");
     assert!(text.contains("straight-transition"), "{text}");
 }

@@ -139,8 +139,15 @@ fn british_grid_matches_checks_5_16_and_5_17() {
             "{lon},{lat}: {ge} {gn}"
         );
     }
-    // The Helmert is metre-level true accuracy: the crate says so.
-    assert!(c.datum_note().unwrap().contains("Helmert"));
+    // The Helmert is metre-level true accuracy: the crate says so, with the
+    // transformation and accuracy PROJ 9.5.1 reports (pyproj 3.7.2
+    // Transformer.from_crs(4326, 27700).description / .accuracy: "Inverse of
+    // OSGB36 to WGS 84 (6)", 2.0 m).
+    let note = c.datum_note().unwrap();
+    assert!(
+        note.contains("OSGB36 to WGS 84 (6)") && note.contains("2 m"),
+        "{note}"
+    );
 }
 
 #[test]
@@ -209,4 +216,31 @@ fn unknown_codes_are_named_with_what_is_supported() {
     );
     let e = "epsg: 25832".parse::<Crs>().unwrap();
     assert_eq!(e.code(), 25832);
+}
+
+#[test]
+fn local_frame_matches_proj_azimuthal_equidistant() {
+    // tests/fixtures/georef/pyproj_aeqd.csv: PROJ 9.5.1 (pyproj 3.7.2) reading
+    // the WKT that alignment.xml carries, local (x, y) → lon/lat; 1e-9° ≈ 0.1 mm.
+    let p = concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/tests/fixtures/georef/pyproj_aeqd.csv"
+    );
+    let text = std::fs::read_to_string(p).unwrap();
+    let mut n = 0;
+    for l in text
+        .lines()
+        .filter(|l| !l.starts_with('#') && !l.starts_with("origin"))
+    {
+        let v: Vec<f64> = l.split(',').map(|x| x.parse().unwrap()).collect();
+        let pl = Placement::new(LonLat::new(v[0], v[1]).unwrap(), v[2]).unwrap();
+        assert!((pl.ellipsoid_per_ground() - v[3]).abs() < 1e-15);
+        let (lon, lat) = pl.to_lonlat(v[4], v[5]);
+        assert!(
+            (lon - v[6]).abs() < 1e-9 && (lat - v[7]).abs() < 1e-9,
+            "{l}: {lon} {lat}"
+        );
+        n += 1;
+    }
+    assert_eq!(n, 15);
 }

@@ -210,7 +210,7 @@ fn noisy_survey_with_good_control_points_raises_no_flags() {
 
 #[test]
 fn fitted_design_goes_onto_the_map_and_into_the_grid() {
-    use chordline::export::geojson::{ElementProps, GeoJsonInput, write_geojson};
+    use chordline::export::geojson::{ElementProps, GeoJsonInput, build_layers};
     use chordline::export::landxml::{LandXmlFrame, LandXmlOptions, build_landxml};
     use chordline::fit::{FitOptions, fit};
     let Some((d, _)) = eastvale() else {
@@ -266,18 +266,18 @@ fn fitted_design_goes_onto_the_map_and_into_the_grid() {
     let props: Vec<ElementProps> = f.elements.iter().map(ElementProps::from_fitted).collect();
     let (checks, _) = g.assess(&plan.position_residuals, &[]);
 
-    let mut out = Vec::new();
-    write_geojson(
-        &mut out,
-        &GeoJsonInput {
-            placement: &g.placement,
-            stations: &plan.stations,
-            design: Some((&placed, &props)),
-            controls: Some((g.controls.as_ref().unwrap(), &checks)),
-        },
-    )
+    let layers = build_layers(&GeoJsonInput {
+        placement: &g.placement,
+        stations: &plan.stations,
+        design: Some((&placed, &props)),
+        controls: Some((g.controls.as_ref().unwrap(), &checks)),
+    })
     .unwrap();
-    let doc: serde_json::Value = serde_json::from_slice(&out).unwrap();
+    let doc = &layers
+        .iter()
+        .find(|l| l.file == "joints.geojson")
+        .unwrap()
+        .doc;
     // Every joint lies on the true centreline (the design, in the frame of
     // the independent truth placement) to within a few centimetres.
     let design = dd.alignment();
@@ -311,9 +311,6 @@ fn fitted_design_goes_onto_the_map_and_into_the_grid() {
     let mut joints = 0;
     let mut worst_joint: f64 = 0.0;
     for f in doc["features"].as_array().unwrap() {
-        if f["properties"]["feature"] != "joint" {
-            continue;
-        }
         joints += 1;
         let c = f["geometry"]["coordinates"].as_array().unwrap();
         let (x, y) = tp.to_local(c[0].as_f64().unwrap(), c[1].as_f64().unwrap());

@@ -380,3 +380,176 @@ fn imperial_units_and_bad_input() {
     assert!(e.to_string().contains("not a finite number"), "{e}");
     assert!(sink.is_empty());
 }
+
+/// Survey chainages that do not follow the centreline: the rail is 0.3 %
+/// longer (outer rail of curves, common practice) and the survey starts at
+/// 12 480.116.
+fn rail_props(al: &Alignment) -> Vec<ElementProps> {
+    (0..al.elements().len())
+        .map(|i| {
+            let s0 = 12_480.116 + 1.003 * al.element_start(i);
+            ElementProps {
+                start_chainage: s0,
+                end_chainage: 12_480.116 + 1.003 * (al.element_start(i) + al.elements()[i].length),
+                ..Default::default()
+            }
+        })
+        .collect()
+}
+
+/// Stations chain along the elements: each staStart is the previous one plus
+/// its length (to the 5-decimal rounding), and the alignment's length is the
+/// sum of the element lengths. Returns (staStart, length) per element.
+fn assert_stations_chain(xml: &str) -> Vec<(f64, f64)> {
+    let (els, doc) = read_back(xml);
+    let a = doc
+        .descendants()
+        .find(|n| n.has_tag_name("Alignment"))
+        .unwrap();
+    let f = |k: &str| a.attribute(k).unwrap().parse::<f64>().unwrap();
+    assert!((els[0].sta - f("staStart")).abs() < 1e-9);
+    for w in els.windows(2) {
+        let gap = w[1].sta - (w[0].sta + w[0].length);
+        assert!(gap.abs() < 1.5e-5, "{gap}: {:?} {:?}", w[0], w[1]);
+    }
+    let sum: f64 = els.iter().map(|e| e.length).sum();
+    assert!(
+        (f("length") - sum).abs() < 1e-5 * els.len() as f64,
+        "{} {sum}",
+        f("length")
+    );
+    els.iter().map(|e| (e.sta, e.length)).collect()
+}
+
+#[test]
+fn stations_chain_and_equations_carry_the_survey_chainage() {
+    let pl = Placement::new(LonLat::new(9.0, 48.0).unwrap(), 350.0).unwrap();
+    let al = alignment(Pose {
+        x: 0.0,
+        y: 0.0,
+        heading: 1.0,
+    });
+    let props = rail_props(&al);
+    let xml = build_landxml(
+        &al,
+        &props,
+        LandXmlFrame::Local {
+            placement: Some(&pl),
+        },
+        &LandXmlOptions::default(),
+    )
+    .unwrap();
+    validate(&xml);
+    let st = assert_stations_chain(&xml);
+    // Local frame: element lengths are the centreline lengths themselves.
+    assert!((st[0].1 - 100.0).abs() < 1e-5 && (st[0].0 - 12_480.116).abs() < 1e-9);
+    // Station equations: applying them to the centreline stations gives the
+    // survey chainage at every element start (LandXML 1.2 StaEquation:
+    // staInternal = staStart + distance, staAhead = the new station value).
+    let doc = roxmltree::Document::parse(&xml).unwrap();
+    let eqs: Vec<(f64, f64, f64)> = doc
+        .descendants()
+        .filter(|n| n.has_tag_name("StaEquation"))
+        .map(|n| {
+            let g = |k: &str| n.attribute(k).unwrap().parse::<f64>().unwrap();
+            (g("staInternal"), g("staBack"), g("staAhead"))
+        })
+        .collect();
+    assert_eq!(eqs.len(), al.elements().len() - 1);
+    for (i, p) in props.iter().enumerate().skip(1) {
+        let (internal, back, ahead) = eqs[i - 1];
+        // The equation sits at the element's start (the split spiral "4a/4b"
+        // adds one element in the file, so find it by its station).
+        assert!(
+            st.iter().any(|s| (s.0 - internal).abs() < 1e-9),
+            "element {i}"
+        );
+        assert!((ahead - p.start_chainage).abs() < 1e-5);
+        // The running station just before it: the previous survey chainage
+        // plus the centreline distance since.
+        let prev = props[i - 1].start_chainage;
+        let dist = al.elements()[i - 1].length;
+        assert!((back - (prev + dist)).abs() < 2e-5, "{back} {prev} {dist}");
+    }
+    // Machine-readable origin: a Start point with latitude and longitude and
+    // a WKT of the frame (azimuthal equidistant about the origin).
+    let cs = doc
+        .descendants()
+        .find(|n| n.has_tag_name("CoordinateSystem"))
+        .unwrap();
+    let o = cs.children().find(|n| n.has_tag_name("Start")).unwrap();
+    assert_eq!(o.attribute("latitude"), Some("48.0000000000"));
+    assert_eq!(o.attribute("longitude"), Some("9.0000000000"));
+    assert_eq!(o.text(), Some("0 0"));
+    let wkt = cs.attribute("ogcWktCode").unwrap();
+    assert!(
+        wkt.contains("Azimuthal_Equidistant")
+            && wkt.contains("\"latitude_of_center\",48.0000000000")
+    );
+    // Its unit is the ground scale R/(R+h) of the placement (checked against
+    // PROJ reading this WKT in georef_checks.rs, pyproj_aeqd.csv): 350 m up
+    // at 48°, 0.99994515 (computed).
+    let unit = format!("UNIT[\"ground metre\",{:.15}]", pl.ellipsoid_per_ground());
+    assert!(wkt.contains(&unit) && unit.contains("0.99994514"), "{wkt}");
+}
+
+#[test]
+fn grid_lengths_chain_and_feet_grids_are_written_in_feet() {
+    let pl = Placement::new(LonLat::new(9.0, 48.0).unwrap(), 0.0).unwrap();
+    let al = alignment(Pose {
+        x: 0.0,
+        y: 0.0,
+        heading: 1.0,
+    });
+    let crs: Crs = "EPSG:32632".parse().unwrap();
+    let xml = build_landxml(
+        &al,
+        &rail_props(&al),
+        LandXmlFrame::Grid {
+            placement: &pl,
+            crs: &crs,
+        },
+        &LandXmlOptions::default(),
+    )
+    .unwrap();
+    validate(&xml);
+    let st = assert_stations_chain(&xml);
+    // The alignment length is in the grid: the ground length times the UTM
+    // scale ≈ 0.9996 on the central meridian (UTM definition).
+    let ground = al.length();
+    let grid: f64 = st.iter().map(|s| s.1).sum();
+    assert!((grid / ground - 0.9996).abs() < 3e-6, "{}", grid / ground);
+
+    // NAD83 / California zone 5 (ftUS): coordinates, lengths and stations in
+    // US survey feet (1200/3937 m).
+    let pl = Placement::new(LonLat::new(-118.43, 34.04).unwrap(), 0.0).unwrap();
+    let crs: Crs = "EPSG:2229".parse().unwrap();
+    let xml = build_landxml(
+        &al,
+        &rail_props(&al),
+        LandXmlFrame::Grid {
+            placement: &pl,
+            crs: &crs,
+        },
+        &LandXmlOptions::default(),
+    )
+    .unwrap();
+    validate(&xml);
+    let (els, doc) = read_back(&xml);
+    let im = doc
+        .descendants()
+        .find(|n| n.has_tag_name("Imperial"))
+        .unwrap();
+    assert_eq!(im.attribute("linearUnit"), Some("USSurveyFoot"));
+    let (e, n) = crs.from_lonlat(-118.43, 34.04).unwrap();
+    assert!((els[0].start.0 - e).abs() < 2e-5 && (els[0].start.1 - n).abs() < 2e-5);
+    let usft = 1200.0 / 3937.0;
+    assert!((els[0].sta - 12_480.116 / usft).abs() < 1e-5);
+    // Lambert conformal scale within 1e-4 of 1 here.
+    assert!(
+        (els[0].length * usft / 100.0 - 1.0).abs() < 1e-4,
+        "{}",
+        els[0].length
+    );
+    assert_stations_chain(&xml);
+}

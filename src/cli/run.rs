@@ -62,6 +62,9 @@ pub struct RunArgs {
     /// Height of the track above the WGS 84 ellipsoid, e.g. 350m or 1150ft (a bare number is metres; scales ground lengths to the ellipsoid).
     #[arg(long, value_parser = height, allow_hyphen_values = true)]
     pub height: Option<f64>,
+    /// Accept points outside the --crs grid's area of use (refused by default, naming the likely mistake).
+    #[arg(long)]
+    pub allow_outside_area: bool,
     /// Replace the output folder if it exists.
     #[arg(long)]
     pub force: bool,
@@ -235,6 +238,7 @@ impl RunArgs {
                 crs: self.crs.clone(),
                 control: self.control.clone(),
                 height: self.height,
+                allow_outside_area: self.allow_outside_area,
             },
             created: None,
             slew: self.slew_options()?,

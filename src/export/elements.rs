@@ -14,8 +14,20 @@
 //! that does not exist (the radius of a straight, an interval of a survey
 //! end, a radius interval that reaches a straight) is an empty field, never
 //! NaN. Consecutive rows join exactly: each start is the previous end.
+//!
+//! With the placed design ([`write_elements_csv_placed`](crate::export::elements::write_elements_csv_placed)) seven columns
+//! follow: `start_easting_m, start_northing_m, end_easting_m,
+//! end_northing_m` (the element's ends on the design centreline: grid
+//! coordinates with `--crs`, suffix in the grid's unit `_m`/`_usft`/`_ft`;
+//! otherwise the local frame in the survey unit), `start_bearing_deg,
+//! end_bearing_deg` (clockwise from north: true north when the survey is
+//! placed, like `stations.csv`), and `clothoid_a_m`, the clothoid parameter
+//! A = √(L / |1/R₂ − 1/R₁|) of a transition (A² = R·L from a straight;
+//! empty for straights and arcs).
 
 use crate::fit::{ElementStatus, Estimate, FitResult, FittedElement};
+use crate::geometry::{Alignment, ElementKind, Pose, heading_to_bearing};
+use crate::georef::{CrsError, Georef};
 use crate::units::LengthUnit;
 use std::io::{self, Write};
 
@@ -137,10 +149,144 @@ fn row(i: usize, e: &FittedElement, unit: LengthUnit) -> Vec<String> {
 /// # Errors
 /// Any I/O error of the writer.
 pub fn write_elements_csv<W: Write>(fit: &FitResult, unit: LengthUnit, out: W) -> io::Result<()> {
+    write_elements_csv_placed(fit, unit, None, out)
+}
+
+/// The ends of one element of the placed design.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ElementEnds {
+    /// Start (easting, northing), in the unit of [`ElementPlacement::suffix`].
+    pub start: (f64, f64),
+    /// End (easting, northing).
+    pub end: (f64, f64),
+    /// Bearing at the start, degrees clockwise from north.
+    pub start_bearing: f64,
+    /// Bearing at the end.
+    pub end_bearing: f64,
+    /// Clothoid parameter A of a transition, metres.
+    pub clothoid_a: Option<f64>,
+}
+
+/// Where the design's elements are: the extra columns of `elements.csv`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ElementPlacement {
+    /// Unit suffix of the coordinates (`m`, `ft`, `usft`).
+    pub suffix: &'static str,
+    /// One entry per element.
+    pub ends: Vec<ElementEnds>,
+}
+
+fn bearing_deg(g: Option<&Georef>, p: Pose) -> f64 {
+    let b = match g {
+        Some(g) => g.true_bearing(p),
+        None => heading_to_bearing(p.heading),
+    };
+    // Keep bearings in [0, 360) at the written precision.
+    if format!("{b:.6}") == "360.000000" {
+        0.0
+    } else {
+        b
+    }
+}
+
+impl ElementPlacement {
+    /// The ends of every element of `al` (the design placed in the local
+    /// frame): in the `--crs` grid when `georef` has one, otherwise local in
+    /// the survey `unit`.
+    ///
+    /// # Errors
+    /// [`CrsError`] when a point cannot be put in the grid.
+    pub fn of(
+        al: &Alignment,
+        georef: Option<&Georef>,
+        unit: LengthUnit,
+    ) -> Result<ElementPlacement, CrsError> {
+        let crs = georef.and_then(|g| g.crs.as_ref());
+        let pos = |p: Pose| -> Result<(f64, f64), CrsError> {
+            match (georef, crs) {
+                (Some(g), Some(c)) => {
+                    let (lon, lat) = g.placement.to_lonlat(p.x, p.y);
+                    c.from_lonlat(lon, lat)
+                }
+                _ => Ok((unit.from_m(p.x), unit.from_m(p.y))),
+            }
+        };
+        let mut ends = Vec::with_capacity(al.elements().len());
+        for (i, e) in al.elements().iter().enumerate() {
+            let p0 = al.element_pose(i);
+            let p1 = e.advance(p0, e.length);
+            let dk = (e.k_end - e.k_start).abs();
+            ends.push(ElementEnds {
+                start: pos(p0)?,
+                end: pos(p1)?,
+                start_bearing: bearing_deg(georef, p0),
+                end_bearing: bearing_deg(georef, p1),
+                clothoid_a: (e.kind == ElementKind::Transition && dk > 0.0)
+                    .then(|| (e.length / dk).sqrt()),
+            });
+        }
+        Ok(ElementPlacement {
+            suffix: crs.map_or(unit.suffix(), |c| c.unit().suffix()),
+            ends,
+        })
+    }
+}
+
+/// [`write_elements_csv`] with the placed design's columns when `placed` is
+/// given (one entry per element).
+///
+/// # Errors
+/// Any I/O error of the writer; `InvalidInput` when `placed` has the wrong length.
+pub fn write_elements_csv_placed<W: Write>(
+    fit: &FitResult,
+    unit: LengthUnit,
+    placed: Option<&ElementPlacement>,
+    out: W,
+) -> io::Result<()> {
+    if let Some(p) = placed
+        && p.ends.len() != fit.elements.len()
+    {
+        return Err(io::Error::new(
+            io::ErrorKind::InvalidInput,
+            format!(
+                "elements.csv: {} placed elements for {} fitted ones",
+                p.ends.len(),
+                fit.elements.len()
+            ),
+        ));
+    }
     let mut w = csv::Writer::from_writer(out);
-    w.write_record(header(unit)).map_err(io::Error::other)?;
+    let mut h = header(unit);
+    if let Some(p) = placed {
+        let s = p.suffix;
+        for c in [
+            "start_easting",
+            "start_northing",
+            "end_easting",
+            "end_northing",
+        ] {
+            h.push(format!("{c}_{s}"));
+        }
+        h.push("start_bearing_deg".into());
+        h.push("end_bearing_deg".into());
+        h.push(format!("clothoid_a_{}", unit.suffix()));
+    }
+    w.write_record(h).map_err(io::Error::other)?;
     for (i, e) in fit.elements.iter().enumerate() {
-        w.write_record(row(i, e, unit)).map_err(io::Error::other)?;
+        let mut r = row(i, e, unit);
+        if let Some(p) = placed {
+            let q = &p.ends[i];
+            for v in [q.start.0, q.start.1, q.end.0, q.end.1] {
+                r.push(num(v, 4));
+            }
+            r.push(num(q.start_bearing, 6));
+            r.push(num(q.end_bearing, 6));
+            r.push(
+                q.clothoid_a
+                    .map_or(String::new(), |a| num(unit.from_m(a), 3)),
+            );
+        }
+        w.write_record(r).map_err(io::Error::other)?;
     }
     w.flush()
 }

@@ -1,26 +1,31 @@
-//! `alignment.geojson`: the placed survey as RFC 7946 GeoJSON.
+//! The placed survey as RFC 7946 GeoJSON layers, one file per geometry
+//! type and meaning, so that a GIS (or `ogr2ogr` to a Shapefile or a
+//! GeoPackage) loads each as one layer of one geometry type:
 //!
-//! WGS 84 longitude/latitude in decimal degrees rounded to 7 decimals (about
-//! 11 mm of latitude, CHECKS.md 5.1), no `crs` member (RFC 7946 §4). One
-//! `FeatureCollection` with a `bbox` and these features, told apart by the
-//! `feature` property:
-//!
-//! | `feature` | geometry | properties |
+//! | file | geometry | properties |
 //! |---|---|---|
-//! | `measured_centreline` | LineString through the stations | `start_chainage_m`, `end_chainage_m`, `stations` |
-//! | `element` | LineString sampled every ≤ 1 m and at both ends | `element` (1-based), `kind`, `start_chainage_m`, `end_chainage_m`, `length_m`, `start_radius_m`, `end_radius_m` (signed, positive curving left, `null` for a straight end), `start_bearing_deg`, then the caller's extra statistics |
-//! | `joint` | Point at the start of every element but the first | `joint` (e.g. `straight-transition`), `chainage_m`, `chainage_ci95_m` (half-width of the 95 % interval, if known) |
-//! | `control` | Point at the observed position | `id`, `line`, `chainage_m`, `sd_m`, `residual_east_m`, `residual_north_m`, `normalised_residual`, `loo_discrepancy_m`, `loo_statistic`, `flagged` |
+//! | `alignment.geojson` | one LineString: the measured centreline through the stations | `start_ch_m`, `end_ch_m`, `stations` |
+//! | `elements.geojson` | a LineString per fitted element, sampled every ≤ 1 m and at both ends | `element`, `kind`, `start_ch_m`, `end_ch_m`, `length_m`, `radius_m` (unsigned, for labels: the arc's radius, a transition's tighter end; `null` on a straight), `turn` (`left`/`right`), `r_start_m`, `r_end_m` (signed, positive curving left, `null` for a straight end), `brg_start`, `brg_end` (degrees from true north), `clothoid_a` (m), then the fit's statistics |
+//! | `joints.geojson` | a Point at the start of every element but the first | `joint` (e.g. `straight-transition`), `element` (the one starting there), `chainage_m`, `ch_ci95_m` (half-width of the 95 % interval, if known), `brg_deg` |
+//! | `controls.geojson` | a Point per control point at its given position | `id`, `line`, `chainage_m`, `sd_m`, `res_e_m`, `res_n_m`, `res_norm`, `loo_m`, `loo_stat`, `flagged` |
+//!
+//! Rules kept for every layer: WGS 84 longitude/latitude in decimal degrees
+//! with 9 decimals (0.1 mm; CHECKS.md 5.1), no `crs` member (RFC 7946 §4),
+//! a `bbox`; property names of at most 10 characters (the dBase limit of a
+//! Shapefile, so none is truncated or clashes); counts written as JSON
+//! integers; every feature of a layer carries the same properties
+//! (`null` where a value does not exist).
 //!
 //! Every number is checked to be finite before anything is written (serde_json
-//! would otherwise turn NaN into `null` silently); the file is built in memory
-//! and written in one go, so an error leaves the writer untouched.
+//! would otherwise turn NaN into `null` silently); the layers are built in
+//! memory, so an error leaves the writers untouched.
 //!
 //! There is no way to call this without a [`Placement`](crate::georef::Placement): an unplaced survey
 //! gets no GeoJSON.
 //!
 //! ## Reference
-//! H. Butler et al., "The GeoJSON Format", IETF RFC 7946, 2016.
+//! H. Butler et al., "The GeoJSON Format", IETF RFC 7946, 2016; the 10-character
+//! field names: ESRI, "ESRI Shapefile Technical Description", 1998 (dBase table).
 
 use std::io::Write;
 
@@ -41,42 +46,42 @@ pub struct ElementProps {
     /// Half-width of the 95 % interval of the start chainage (the joint with
     /// the previous element), metres, if known.
     pub start_chainage_ci95: Option<f64>,
-    /// Further numeric properties written as they are, e.g.
-    /// `("length_se_m", 0.8)`, `("radius_se_m", 4.0)`. Names should carry their unit.
-    pub extra: Vec<(String, f64)>,
+    /// Further numeric properties written as they are (`None`: `null`), e.g.
+    /// `("len_se_m", Some(0.8))`. Names should carry their unit and have at most
+    /// 10 characters (longer ones are refused).
+    pub extra: Vec<(String, Option<f64>)>,
+    /// Further integer properties, e.g. `("readings", 18)`.
+    pub integers: Vec<(String, i64)>,
     /// Further text properties, e.g. `("status", "determined")`.
     pub labels: Vec<(String, String)>,
 }
 
 impl ElementProps {
     /// The properties of one element of the fit: chainages, the 95 %
-    /// half-interval of the start joint, standard errors of chainages, length
-    /// and radii (`_se_m`), readings, residual RMS (`residual_rms_mm`), status
-    /// and note.
+    /// half-interval of the start joint, standard errors of the chainages
+    /// (`start_se_m`, `end_se_m`), length (`len_se_m`) and radii
+    /// (`r_start_se`, `r_end_se`, metres; `null` for a straight end),
+    /// `readings`, residual RMS (`rms_mm`), `status` and `note`.
     pub fn from_fitted(e: &crate::fit::FittedElement) -> ElementProps {
         let mut extra = vec![
-            ("start_chainage_se_m".to_string(), e.start_chainage.se),
-            ("end_chainage_se_m".to_string(), e.end_chainage.se),
-            ("length_se_m".to_string(), e.length.se),
+            ("start_se_m".to_string(), Some(e.start_chainage.se)),
+            ("end_se_m".to_string(), Some(e.end_chainage.se)),
+            ("len_se_m".to_string(), Some(e.length.se)),
         ];
-        if let Some(r) = &e.start_radius {
-            extra.push(("start_radius_se_m".into(), r.se));
-        }
-        if let Some(r) = &e.end_radius {
-            extra.push(("end_radius_se_m".into(), r.se));
-        }
-        extra.push(("readings".into(), e.readings as f64));
-        extra.push(("residual_rms_mm".into(), e.residual_rms * 1e3));
-        let mut labels = vec![("status".to_string(), e.status.name().to_string())];
-        if !e.note.is_empty() {
-            labels.push(("note".into(), e.note.clone()));
-        }
+        extra.push(("r_start_se".into(), e.start_radius.map(|r| r.se)));
+        extra.push(("r_end_se".into(), e.end_radius.map(|r| r.se)));
+        extra.push(("rms_mm".into(), Some(e.residual_rms * 1e3)));
+        let labels = vec![
+            ("status".to_string(), e.status.name().to_string()),
+            ("note".into(), e.note.clone()),
+        ];
         ElementProps {
             start_chainage: e.start_chainage.value,
             end_chainage: e.end_chainage.value,
             start_chainage_ci95: (!e.starts_at_survey_end)
                 .then_some(0.5 * (e.start_chainage.hi95 - e.start_chainage.lo95)),
             extra,
+            integers: vec![("readings".into(), e.readings as i64)],
             labels,
         }
     }
@@ -86,11 +91,11 @@ impl ElementProps {
 #[derive(Debug, thiserror::Error)]
 pub enum GeoJsonError {
     /// A value is NaN or infinite.
-    #[error("cannot write alignment.geojson: {0} is not a finite number (nothing was written)")]
+    #[error("cannot write the GeoJSON layers: {0} is not a finite number (nothing was written)")]
     NotFinite(String),
     /// Element properties do not match the alignment.
     #[error(
-        "cannot write alignment.geojson: {props} element property records for {elements} elements (nothing was written)"
+        "cannot write the GeoJSON layers: {props} element property records for {elements} elements (nothing was written)"
     )]
     Mismatch {
         /// Number of property records.
@@ -98,13 +103,18 @@ pub enum GeoJsonError {
         /// Number of elements.
         elements: usize,
     },
+    /// A property name a Shapefile would truncate.
+    #[error(
+        "cannot write the GeoJSON layers: {0}: the property name is longer than 10 characters, which a Shapefile would truncate (nothing was written)"
+    )]
+    LongName(String),
     /// The track crosses the ±180° meridian.
     #[error(
-        "cannot write alignment.geojson: the track crosses the 180th meridian, which this writer does not split (nothing was written)"
+        "cannot write the GeoJSON layers: the track crosses the 180th meridian, which this writer does not split (nothing was written)"
     )]
     Antimeridian,
     /// Writing failed.
-    #[error("cannot write alignment.geojson: {0}")]
+    #[error("cannot write the GeoJSON layers: {0}")]
     Io(#[from] std::io::Error),
 }
 
@@ -132,12 +142,27 @@ pub struct GeoJsonInput<'a> {
     pub controls: Option<(&'a ControlSet, &'a [ControlCheck])>,
 }
 
-fn round7(v: f64) -> f64 {
-    (v * 1e7).round() / 1e7
+/// Decimals of longitude and latitude: 1e-9° is at most 0.11 mm (CHECKS.md 5.1).
+const COORD_DECIMALS: f64 = 1e9;
+
+fn round_deg(v: f64) -> f64 {
+    (v * COORD_DECIMALS).round() / COORD_DECIMALS
 }
 
 fn round_m(v: f64) -> f64 {
     (v * 1e4).round() / 1e4
+}
+
+/// Longest property name a Shapefile keeps whole (dBase field names).
+pub const MAX_NAME: usize = 10;
+
+/// One layer: its file name and document.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Layer {
+    /// File name, e.g. `elements.geojson`.
+    pub file: &'static str,
+    /// The `FeatureCollection`.
+    pub doc: Value,
 }
 
 struct Builder<'a> {
@@ -146,7 +171,20 @@ struct Builder<'a> {
     last_lon: Option<f64>,
 }
 
-impl Builder<'_> {
+impl<'a> Builder<'a> {
+    fn new(placement: &'a Placement) -> Self {
+        Builder {
+            placement,
+            bbox: [
+                f64::INFINITY,
+                f64::INFINITY,
+                f64::NEG_INFINITY,
+                f64::NEG_INFINITY,
+            ],
+            last_lon: None,
+        }
+    }
+
     fn position(&mut self, x: f64, y: f64, what: &str) -> Result<Value, GeoJsonError> {
         if !(x.is_finite() && y.is_finite()) {
             return Err(GeoJsonError::NotFinite(what.to_string()));
@@ -161,7 +199,7 @@ impl Builder<'_> {
             return Err(GeoJsonError::Antimeridian);
         }
         self.last_lon = Some(lon);
-        let (lon, lat) = (round7(lon), round7(lat));
+        let (lon, lat) = (round_deg(lon), round_deg(lat));
         self.bbox = [
             self.bbox[0].min(lon),
             self.bbox[1].min(lat),
@@ -169,6 +207,24 @@ impl Builder<'_> {
             self.bbox[3].max(lat),
         ];
         Ok(json!([lon, lat]))
+    }
+
+    /// The finished layer (`None` without features).
+    fn layer(self, file: &'static str, features: Vec<Value>) -> Option<Layer> {
+        if features.is_empty() {
+            return None;
+        }
+        let mut fc = Map::new();
+        fc.insert("type".into(), json!("FeatureCollection"));
+        fc.insert("name".into(), json!(file.trim_end_matches(".geojson")));
+        if self.bbox.iter().all(|v| v.is_finite()) {
+            fc.insert("bbox".into(), json!(self.bbox));
+        }
+        fc.insert("features".into(), Value::Array(features));
+        Some(Layer {
+            file,
+            doc: Value::Object(fc),
+        })
     }
 }
 
@@ -192,169 +248,201 @@ fn radius(k: f64) -> Option<f64> {
     (k != 0.0).then(|| 1.0 / k)
 }
 
-/// Build the GeoJSON document (see the module documentation).
-///
-/// # Errors
-/// [`GeoJsonError`] for non-finite values, mismatched inputs or a track across ±180°.
-pub fn build_geojson(input: &GeoJsonInput) -> Result<Value, GeoJsonError> {
-    let mut b = Builder {
-        placement: input.placement,
-        bbox: [
-            f64::INFINITY,
-            f64::INFINITY,
-            f64::NEG_INFINITY,
-            f64::NEG_INFINITY,
-        ],
-        last_lon: None,
-    };
-    let mut features = Vec::new();
+fn bearing(placement: &Placement, p: crate::geometry::Pose) -> Value {
+    json!((placement.true_bearing(p) * 1e6).round() / 1e6)
+}
 
-    // As-measured centreline.
-    if input.stations.len() >= 2 {
-        let mut coords = Vec::with_capacity(input.stations.len());
-        for s in input.stations {
-            coords.push(b.position(s.x, s.y, &format!("station at chainage {}", s.chainage))?);
+fn name_ok(k: &str, what: &str) -> Result<String, GeoJsonError> {
+    if k.chars().count() > MAX_NAME {
+        return Err(GeoJsonError::LongName(format!("{what}, '{k}'")));
+    }
+    Ok(k.to_string())
+}
+
+fn centreline_layer(input: &GeoJsonInput) -> Result<Option<Layer>, GeoJsonError> {
+    let mut b = Builder::new(input.placement);
+    if input.stations.len() < 2 {
+        return Ok(None);
+    }
+    let mut coords = Vec::with_capacity(input.stations.len());
+    for s in input.stations {
+        coords.push(b.position(s.x, s.y, &format!("station at chainage {}", s.chainage))?);
+    }
+    let (first, last) = (
+        &input.stations[0],
+        &input.stations[input.stations.len() - 1],
+    );
+    let mut p = Map::new();
+    p.insert("start_ch_m".into(), num(first.chainage, "first chainage")?);
+    p.insert("end_ch_m".into(), num(last.chainage, "last chainage")?);
+    p.insert("stations".into(), json!(input.stations.len()));
+    let f = feature(json!({"type": "LineString", "coordinates": coords}), p);
+    Ok(b.layer("alignment.geojson", vec![f]))
+}
+
+fn element_properties(
+    placement: &Placement,
+    i: usize,
+    e: &crate::geometry::Element,
+    pr: &ElementProps,
+    (p0, p1): (crate::geometry::Pose, crate::geometry::Pose),
+) -> Result<Map<String, Value>, GeoJsonError> {
+    let what = format!("element {}", i + 1);
+    let mut p = Map::new();
+    p.insert("element".into(), json!(i + 1));
+    p.insert("kind".into(), json!(e.kind.name()));
+    p.insert("start_ch_m".into(), num(pr.start_chainage, &what)?);
+    p.insert("end_ch_m".into(), num(pr.end_chainage, &what)?);
+    p.insert("length_m".into(), num(e.length, &what)?);
+    let kmax = if e.k_start.abs() >= e.k_end.abs() {
+        e.k_start
+    } else {
+        e.k_end
+    };
+    p.insert(
+        "radius_m".into(),
+        opt_num(radius(kmax).map(f64::abs), &what)?,
+    );
+    let turn = match kmax.partial_cmp(&0.0) {
+        Some(std::cmp::Ordering::Greater) => json!("left"),
+        Some(std::cmp::Ordering::Less) => json!("right"),
+        _ => Value::Null,
+    };
+    p.insert("turn".into(), turn);
+    p.insert("r_start_m".into(), opt_num(radius(e.k_start), &what)?);
+    p.insert("r_end_m".into(), opt_num(radius(e.k_end), &what)?);
+    p.insert("brg_start".into(), bearing(placement, p0));
+    p.insert("brg_end".into(), bearing(placement, p1));
+    let dk = (e.k_end - e.k_start).abs();
+    let a = (e.kind == crate::geometry::ElementKind::Transition && dk > 0.0)
+        .then(|| (e.length / dk).sqrt());
+    p.insert("clothoid_a".into(), opt_num(a, &what)?);
+    for (k, v) in &pr.extra {
+        let k = name_ok(k, &what)?;
+        p.insert(k.clone(), opt_num(*v, &format!("{what}, property {k}"))?);
+    }
+    for (k, v) in &pr.integers {
+        p.insert(name_ok(k, &what)?, json!(v));
+    }
+    for (k, v) in &pr.labels {
+        p.insert(name_ok(k, &what)?, json!(v));
+    }
+    Ok(p)
+}
+
+fn joint_feature(
+    b: &mut Builder,
+    els: &[crate::geometry::Element],
+    i: usize,
+    pr: &ElementProps,
+    p0: crate::geometry::Pose,
+) -> Result<Value, GeoJsonError> {
+    let what = format!("joint before element {}", i + 1);
+    let mut jp = Map::new();
+    jp.insert(
+        "joint".into(),
+        json!(format!("{}-{}", els[i - 1].kind.name(), els[i].kind.name())),
+    );
+    jp.insert("element".into(), json!(i + 1));
+    jp.insert("chainage_m".into(), num(pr.start_chainage, &what)?);
+    jp.insert("ch_ci95_m".into(), opt_num(pr.start_chainage_ci95, &what)?);
+    jp.insert("brg_deg".into(), bearing(b.placement, p0));
+    let pt = b.position(p0.x, p0.y, &what)?;
+    Ok(feature(json!({"type": "Point", "coordinates": pt}), jp))
+}
+
+fn design_layers(input: &GeoJsonInput) -> Result<Vec<Layer>, GeoJsonError> {
+    let Some((al, props)) = input.design else {
+        return Ok(Vec::new());
+    };
+    let els = al.elements();
+    if props.len() != els.len() {
+        return Err(GeoJsonError::Mismatch {
+            props: props.len(),
+            elements: els.len(),
+        });
+    }
+    let mut eb = Builder::new(input.placement);
+    let mut jb = Builder::new(input.placement);
+    let (mut lines, mut joints) = (Vec::new(), Vec::new());
+    for (i, (e, pr)) in els.iter().zip(props).enumerate() {
+        let what = format!("element {}", i + 1);
+        let s0 = al.element_start(i);
+        let n = e.length.ceil().max(1.0) as usize;
+        let mut coords = Vec::with_capacity(n + 1);
+        for j in 0..=n {
+            let q = al.pose_at(s0 + e.length * j as f64 / n as f64);
+            coords.push(eb.position(q.x, q.y, &what)?);
         }
-        let mut p = Map::new();
-        p.insert("feature".into(), json!("measured_centreline"));
-        let (first, last) = (
-            &input.stations[0],
-            &input.stations[input.stations.len() - 1],
-        );
-        p.insert(
-            "start_chainage_m".into(),
-            num(first.chainage, "first chainage")?,
-        );
-        p.insert(
-            "end_chainage_m".into(),
-            num(last.chainage, "last chainage")?,
-        );
-        p.insert("stations".into(), json!(input.stations.len()));
-        features.push(feature(
+        let p0 = al.element_pose(i);
+        let p = element_properties(input.placement, i, e, pr, (p0, e.advance(p0, e.length)))?;
+        lines.push(feature(
             json!({"type": "LineString", "coordinates": coords}),
             p,
         ));
-    }
-
-    // Fitted elements and joints.
-    if let Some((al, props)) = input.design {
-        let els = al.elements();
-        if props.len() != els.len() {
-            return Err(GeoJsonError::Mismatch {
-                props: props.len(),
-                elements: els.len(),
-            });
-        }
-        for (i, (e, pr)) in els.iter().zip(props).enumerate() {
-            let what = format!("element {}", i + 1);
-            let s0 = al.element_start(i);
-            let n = (e.length / 1.0).ceil().max(1.0) as usize;
-            let mut coords = Vec::with_capacity(n + 1);
-            for j in 0..=n {
-                let s = s0 + e.length * j as f64 / n as f64;
-                let q = al.pose_at(s);
-                coords.push(b.position(q.x, q.y, &what)?);
-            }
-            let start_pose = al.element_pose(i);
-            let mut p = Map::new();
-            p.insert("feature".into(), json!("element"));
-            p.insert("element".into(), json!(i + 1));
-            p.insert("kind".into(), json!(e.kind.name()));
-            p.insert("start_chainage_m".into(), num(pr.start_chainage, &what)?);
-            p.insert("end_chainage_m".into(), num(pr.end_chainage, &what)?);
-            p.insert("length_m".into(), num(e.length, &what)?);
-            p.insert("start_radius_m".into(), opt_num(radius(e.k_start), &what)?);
-            p.insert("end_radius_m".into(), opt_num(radius(e.k_end), &what)?);
-            p.insert(
-                "start_bearing_deg".into(),
-                json!((input.placement.true_bearing(start_pose) * 1e6).round() / 1e6),
-            );
-            for (k, v) in &pr.extra {
-                p.insert(k.clone(), num(*v, &format!("{what}, property {k}"))?);
-            }
-            for (k, v) in &pr.labels {
-                p.insert(k.clone(), json!(v));
-            }
-            features.push(feature(
-                json!({"type": "LineString", "coordinates": coords}),
-                p,
-            ));
-            if i > 0 {
-                let mut jp = Map::new();
-                jp.insert("feature".into(), json!("joint"));
-                jp.insert(
-                    "joint".into(),
-                    json!(format!("{}-{}", els[i - 1].kind.name(), e.kind.name())),
-                );
-                jp.insert("chainage_m".into(), num(pr.start_chainage, &what)?);
-                jp.insert(
-                    "chainage_ci95_m".into(),
-                    opt_num(pr.start_chainage_ci95, &what)?,
-                );
-                let pt = b.position(start_pose.x, start_pose.y, &format!("joint before {what}"))?;
-                features.push(feature(json!({"type": "Point", "coordinates": pt}), jp));
-            }
+        if i > 0 {
+            joints.push(joint_feature(&mut jb, els, i, pr, p0)?);
         }
     }
-
-    // Control points at their observed positions.
-    if let Some((set, checks)) = input.controls {
-        for cp in &set.points {
-            let (x, y) = input.placement.to_local(cp.lonlat.lon, cp.lonlat.lat);
-            let what = format!("control point '{}'", cp.id);
-            let pt = b.position(x, y, &what)?;
-            let c = checks.iter().find(|c| c.id == cp.id);
-            let mut p = Map::new();
-            p.insert("feature".into(), json!("control"));
-            p.insert("id".into(), json!(cp.id));
-            p.insert("line".into(), json!(cp.line));
-            p.insert("chainage_m".into(), num(cp.chainage, &what)?);
-            p.insert("sd_m".into(), num(cp.sd, &what)?);
-            let fin = |v: f64| v.is_finite().then_some(v);
-            p.insert(
-                "residual_east_m".into(),
-                opt_num(c.and_then(|c| fin(c.dx)), &what)?,
-            );
-            p.insert(
-                "residual_north_m".into(),
-                opt_num(c.and_then(|c| fin(c.dy)), &what)?,
-            );
-            p.insert(
-                "normalised_residual".into(),
-                opt_num(c.and_then(|c| fin(c.normalised)), &what)?,
-            );
-            p.insert(
-                "loo_discrepancy_m".into(),
-                opt_num(c.and_then(|c| c.loo_discrepancy).and_then(fin), &what)?,
-            );
-            p.insert(
-                "loo_statistic".into(),
-                opt_num(c.and_then(|c| c.loo_statistic).and_then(fin), &what)?,
-            );
-            p.insert("flagged".into(), json!(c.is_some_and(|c| c.flagged)));
-            features.push(feature(json!({"type": "Point", "coordinates": pt}), p));
-        }
-    }
-
-    let mut fc = Map::new();
-    fc.insert("type".into(), json!("FeatureCollection"));
-    if b.bbox.iter().all(|v| v.is_finite()) {
-        fc.insert("bbox".into(), json!(b.bbox));
-    }
-    fc.insert("features".into(), Value::Array(features));
-    Ok(Value::Object(fc))
+    Ok(eb
+        .layer("elements.geojson", lines)
+        .into_iter()
+        .chain(jb.layer("joints.geojson", joints))
+        .collect())
 }
 
-/// Write `alignment.geojson` to `w` (see the module documentation).
+fn control_layer(input: &GeoJsonInput) -> Result<Option<Layer>, GeoJsonError> {
+    let Some((set, checks)) = input.controls else {
+        return Ok(None);
+    };
+    let mut b = Builder::new(input.placement);
+    let mut features = Vec::new();
+    for cp in &set.points {
+        let (x, y) = input.placement.to_local(cp.lonlat.lon, cp.lonlat.lat);
+        let what = format!("control point '{}'", cp.id);
+        let pt = b.position(x, y, &what)?;
+        let c = checks.iter().find(|c| c.id == cp.id);
+        let fin = |v: f64| v.is_finite().then_some(v);
+        let mut p = Map::new();
+        p.insert("id".into(), json!(cp.id));
+        p.insert("line".into(), json!(cp.line));
+        p.insert("chainage_m".into(), num(cp.chainage, &what)?);
+        p.insert("sd_m".into(), num(cp.sd, &what)?);
+        for (k, v) in [
+            ("res_e_m", c.and_then(|c| fin(c.dx))),
+            ("res_n_m", c.and_then(|c| fin(c.dy))),
+            ("res_norm", c.and_then(|c| fin(c.normalised))),
+            ("loo_m", c.and_then(|c| c.loo_discrepancy).and_then(fin)),
+            ("loo_stat", c.and_then(|c| c.loo_statistic).and_then(fin)),
+        ] {
+            p.insert(k.into(), opt_num(v, &what)?);
+        }
+        p.insert("flagged".into(), json!(c.is_some_and(|c| c.flagged)));
+        features.push(feature(json!({"type": "Point", "coordinates": pt}), p));
+    }
+    Ok(b.layer("controls.geojson", features))
+}
+
+/// Build every layer that has features (see the module documentation), in
+/// the order centreline, elements, joints, controls.
 ///
 /// # Errors
-/// [`GeoJsonError`]; on any error other than [`GeoJsonError::Io`] nothing
-/// has been written.
-pub fn write_geojson(mut w: impl Write, input: &GeoJsonInput) -> Result<(), GeoJsonError> {
-    let doc = build_geojson(input)?;
-    let mut text = serde_json::to_string(&doc).map_err(|e| GeoJsonError::Io(e.into()))?;
+/// [`GeoJsonError`] for non-finite values, mismatched inputs, over-long
+/// property names or a track across ±180°.
+pub fn build_layers(input: &GeoJsonInput) -> Result<Vec<Layer>, GeoJsonError> {
+    let mut layers: Vec<Layer> = centreline_layer(input)?.into_iter().collect();
+    layers.extend(design_layers(input)?);
+    layers.extend(control_layer(input)?);
+    Ok(layers)
+}
+
+/// Write one layer to `w` (compact JSON and a newline).
+///
+/// # Errors
+/// An I/O error of the writer.
+pub fn write_layer(mut w: impl Write, layer: &Layer) -> std::io::Result<()> {
+    let mut text = serde_json::to_string(&layer.doc).map_err(std::io::Error::other)?;
     text.push('\n');
     w.write_all(text.as_bytes())?;
-    w.flush()?;
-    Ok(())
+    w.flush()
 }

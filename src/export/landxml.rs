@@ -2,8 +2,11 @@
 //!
 //! Conventions of LandXML 1.2 (CHECKS.md 6.1, read from the schema):
 //! * point text is **"northing easting"**;
-//! * `dir`, `dirStart`, `dirEnd` are directions from north, clockwise
-//!   (clockwise: common practice), in decimal degrees as stated in `Units`;
+//! * `dir`, `dirStart`, `dirEnd` are of the schema's `direction` type, whose
+//!   note says only "Assume 0 degrees = north"; they are written as azimuths,
+//!   clockwise from north (the surveying convention for directions from
+//!   north: common practice), in decimal degrees as stated in `Units` (the
+//!   schema's default would be radians);
 //! * `rot="ccw"` for a curve turning left along increasing chainage, `"cw"` right;
 //! * a spiral's straight end has radius `INF`; spirals are `spiType="clothoid"`;
 //!   a clothoid whose curvature changes sign is written as two spirals split
@@ -11,14 +14,29 @@
 //!
 //! Coordinates are in the local ground frame ([`LandXmlFrame::Local`](crate::export::landxml::LandXmlFrame::Local)), or in
 //! a projected grid ([`LandXmlFrame::Grid`](crate::export::landxml::LandXmlFrame::Grid), with a `CoordinateSystem`
-//! element carrying the EPSG code). In a grid, every point is the grid image
+//! element carrying the EPSG code; a feet grid in its own unit, `Imperial`
+//! `linearUnit="USSurveyFoot"` or `"foot"`, a metre grid in the survey's unit). In a grid, every point is the grid image
 //! of the exact local point; directions are grid bearings (from grid north),
 //! and lengths and radii are multiplied by the element's combined scale
 //! factor (grid scale × ellipsoid/ground), measured at the element's middle,
 //! so that a reader rebuilding the geometry from the start point, direction
 //! and lengths lands on the written end points to within the variation of
-//! the scale factor along the element. `staStart` is the survey chainage of
-//! each element's start (along the measured rail, not re-scaled).
+//! the scale factor along the element.
+//!
+//! **Stationing chains:** the alignment starts at the survey chainage of its
+//! first element, and every `staStart` is the previous one plus the previous
+//! element's written length; the alignment's `length` is the sum of the
+//! element lengths (in the grid, grid lengths). The survey chainage runs along
+//! the measured rail and so drifts from the centreline stationing; it is
+//! carried as a `StaEquation` at every element start where the two differ
+//! (`staInternal` the centreline station, `staAhead` the survey chainage,
+//! `staBack` the running station just before), and in each element's `desc`.
+//!
+//! A placed local-frame file states its origin for programs: the
+//! `CoordinateSystem` holds a `Start` point `0 0` with its WGS 84 `latitude`,
+//! `longitude` and `ellipsoidHeight`, and an `ogcWktCode` describing the
+//! frame (azimuthal equidistant about the origin, unit the ground metre; PROJ
+//! reading it reproduces the frame to 1e-9°, `tests/georef_checks.rs`).
 //!
 //! The document is built in memory and validated (finite numbers) before
 //! anything is written.
@@ -31,7 +49,7 @@ use std::io::Write;
 use std::time::SystemTime;
 
 use crate::geometry::{Alignment, Element, ElementKind, Pose};
-use crate::georef::{Crs, CrsError, Placement};
+use crate::georef::{Crs, CrsError, GridUnit, Placement};
 use crate::units::LengthUnit;
 
 use super::geojson::ElementProps;
@@ -156,6 +174,8 @@ struct Out<'a> {
     frame: LandXmlFrame<'a>,
     /// Output units per metre.
     per_m: f64,
+    /// Output units per grid unit (1 when the file is in the grid's unit).
+    grid_to_file: f64,
 }
 
 impl Out<'_> {
@@ -165,13 +185,13 @@ impl Out<'_> {
             return Err(LandXmlError::NotFinite(what.to_string()));
         }
         let (e, n) = match self.frame {
-            LandXmlFrame::Local { .. } => (x, y),
+            LandXmlFrame::Local { .. } => (x * self.per_m, y * self.per_m),
             LandXmlFrame::Grid { placement, crs } => {
                 let (lon, lat) = placement.to_lonlat(x, y);
-                crs.from_lonlat(lon, lat)?
+                let (e, n) = crs.from_lonlat(lon, lat)?;
+                (e * self.grid_to_file, n * self.grid_to_file)
             }
         };
-        let (e, n) = (e * self.per_m, n * self.per_m);
         if !(e.is_finite() && n.is_finite()) {
             return Err(LandXmlError::NotFinite(what.to_string()));
         }
@@ -213,15 +233,16 @@ fn radius_text(k: f64, scale: f64, per_m: f64) -> String {
 }
 
 /// Write one element (already split so that its curvature does not change
-/// sign) starting at local pose `p0` and survey chainage `sta` (output unit).
+/// sign) starting at local pose `p0`, at centreline station `sta` and survey
+/// chainage `survey` (both in the file's unit). Returns the length written.
 fn element_xml(
     buf: &mut String,
     out: &Out,
     e: &Element,
     p0: Pose,
-    sta: f64,
+    (sta, survey): (f64, f64),
     name: &str,
-) -> Result<(), LandXmlError> {
+) -> Result<f64, LandXmlError> {
     let what = format!("element {name}");
     let p1 = e.advance(p0, e.length);
     let mid = e.advance(p0, 0.5 * e.length);
@@ -232,6 +253,7 @@ fn element_xml(
     let (n1, e1) = out.point(p1.x, p1.y, &what)?;
     let len = fin(e.length * scale * out.per_m, &what)?;
     let sta = fin(sta, &what)?;
+    let desc = format!("survey chainage at start {:.5}", fin(survey, &what)?);
     let turn = e.turn();
     let rot = if turn > 0.0 || (turn == 0.0 && e.k_start + e.k_end > 0.0) {
         "ccw"
@@ -242,7 +264,7 @@ fn element_xml(
         ElementKind::Straight => {
             let _ = writeln!(
                 buf,
-                "        <Line name=\"{name}\" length=\"{len:.5}\" staStart=\"{sta:.5}\" dir=\"{dir0:.9}\">\n          <Start>{}</Start>\n          <End>{}</End>\n        </Line>",
+                "        <Line name=\"{name}\" desc=\"{desc}\" length=\"{len:.5}\" staStart=\"{sta:.5}\" dir=\"{dir0:.9}\">\n          <Start>{}</Start>\n          <End>{}</End>\n        </Line>",
                 pt(n0, e0),
                 pt(n1, e1)
             );
@@ -253,7 +275,7 @@ fn element_xml(
             let (nc, ec) = out.point(cx, cy, &what)?;
             let _ = writeln!(
                 buf,
-                "        <Curve name=\"{name}\" rot=\"{rot}\" crvType=\"arc\" length=\"{len:.5}\" radius=\"{}\" staStart=\"{sta:.5}\" dirStart=\"{dir0:.9}\" dirEnd=\"{dir1:.9}\" delta=\"{:.9}\">\n          <Start>{}</Start>\n          <Center>{}</Center>\n          <End>{}</End>\n        </Curve>",
+                "        <Curve name=\"{name}\" desc=\"{desc}\" rot=\"{rot}\" crvType=\"arc\" length=\"{len:.5}\" radius=\"{}\" staStart=\"{sta:.5}\" dirStart=\"{dir0:.9}\" dirEnd=\"{dir1:.9}\" delta=\"{:.9}\">\n          <Start>{}</Start>\n          <Center>{}</Center>\n          <End>{}</End>\n        </Curve>",
                 radius_text(k, scale, out.per_m),
                 turn.abs().to_degrees(),
                 pt(n0, e0),
@@ -287,7 +309,7 @@ fn element_xml(
             };
             let _ = writeln!(
                 buf,
-                "        <Spiral name=\"{name}\" spiType=\"clothoid\" rot=\"{rot}\" length=\"{len:.5}\" radiusStart=\"{}\" radiusEnd=\"{}\" staStart=\"{sta:.5}\" dirStart=\"{dir0:.9}\" dirEnd=\"{dir1:.9}\" theta=\"{:.9}\"{constant}>\n          <Start>{}</Start>\n          <PI>{}</PI>\n          <End>{}</End>\n        </Spiral>",
+                "        <Spiral name=\"{name}\" desc=\"{desc}\" spiType=\"clothoid\" rot=\"{rot}\" length=\"{len:.5}\" radiusStart=\"{}\" radiusEnd=\"{}\" staStart=\"{sta:.5}\" dirStart=\"{dir0:.9}\" dirEnd=\"{dir1:.9}\" theta=\"{:.9}\"{constant}>\n          <Start>{}</Start>\n          <PI>{}</PI>\n          <End>{}</End>\n        </Spiral>",
                 radius_text(e.k_start, scale, out.per_m),
                 radius_text(e.k_end, scale, out.per_m),
                 turn.abs().to_degrees(),
@@ -297,7 +319,144 @@ fn element_xml(
             );
         }
     }
-    Ok(())
+    Ok(len)
+}
+
+/// The file's length unit: a feet grid's own unit; otherwise the survey's
+/// (as in `alignment.ifc`, so that the two files agree number for number).
+fn file_unit(frame: &LandXmlFrame, unit: LengthUnit) -> GridUnit {
+    match frame {
+        LandXmlFrame::Grid { crs, .. } if crs.unit() != GridUnit::Metre => crs.unit(),
+        _ => match unit {
+            LengthUnit::Metre => GridUnit::Metre,
+            LengthUnit::Foot => GridUnit::Foot,
+        },
+    }
+}
+
+fn units_xml(buf: &mut String, unit: GridUnit) {
+    let _ = writeln!(buf, "  <Units>");
+    let _ = match unit {
+        GridUnit::Metre => writeln!(
+            buf,
+            "    <Metric areaUnit=\"squareMeter\" linearUnit=\"meter\" volumeUnit=\"cubicMeter\" temperatureUnit=\"celsius\" pressureUnit=\"HPA\" angularUnit=\"decimal degrees\" directionUnit=\"decimal degrees\"/>"
+        ),
+        GridUnit::Foot | GridUnit::UsSurveyFoot => writeln!(
+            buf,
+            "    <Imperial areaUnit=\"squareFoot\" linearUnit=\"{}\" volumeUnit=\"cubicFeet\" temperatureUnit=\"fahrenheit\" pressureUnit=\"inHG\" angularUnit=\"decimal degrees\" directionUnit=\"decimal degrees\"/>",
+            if unit == GridUnit::Foot {
+                "foot"
+            } else {
+                "USSurveyFoot"
+            }
+        ),
+    };
+    let _ = writeln!(buf, "  </Units>");
+}
+
+/// The azimuthal equidistant projection about `p`'s origin as OGC WKT 1,
+/// with the local frame's ground scale as the unit (one local metre is
+/// R/(R + h) metres on the ellipsoid): a GIS or PROJ reading it places the
+/// file's local coordinates exactly as this program does.
+fn local_wkt(p: &Placement) -> String {
+    let o = p.origin();
+    let unit = p.ellipsoid_per_ground();
+    format!(
+        "PROJCS[\"chordline local ground frame\",GEOGCS[\"WGS 84\",DATUM[\"WGS_1984\",SPHEROID[\"WGS 84\",6378137,298.257223563]],PRIMEM[\"Greenwich\",0],UNIT[\"degree\",0.0174532925199433]],PROJECTION[\"Azimuthal_Equidistant\"],PARAMETER[\"latitude_of_center\",{:.10}],PARAMETER[\"longitude_of_center\",{:.10}],PARAMETER[\"false_easting\",0],PARAMETER[\"false_northing\",0],UNIT[\"ground metre\",{unit:.15}]]",
+        o.lat, o.lon
+    )
+}
+
+fn coordinate_system_xml(buf: &mut String, frame: &LandXmlFrame) {
+    match frame {
+        LandXmlFrame::Grid { crs, placement } => {
+            let _ = writeln!(
+                buf,
+                "  <CoordinateSystem name=\"EPSG:{0}\" epsgCode=\"{0}\" projectedCoordinateSystemName=\"{1}\" desc=\"{2}\"/>",
+                crs.code(),
+                esc(crs.name()),
+                esc(&format!(
+                    "grid coordinates in {}; directions from grid north, clockwise; lengths and radii scaled by each element's combined scale factor at its middle (grid scale x ellipsoid/ground, track height {} m above the ellipsoid); stations run along the centreline in grid lengths, the survey chainage (along the measured rail) is in each element's desc and in the station equations",
+                    crs.unit().name(),
+                    placement.height()
+                ))
+            );
+        }
+        LandXmlFrame::Local { placement: Some(p) } => {
+            let o = p.origin();
+            let _ = writeln!(
+                buf,
+                "  <CoordinateSystem name=\"local\" localCoordinateSystemName=\"chordline local ground frame\" horizontalDatum=\"WGS 84\" ellipsoidName=\"WGS 84\" ogcWktCode=\"{}\" desc=\"{}\">\n    <Start name=\"origin\" latitude=\"{:.10}\" longitude=\"{:.10}\" ellipsoidHeight=\"{}\" desc=\"the point 0 0 of the local frame (WGS 84)\">0 0</Start>\n  </CoordinateSystem>",
+                esc(&local_wkt(p)),
+                esc(&format!(
+                    "local ground frame: x east, y north (true north at the origin), azimuthal equidistant about WGS 84 longitude,latitude {o} (the Start below), ground metres at {} m above the ellipsoid; stations run along the centreline, the survey chainage (along the measured rail) is in each element's desc and in the station equations",
+                    p.height()
+                )),
+                o.lat,
+                o.lon,
+                p.height()
+            );
+        }
+        LandXmlFrame::Local { placement: None } => {
+            let _ = writeln!(
+                buf,
+                "  <CoordinateSystem name=\"local\" localCoordinateSystemName=\"chordline local ground frame\" desc=\"local ground frame of the survey (not placed on the Earth): x east, y north of an arbitrary origin; stations run along the centreline, the survey chainage (along the measured rail) is in each element's desc and in the station equations\"/>"
+            );
+        }
+    }
+}
+
+/// The elements (`CoordGeom` content) and the station equations, with the
+/// total length written.
+fn geometry_xml(
+    out: &Out,
+    alignment: &Alignment,
+    props: &[ElementProps],
+    sta0: f64,
+) -> Result<(String, String, f64), LandXmlError> {
+    let per_m = out.per_m;
+    let (mut geom, mut eqs) = (String::new(), String::new());
+    let mut sta = sta0;
+    // The last station equation (internal, ahead), or the start.
+    let mut last = (sta0, sta0);
+    for (i, (e, pr)) in alignment.elements().iter().zip(props).enumerate() {
+        let p0 = alignment.element_pose(i);
+        let survey = pr.start_chainage * per_m;
+        if i > 0 {
+            let back = last.1 + (sta - last.0);
+            if (survey - back).abs() >= 5e-6 {
+                let _ = writeln!(
+                    eqs,
+                    "      <StaEquation staInternal=\"{sta:.5}\" staBack=\"{back:.5}\" staAhead=\"{survey:.5}\" staIncrement=\"increasing\" desc=\"survey chainage at the start of element {}\"/>",
+                    i + 1
+                );
+                last = (sta, survey);
+            }
+        }
+        let name = format!("{}", i + 1);
+        let c = e.curvature_rate();
+        let flips = e.kind == ElementKind::Transition
+            && e.k_start != 0.0
+            && e.k_end != 0.0
+            && e.k_start.signum() != e.k_end.signum()
+            && c != 0.0;
+        if flips {
+            // Split at the inflection point u0 where the curvature is zero;
+            // survey chainage of the split: proportional within the element.
+            let u0 = -e.k_start / c;
+            let a = Element::transition(u0, e.k_start, 0.0);
+            let b = Element::transition(e.length - u0, 0.0, e.k_end);
+            let frac = u0 / e.length;
+            let survey_b =
+                (pr.start_chainage + frac * (pr.end_chainage - pr.start_chainage)) * per_m;
+            sta += element_xml(&mut geom, out, &a, p0, (sta, survey), &format!("{name}a"))?;
+            let pb = a.advance(p0, u0);
+            sta += element_xml(&mut geom, out, &b, pb, (sta, survey_b), &format!("{name}b"))?;
+        } else {
+            sta += element_xml(&mut geom, out, e, p0, (sta, survey), &name)?;
+        }
+    }
+    Ok((geom, eqs, sta - sta0))
 }
 
 /// Build the LandXML document as text (see the module documentation).
@@ -323,8 +482,20 @@ pub fn build_landxml(
             elements: els.len(),
         });
     }
-    let per_m = 1.0 / opts.unit.metres();
-    let out = Out { frame, per_m };
+    let unit = file_unit(&frame, opts.unit);
+    let per_m = 1.0 / unit.metres();
+    let grid_to_file = match &frame {
+        LandXmlFrame::Grid { crs, .. } if crs.unit() != unit => crs.unit().metres() * per_m,
+        _ => 1.0,
+    };
+    let out = Out {
+        frame,
+        per_m,
+        grid_to_file,
+    };
+    let sta0 = fin(props[0].start_chainage * per_m, "start chainage")?;
+    let (geom, eqs, total) = geometry_xml(&out, alignment, props, sta0)?;
+    let total = fin(total, "alignment length")?;
     let (date, time) = date_time(opts.created);
     let mut buf = String::new();
     let _ = writeln!(buf, "<?xml version=\"1.0\" encoding=\"UTF-8\"?>");
@@ -332,95 +503,23 @@ pub fn build_landxml(
         buf,
         "<LandXML xmlns=\"http://www.landxml.org/schema/LandXML-1.2\" version=\"1.2\" date=\"{date}\" time=\"{time}\">"
     );
-    let _ = writeln!(buf, "  <Units>");
-    match opts.unit {
-        LengthUnit::Metre => {
-            let _ = writeln!(
-                buf,
-                "    <Metric areaUnit=\"squareMeter\" linearUnit=\"meter\" volumeUnit=\"cubicMeter\" temperatureUnit=\"celsius\" pressureUnit=\"HPA\" angularUnit=\"decimal degrees\" directionUnit=\"decimal degrees\"/>"
-            );
-        }
-        LengthUnit::Foot => {
-            let _ = writeln!(
-                buf,
-                "    <Imperial areaUnit=\"squareFoot\" linearUnit=\"foot\" volumeUnit=\"cubicFeet\" temperatureUnit=\"fahrenheit\" pressureUnit=\"inHG\" angularUnit=\"decimal degrees\" directionUnit=\"decimal degrees\"/>"
-            );
-        }
-    }
-    let _ = writeln!(buf, "  </Units>");
-    match frame {
-        LandXmlFrame::Grid { crs, placement } => {
-            let _ = writeln!(
-                buf,
-                "  <CoordinateSystem name=\"EPSG:{0}\" epsgCode=\"{0}\" desc=\"{1}\"/>",
-                crs.code(),
-                esc(&format!(
-                    "grid coordinates; directions from grid north; lengths and radii scaled by each element's combined scale factor at its middle (grid scale x ellipsoid/ground, track height {} m above the ellipsoid); staStart is survey chainage along the measured rail",
-                    placement.height()
-                ))
-            );
-        }
-        LandXmlFrame::Local { placement } => {
-            let d = match placement {
-                Some(p) => format!(
-                    "local ground frame: x east, y north (true north at the origin), azimuthal equidistant about WGS 84 longitude,latitude {}; staStart is survey chainage along the measured rail",
-                    p.origin()
-                ),
-                None => "local ground frame of the survey (not placed on the Earth): x east, y north of an arbitrary origin; staStart is survey chainage along the measured rail".to_string(),
-            };
-            let _ = writeln!(
-                buf,
-                "  <CoordinateSystem name=\"local\" localCoordinateSystemName=\"chordline local ground frame\" desc=\"{}\"/>",
-                esc(&d)
-            );
-        }
-    }
+    units_xml(&mut buf, unit);
+    coordinate_system_xml(&mut buf, &frame);
     let _ = writeln!(
         buf,
         "  <Application name=\"chordline\" version=\"{}\" desc=\"as-built alignment fitted to versine survey readings\"/>",
         env!("CARGO_PKG_VERSION")
     );
-    let total = fin(alignment.length() * per_m, "alignment length")?;
-    let sta0 = fin(props[0].start_chainage * per_m, "start chainage")?;
     let _ = writeln!(buf, "  <Alignments>");
     let _ = writeln!(
         buf,
-        "    <Alignment name=\"{}\" length=\"{total:.5}\" staStart=\"{sta0:.5}\" desc=\"fitted as-built centreline\">",
+        "    <Alignment name=\"{}\" length=\"{total:.5}\" staStart=\"{sta0:.5}\" desc=\"fitted as-built centreline; stations along the centreline from the survey chainage of its start\">",
         esc(&opts.name)
     );
     let _ = writeln!(buf, "      <CoordGeom>");
-    for (i, (e, pr)) in els.iter().zip(props).enumerate() {
-        let p0 = alignment.element_pose(i);
-        let sta = pr.start_chainage * per_m;
-        let name = format!("{}", i + 1);
-        let c = e.curvature_rate();
-        let flips = e.kind == ElementKind::Transition
-            && e.k_start != 0.0
-            && e.k_end != 0.0
-            && e.k_start.signum() != e.k_end.signum()
-            && c != 0.0;
-        if flips {
-            // Split at the inflection point u0 where the curvature is zero.
-            let u0 = -e.k_start / c;
-            let a = Element::transition(u0, e.k_start, 0.0);
-            let b = Element::transition(e.length - u0, 0.0, e.k_end);
-            // Survey chainage of the split: proportional within the element.
-            let frac = u0 / e.length;
-            let sta_b = (pr.start_chainage + frac * (pr.end_chainage - pr.start_chainage)) * per_m;
-            element_xml(&mut buf, &out, &a, p0, sta, &format!("{name}a"))?;
-            element_xml(
-                &mut buf,
-                &out,
-                &b,
-                a.advance(p0, u0),
-                sta_b,
-                &format!("{name}b"),
-            )?;
-        } else {
-            element_xml(&mut buf, &out, e, p0, sta, &name)?;
-        }
-    }
+    buf.push_str(&geom);
     let _ = writeln!(buf, "      </CoordGeom>");
+    buf.push_str(&eqs);
     let _ = writeln!(buf, "    </Alignment>");
     let _ = writeln!(buf, "  </Alignments>");
     let _ = writeln!(buf, "</LandXML>");

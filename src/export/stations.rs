@@ -19,6 +19,13 @@
 //! | `design_easting_m`, `design_northing_m` | m | 4 | with a design: its centreline position |
 //! | `slew_mm`, `slew_sd_mm` | mm | 2 (in: 3) | with slews: lateral move onto the design, positive to the left, and its sd |
 //! | `longitude_deg`, `latitude_deg` | ° | 8 | placed surveys (WGS 84); `bearing_deg` is then from true north |
+//! | `local_easting_m`, `local_northing_m` | m | 4 | with `--crs` only: the centreline in the local ground frame |
+//!
+//! With `--crs`, every `easting`/`northing` column (centreline, rail,
+//! design) holds **grid coordinates** of that system, and its suffix is the
+//! grid's unit (`_m`, `_usft` for US survey feet, `_ft` for international
+//! feet); the local frame, which those columns hold otherwise, moves to
+//! `local_easting`, `local_northing` (survey unit) at the end of the row.
 //!
 //! Numbers have fixed decimals, so the same plan always gives the same bytes.
 //! A value that is not finite is refused (an error), never written as NaN.
@@ -132,9 +139,25 @@ pub struct SlewAtStation {
     pub sd: f64,
 }
 
+/// Grid coordinates (grid units) at every station, for a survey placed with `--crs`.
+#[derive(Debug, Clone, Copy)]
+pub struct GridColumns<'a> {
+    /// The grid's unit (column suffix).
+    pub unit: crate::georef::GridUnit,
+    /// Centreline (easting, northing).
+    pub centre: &'a [(f64, f64)],
+    /// Running edge of the measured rail (easting, northing).
+    pub rail: &'a [(f64, f64)],
+    /// Design centreline (easting, northing), with a design.
+    pub design: Option<&'a [(f64, f64)]>,
+}
+
 /// Optional column groups of `stations.csv`, one entry per station each.
 #[derive(Debug, Clone, Copy, Default)]
 pub struct StationExtras<'a> {
+    /// With `--crs`: grid coordinates for the `easting`/`northing` columns
+    /// (the local frame then goes to `local_easting`, `local_northing`).
+    pub grid: Option<GridColumns<'a>>,
     /// The fitted design: `design_versine`, `residual`, `design_easting`, `design_northing`.
     pub design: Option<&'a [DesignAtStation]>,
     /// A placed survey: `bearing_deg` becomes the true bearing, and
@@ -159,6 +182,12 @@ pub fn write_stations_with(
         ("design", extras.design.map(<[_]>::len)),
         ("geographic", extras.geo.map(<[_]>::len)),
         ("slew", extras.slews.map(<[_]>::len)),
+        ("grid", extras.grid.map(|g| g.centre.len())),
+        ("grid rail", extras.grid.map(|g| g.rail.len())),
+        (
+            "grid design",
+            extras.grid.and_then(|g| g.design.map(<[_]>::len)),
+        ),
     ] {
         if let Some(len) = len
             && len != n
@@ -171,31 +200,13 @@ pub fn write_stations_with(
     }
     let design = extras.design;
     let mut w = io::BufWriter::new(w);
-    let l = unit.suffix();
     let vu = unit.versine_unit();
     let v_dp = if vu == VersineUnit::Inch { 3 } else { 2 };
     let imperial = unit == LengthUnit::Foot;
-    let mut head = format!(
-        "chainage_{l},versine_{v},curvature_1_per_km,bearing_deg,easting_{l},northing_{l},position_sd_{l},heading_sd_deg,side,rail_easting_{l},rail_northing_{l}",
-        v = vu.suffix()
-    );
-    if imperial {
-        head.push_str(",degree_of_curve");
-    }
-    if design.is_some() {
-        head.push_str(&format!(
-            ",design_versine_{v},residual_{v},design_easting_{l},design_northing_{l}",
-            v = vu.suffix()
-        ));
-    }
-    if extras.slews.is_some() {
-        head.push_str(&format!(",slew_{v},slew_sd_{v}", v = vu.suffix()));
-    }
-    if extras.geo.is_some() {
-        head.push_str(",longitude_deg,latitude_deg");
-    }
-    head.push('\n');
-    w.write_all(head.as_bytes())?;
+    w.write_all(header(unit, extras).as_bytes())?;
+    let g_unit = extras.grid.map(|g| g.unit);
+    // Coordinates in the output unit: the grid's (already in it) or the survey's.
+    let xy = |local: f64, grid: Option<f64>| grid.unwrap_or_else(|| unit.from_m(local));
     let mut row = String::with_capacity(256);
     for (i, s) in plan.stations.iter().enumerate() {
         row.clear();
@@ -219,9 +230,10 @@ pub fn write_stations_with(
             b
         };
         num(&mut row, b, 6, "bearing", c)?;
+        let gc = extras.grid.map(|g| g.centre[i]);
         for (val, col, dp) in [
-            (unit.from_m(s.x), "easting", 4),
-            (unit.from_m(s.y), "northing", 4),
+            (xy(s.x, gc.map(|g| g.0)), "easting", 4),
+            (xy(s.y, gc.map(|g| g.1)), "northing", 4),
             (unit.from_m(s.position_sd), "position_sd", 4),
             (s.heading_sd.to_degrees(), "heading_sd", 6),
         ] {
@@ -230,9 +242,10 @@ pub fn write_stations_with(
         }
         row.push(',');
         row.push_str(s.rail.name());
+        let gr = extras.grid.map(|g| g.rail[i]);
         for (val, col) in [
-            (unit.from_m(s.rail_x), "rail_easting"),
-            (unit.from_m(s.rail_y), "rail_northing"),
+            (xy(s.rail_x, gr.map(|g| g.0)), "rail_easting"),
+            (xy(s.rail_y, gr.map(|g| g.1)), "rail_northing"),
         ] {
             row.push(',');
             num(&mut row, val, 4, col, c)?;
@@ -263,9 +276,10 @@ pub fn write_stations_with(
             if let Some(r) = d.residual {
                 num(&mut row, vu.from_m(r), v_dp, "residual", c)?;
             }
+            let gd = extras.grid.and_then(|g| g.design).map(|g| g[i]);
             for (val, col) in [
-                (unit.from_m(d.x), "design_easting"),
-                (unit.from_m(d.y), "design_northing"),
+                (xy(d.x, gd.map(|g| g.0)), "design_easting"),
+                (xy(d.y, gd.map(|g| g.1)), "design_northing"),
             ] {
                 row.push(',');
                 num(&mut row, val, 4, col, c)?;
@@ -283,8 +297,114 @@ pub fn write_stations_with(
                 num(&mut row, val, 8, col, c)?;
             }
         }
+        if g_unit.is_some() {
+            for (val, col) in [
+                (unit.from_m(s.x), "local_easting"),
+                (unit.from_m(s.y), "local_northing"),
+            ] {
+                row.push(',');
+                num(&mut row, val, 4, col, c)?;
+            }
+        }
         row.push('\n');
         w.write_all(row.as_bytes())?;
     }
     w.flush()
+}
+
+/// The header line (with its newline) for the column groups present.
+fn header(unit: LengthUnit, extras: &StationExtras) -> String {
+    let l = unit.suffix();
+    let v = unit.versine_unit().suffix();
+    let g = extras.grid.map_or(l, |g| g.unit.suffix());
+    let mut head = format!(
+        "chainage_{l},versine_{v},curvature_1_per_km,bearing_deg,easting_{g},northing_{g},position_sd_{l},heading_sd_deg,side,rail_easting_{g},rail_northing_{g}"
+    );
+    if unit == LengthUnit::Foot {
+        head.push_str(",degree_of_curve");
+    }
+    if extras.design.is_some() {
+        head.push_str(&format!(
+            ",design_versine_{v},residual_{v},design_easting_{g},design_northing_{g}"
+        ));
+    }
+    if extras.slews.is_some() {
+        head.push_str(&format!(",slew_{v},slew_sd_{v}"));
+    }
+    if extras.geo.is_some() {
+        head.push_str(",longitude_deg,latitude_deg");
+    }
+    if extras.grid.is_some() {
+        head.push_str(&format!(",local_easting_{l},local_northing_{l}"));
+    }
+    head.push('\n');
+    head
+}
+
+/// Grid coordinates at every station, owned (see [`GridColumns`]).
+#[derive(Debug, Clone, PartialEq)]
+pub struct GridCoords {
+    /// The grid's unit.
+    pub unit: crate::georef::GridUnit,
+    /// Centreline.
+    pub centre: Vec<(f64, f64)>,
+    /// Measured rail.
+    pub rail: Vec<(f64, f64)>,
+    /// Design centreline, with a design.
+    pub design: Option<Vec<(f64, f64)>>,
+}
+
+impl GridCoords {
+    /// Grid coordinates of a survey placed with `--crs` (`None` without a
+    /// grid), each centreline point checked against the grid's area of use.
+    ///
+    /// # Errors
+    /// [`crate::georef::CrsError`] for a station outside the area of use
+    /// (unless `--allow-outside-area`) or outside the projection.
+    pub fn of(
+        g: &crate::georef::Georef,
+        plan: &Plan,
+        design: Option<&[DesignAtStation]>,
+    ) -> Result<Option<GridCoords>, crate::georef::CrsError> {
+        let Some(crs) = &g.crs else { return Ok(None) };
+        let to_grid = |x: f64, y: f64| {
+            let (lon, lat) = g.placement.to_lonlat(x, y);
+            crs.from_lonlat(lon, lat)
+        };
+        let mut centre = Vec::with_capacity(plan.stations.len());
+        let mut rail = Vec::with_capacity(plan.stations.len());
+        for s in &plan.stations {
+            let (lon, lat) = g.placement.to_lonlat(s.x, s.y);
+            g.check_in_area(
+                &format!("the station at chainage {:.3} m", s.chainage),
+                lon,
+                lat,
+            )?;
+            centre.push(crs.from_lonlat(lon, lat)?);
+            rail.push(to_grid(s.rail_x, s.rail_y)?);
+        }
+        let design = design
+            .map(|d| {
+                d.iter()
+                    .map(|p| to_grid(p.x, p.y))
+                    .collect::<Result<Vec<_>, _>>()
+            })
+            .transpose()?;
+        Ok(Some(GridCoords {
+            unit: crs.unit(),
+            centre,
+            rail,
+            design,
+        }))
+    }
+
+    /// As the borrowed columns of [`StationExtras::grid`].
+    pub fn columns(&self) -> GridColumns<'_> {
+        GridColumns {
+            unit: self.unit,
+            centre: &self.centre,
+            rail: &self.rail,
+            design: self.design.as_deref(),
+        }
+    }
 }

@@ -2,7 +2,10 @@
 //!
 //! * [`Placement`]: the local ground frame of the integrator as an azimuthal
 //!   equidistant projection about an origin on WGS 84 (geodesics after Karney 2013).
-//! * [`Crs`]: projected grids by EPSG code (UTM, national grids) via `proj4rs`.
+//! * [`Crs`]: projected grids by EPSG code (UTM, national grids, US State
+//!   Plane in metres and feet) via `proj4rs`, with their areas of use and
+//!   PROJ's default datum shifts; [`check_grid_point`] and
+//!   [`check_lonlat_point`] check points against the area of use.
 //! * [`read_controls`], [`ControlSet`]: control-point files, their checks,
 //!   conversion to [`crate::integrate::PositionObs`], and judging the residuals.
 //!
@@ -22,15 +25,17 @@
 //! ## Reference
 //! C.F.F. Karney, "Algorithms for geodesics", J. Geodesy 87(1):43–55, 2013.
 
+mod area;
 mod control;
 mod crs;
 mod place;
 mod setup;
 
+pub use area::{AREA_MARGIN_DEG, check_grid_point, check_lonlat_point};
 pub use control::{
     ControlCheck, ControlError, ControlPoint, ControlSet, DEFAULT_SD, FLAG_LIMIT, LooResult,
     TIGHT_RADIUS, leave_one_out, position_at, read_controls,
 };
-pub use crs::{Crs, CrsError, TESTED_GRIDS};
+pub use crs::{AreaOfUse, Crs, CrsError, GridUnit, TESTED_GRIDS, supported_codes};
 pub use place::{LonLat, PlaceError, Placement, parse_bearing, parse_grid_point};
 pub use setup::{Georef, GeorefArgs, GeorefError, prepare};

@@ -63,7 +63,7 @@ pub enum PlaceError {
     Bearing(String),
     /// Not two numbers (easting, northing) separated by a comma.
     #[error(
-        "'{0}' is not an easting,northing pair: write two numbers in metres separated by a comma, easting first, e.g. 512345.6,5376543.2 (and name the grid with --crs EPSG:<code>)"
+        "'{0}' is not an easting,northing pair: write two numbers in the grid's unit (metres, or feet for a feet grid) separated by a comma, easting first, e.g. 512345.6,5376543.2 (and name the grid with --crs EPSG:<code>)"
     )]
     GridFormat(String),
     /// A height that is not a finite number of metres within reason.
@@ -144,7 +144,7 @@ impl FromStr for LonLat {
 }
 
 /// Parse a grid start point `"512345.6,5376543.2"` (easting, northing in
-/// metres, easting first) for `--start-grid`, used with `--crs`; convert it
+/// the grid's unit, easting first) for `--start-grid`, used with `--crs`; convert it
 /// with [`crate::georef::Crs::to_lonlat`] and [`LonLat::new`].
 ///
 /// # Errors
@@ -223,6 +223,12 @@ impl Placement {
     /// Height of the track above the ellipsoid assumed, metres.
     pub fn height(&self) -> f64 {
         self.height
+    }
+
+    /// Ellipsoid metres per ground metre of the local frame, `R/(R + h)`
+    /// (1 at height 0).
+    pub fn ellipsoid_per_ground(&self) -> f64 {
+        self.k
     }
 
     /// Local ground (x east, y north) in metres → WGS 84 (longitude, latitude)

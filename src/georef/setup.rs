@@ -9,6 +9,8 @@ use crate::geometry::Pose;
 use crate::integrate::{PositionObs, PositionResidual};
 use crate::survey::Survey;
 
+use super::area::{check_grid_point, check_lonlat_point};
+use super::control::ControlPoint;
 use super::control::{ControlCheck, ControlError, ControlSet, LooResult, read_controls};
 use super::crs::{Crs, CrsError};
 use super::place::{LonLat, PlaceError, Placement, parse_bearing, parse_grid_point};
@@ -29,6 +31,9 @@ pub struct GeorefArgs {
     pub control: Option<PathBuf>,
     /// `--height M`: height of the track above the WGS 84 ellipsoid, metres (default 0).
     pub height: Option<f64>,
+    /// `--allow-outside-area`: accept points outside the `--crs` grid's area
+    /// of use (they are refused by default, naming the likely mistake).
+    pub allow_outside_area: bool,
 }
 
 /// Everything georeferencing gives the rest of the pipeline.
@@ -44,6 +49,8 @@ pub struct Georef {
     pub position_obs: Vec<PositionObs>,
     /// Pose of the first station: `IntegrateOptions::start`.
     pub start: Pose,
+    /// Points outside the grid's area of use are accepted (`--allow-outside-area`).
+    pub allow_outside_area: bool,
 }
 
 /// Why the georeferencing options cannot be used.
@@ -81,6 +88,18 @@ impl Georef {
                 c.from_lonlat(lon, lat).map(Some)
             }
             None => Ok(None),
+        }
+    }
+
+    /// Check a WGS 84 point of the result (e.g. a station) against the
+    /// `--crs` grid's area of use, unless that was switched off.
+    ///
+    /// # Errors
+    /// [`CrsError::OutsideArea`] naming the point and the likely mistake.
+    pub fn check_in_area(&self, what: &str, lon: f64, lat: f64) -> Result<(), CrsError> {
+        match &self.crs {
+            Some(c) if !self.allow_outside_area => check_lonlat_point(c, what, lon, lat, false),
+            _ => Ok(()),
         }
     }
 
@@ -136,11 +155,7 @@ pub fn prepare(
 ) -> Result<(Option<Georef>, Vec<Diagnostic>), GeorefError> {
     let mut diags = Vec::new();
     let crs = args.crs.as_deref().map(str::parse::<Crs>).transpose()?;
-    if let Some(c) = &crs
-        && let Some(n) = c.datum_note()
-    {
-        diags.push(Diagnostic::note(n));
-    }
+    let check = crs.as_ref().filter(|_| !args.allow_outside_area);
     let height = args.height.unwrap_or(0.0);
     let bearing = args
         .start_bearing
@@ -167,7 +182,13 @@ pub fn prepare(
         })?;
         let (set, d) = read_controls(std::io::BufReader::new(file), &name, crs.as_ref())?;
         diags.extend(d);
+        if let Some(c) = check {
+            set.points
+                .iter()
+                .try_for_each(|p| check_control(c, &set.file, p))?;
+        }
         let placement = set.placement(height)?;
+        diags.extend(datum_note(crs.as_ref(), &placement));
         let (obs, d) = set.to_position_obs(&placement, survey)?;
         diags.extend(d);
         let start = set.start_guess(&obs, first_chainage, bearing)?;
@@ -178,6 +199,7 @@ pub fn prepare(
                 controls: Some(set),
                 position_obs: obs,
                 start,
+                allow_outside_area: args.allow_outside_area,
             }),
             diags,
         ));
@@ -192,7 +214,13 @@ pub fn prepare(
         return Ok((None, diags));
     }
     let origin = match (&args.start_lonlat, &args.start_grid) {
-        (Some(t), _) => t.parse::<LonLat>()?,
+        (Some(t), _) => {
+            let p = t.parse::<LonLat>()?;
+            if let Some(c) = check {
+                check_lonlat_point(c, "--start-lonlat", p.lon, p.lat, true)?;
+            }
+            p
+        }
         (None, Some(t)) => {
             let Some(c) = &crs else {
                 return Err(opts(
@@ -200,6 +228,9 @@ pub fn prepare(
                 ));
             };
             let (e, n) = parse_grid_point(t)?;
+            if !args.allow_outside_area {
+                check_grid_point(c, "--start-grid", e, n)?;
+            }
             let (lon, lat) = c.to_lonlat(e, n)?;
             LonLat::new(lon, lat)?
         }
@@ -211,6 +242,7 @@ pub fn prepare(
         ));
     };
     let placement = Placement::new(origin, height)?;
+    diags.extend(datum_note(crs.as_ref(), &placement));
     Ok((
         Some(Georef {
             placement,
@@ -218,7 +250,25 @@ pub fn prepare(
             controls: None,
             position_obs: Vec::new(),
             start: Placement::start_pose(bearing),
+            allow_outside_area: args.allow_outside_area,
         }),
         diags,
     ))
+}
+
+/// The datum note of the grid at the survey's origin (see [`Crs::datum_note_at`]).
+fn datum_note(crs: Option<&Crs>, placement: &Placement) -> Option<Diagnostic> {
+    let o = placement.origin();
+    crs.and_then(|c| c.datum_note_at(o.lon, o.lat))
+        .map(Diagnostic::note)
+}
+
+/// A control point against the grid's area of use: grid figures as given,
+/// or its longitude/latitude.
+fn check_control(crs: &Crs, file: &str, p: &ControlPoint) -> Result<(), CrsError> {
+    let what = format!("{file}:{}: control point '{}'", p.line, p.id);
+    match p.grid {
+        Some((e, n)) => check_grid_point(crs, &what, e, n),
+        None => check_lonlat_point(crs, &what, p.lonlat.lon, p.lonlat.lat, true),
+    }
 }

@@ -195,9 +195,13 @@ impl Frame<'_> {
         }
         let (e, n) = match self.frame {
             LandXmlFrame::Local { .. } => (x, y),
+            // The grid's own unit (feet for a feet grid) to metres: the
+            // map conversion declares metres (IfcProjectedCRS.MapUnit).
             LandXmlFrame::Grid { placement, crs } => {
                 let (lon, lat) = placement.to_lonlat(x, y);
-                crs.from_lonlat(lon, lat)?
+                let (e, n) = crs.from_lonlat(lon, lat)?;
+                let m = crs.unit().metres();
+                (e * m, n * m)
             }
         };
         let (e, n) = (self.unit.from_m(e), self.unit.from_m(n));
