@@ -407,14 +407,14 @@ pub fn run(
             write_elements_csv_placed(f, unit, placed.as_ref(), w)
         })?;
     }
+    if let Some(s) = &results.slews {
+        crate::export::slews::write_slew_files(&mut dir, s, &results.survey)?;
+    }
     if let Some(f) = results.fit.as_ref().filter(|f| !f.outliers.is_empty()) {
         let vunit = results.survey.versine_unit;
         dir.write_file("outliers.csv", |w| {
             crate::export::outliers::write_outliers_csv(w, &f.outliers, unit, vunit)
         })?;
-    }
-    if let Some(s) = &results.slews {
-        crate::export::slews::write_slew_files(&mut dir, s, &results.survey)?;
     }
     if let Some(a) = &results.advice {
         dir.write_file("advice.csv", |w| {
