@@ -504,6 +504,11 @@ pub fn print_outcome(o: &Outcome, quiet: bool) {
             o.results.survey.chainage_unit,
         ));
     }
+    print_results(text, o);
+}
+
+/// Add where the files went to a summary `text` and print it on stdout.
+fn print_results(mut text: String, o: &Outcome) {
     text.push_str(&format!(
         "wrote    {} in {}\n",
         o.files.join(", "),
@@ -539,15 +544,7 @@ pub fn print_short(o: &Outcome, quiet: bool) {
     if !quiet {
         print_diagnostics(&o.results.diagnostics, " (report.html lists them all)");
     }
-    let mut text = chordline::report::summary_short(&o.results);
-    text.push_str(&format!(
-        "wrote    {} in {}\n",
-        o.files.join(", "),
-        o.folder.display()
-    ));
-    let mut out = std::io::stdout().lock();
-    // A closed pipe is not a failure of the run: the results are in the folder.
-    let _ = out.write_all(text.as_bytes()).and_then(|()| out.flush());
+    print_results(chordline::report::summary_short(&o.results), o);
 }
 
 fn fmt_diag(d: &Diagnostic) -> String {

@@ -18,20 +18,7 @@ use crate::units::LengthUnit;
 use std::io::{self, Write};
 
 fn num(x: Option<f64>, dec: usize) -> String {
-    match x {
-        Some(x) if x.is_finite() => {
-            let s = format!("{x:.dec$}");
-            if s.trim_start_matches('-')
-                .chars()
-                .all(|c| c == '0' || c == '.')
-            {
-                s.trim_start_matches('-').to_string()
-            } else {
-                s
-            }
-        }
-        _ => String::new(),
-    }
+    x.map_or(String::new(), |x| super::elements::num(x, dec))
 }
 
 fn quote(s: &str) -> String {

@@ -31,6 +31,8 @@ use crate::georef::{CrsError, Georef};
 use crate::units::LengthUnit;
 use std::io::{self, Write};
 
+/// `x` with `dec` decimals, never `-0.000`; empty for a value that is not
+/// finite. The fixed-decimal formatter of the CSV writers.
 pub(crate) fn num(x: f64, dec: usize) -> String {
     if x.is_finite() {
         let s = format!("{x:.dec$}");
