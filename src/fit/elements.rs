@@ -315,11 +315,20 @@ fn judge(e: &mut FittedElement, lr: f64, kr0: f64, kr1: f64, chord: f64, unbound
     e.note = notes.join("; ");
 }
 
-/// A straight between two curves of the same hand: a broken-back curve
+/// Longest straight between two curves of the same hand that is still
+/// called a broken-back curve, metres. The term is for a short straight
+/// (common practice, figure from memory, not from a standard: beyond about
+/// 100 m the curves read as separate curves); local standards may set
+/// another length.
+const BROKEN_BACK_MAX_STRAIGHT: f64 = 100.0;
+
+/// A short straight between two curves of the same hand: a broken-back curve
 /// (common practice: usually undesirable; say so, do not merge it away).
 fn mark_broken_back(elements: &mut [FittedElement]) {
     for i in 1..elements.len().saturating_sub(1) {
-        if elements[i].kind != ElementKind::Straight {
+        if elements[i].kind != ElementKind::Straight
+            || elements[i].length.value >= BROKEN_BACK_MAX_STRAIGHT
+        {
             continue;
         }
         let before = elements[..i]
@@ -338,8 +347,9 @@ fn mark_broken_back(elements: &mut [FittedElement]) {
             if !e.note.is_empty() {
                 e.note.push_str("; ");
             }
-            e.note
-                .push_str("straight between two curves of the same hand (broken-back curve)");
+            e.note.push_str(
+                "straight under 100 m between two curves of the same hand (broken-back curve)",
+            );
         }
     }
 }

@@ -516,7 +516,13 @@ pub fn integrate(
             let extra = (g_eff.max(0.5) * 2.0 * sd_i / a).powi(2);
             let mid = (gp.first + gp.last) / 2;
             dvar[mid] += extra;
-            gap_log.push(&mut diags, survey, gp, sd_i, extra.sqrt());
+            gap_log.push(
+                &mut diags,
+                survey,
+                gp,
+                InterpError::Versine(sd_i),
+                extra.sqrt(),
+            );
         }
         gap_log.finish(&mut diags);
         diags.push(Diagnostic::note(format!(
@@ -575,7 +581,13 @@ pub fn integrate(
             let extra = (sd_k * (len - a).max(0.0)).powi(2);
             let mid = (gp.first + gp.last) / 2;
             dvar[mid] += extra;
-            gap_log.push(&mut diags, survey, &gp, sd_k, extra.sqrt());
+            gap_log.push(
+                &mut diags,
+                survey,
+                &gp,
+                InterpError::Curvature(sd_k),
+                extra.sqrt(),
+            );
         }
         gap_log.finish(&mut diags);
         diags.push(Diagnostic::note(format!(
@@ -906,6 +918,23 @@ struct GapLog {
     worst_heading_sd: f64,
 }
 
+/// The interpolation error a gap's bridge is judged by: of the versines
+/// (metres) at the half-chord spacing, of the curvature (1/m) otherwise.
+#[derive(Debug, Clone, Copy)]
+enum InterpError {
+    Versine(f64),
+    Curvature(f64),
+}
+
+impl InterpError {
+    fn text(self) -> String {
+        match self {
+            InterpError::Versine(v) => format!("{:.2} mm of versine", v * 1e3),
+            InterpError::Curvature(k) => format!("{:.4} 1/km of curvature", k * 1e3),
+        }
+    }
+}
+
 impl GapLog {
     const SHOWN: usize = 10;
 
@@ -914,7 +943,7 @@ impl GapLog {
         diags: &mut Vec<Diagnostic>,
         survey: &Survey,
         g: &Gap,
-        sd: f64,
+        interp: InterpError,
         heading_sd: f64,
     ) {
         self.count += 1;
@@ -925,13 +954,13 @@ impl GapLog {
         }
         let rd = &survey.readings;
         let d = Diagnostic::warning(format!(
-            "{} missing reading{} from chainage {:.3} to {:.3} m: bridged by interpolation (not taken as zero); heading uncertainty increased by {:.3} mrad there (interpolation error {:.3e} measured on the rest of the survey)",
+            "{} missing reading{} from chainage {:.3} to {:.3} m: bridged by interpolation (not taken as zero); heading uncertainty increased by {:.3} mrad there (interpolation error {} measured on the rest of the survey)",
             g.len,
             if g.len == 1 { "" } else { "s" },
             rd[g.first].chainage,
             rd[g.last].chainage,
             heading_sd * 1e3,
-            sd
+            interp.text()
         ))
         .at_opt(loc(survey, rd[g.first].line));
         diags.push(d);
