@@ -31,12 +31,13 @@
 
 use crate::diag::{Diagnostic, Location};
 use crate::geometry::Pose;
-use crate::survey::{Marking, Rail, Setup, Survey};
+use crate::survey::{Setup, Survey};
 
 mod adjust;
 mod banded;
 mod dense;
 mod noise;
+mod phases;
 mod polygon;
 
 pub use crate::chord::{
@@ -318,286 +319,30 @@ pub fn integrate(
     opts: &IntegrateOptions,
 ) -> Result<(Plan, Vec<Diagnostic>), IntegrateError> {
     let mut diags = Vec::new();
-    let src = survey.source.clone();
     check_setup(setup, opts)?;
-    let rd = &survey.readings;
-    let n = rd.len();
-    if n == 0 {
-        return Err(IntegrateError::NoReadings { file: src });
+    phases::check_readings(survey)?;
+    let inp = phases::Inputs::new(survey, setup);
+    if inp.vcs.iter().all(Option::is_none) {
+        return Err(IntegrateError::NoValidReadings {
+            file: survey.source.clone(),
+        });
     }
-    for (i, r) in rd.iter().enumerate() {
-        if !r.chainage.is_finite() || r.versine.is_some_and(|v| !v.is_finite()) {
-            return Err(IntegrateError::NotFinite {
-                file: src,
-                line: r.line,
-                chainage: r.chainage,
-            });
-        }
-        if i > 0 && r.chainage <= rd[i - 1].chainage {
-            return Err(IntegrateError::ChainageOrder {
-                file: src,
-                line: r.line,
-                chainage: r.chainage,
-                previous: rd[i - 1].chainage,
-            });
-        }
-    }
-    let s: Vec<f64> = rd.iter().map(|r| r.chainage).collect();
-    let vcs: Vec<Option<f64>> = rd.iter().map(|r| r.chord_side()).collect();
-    let nvalid = vcs.iter().filter(|v| v.is_some()).count();
-    if nvalid == 0 {
-        return Err(IntegrateError::NoValidReadings { file: src });
-    }
-    let a = setup.half_chord();
-
-    // Reading standard deviation.
-    let vals: Vec<f64> = rd.iter().filter_map(|r| r.versine).collect();
-    let all_zero = !vals.is_empty() && vals.iter().all(|v| *v == 0.0);
-    let resolution = if all_zero {
-        // Nothing shows the rounding, and nothing can be estimated: take the
-        // coarsest usual reading step of the unit (1 mm, 1/8 in, 0.01 ft),
-        // so that the sd is not that of exact readings.
-        let step = match survey.versine_unit {
-            crate::units::VersineUnit::Inch => 0.125 * crate::units::INCH,
-            crate::units::VersineUnit::Foot => 0.01 * crate::units::FOOT,
-            _ => 1e-3,
-        };
-        diags.push(
-            Diagnostic::warning(format!(
-                "every versine is zero, so neither the rounding of the readings nor their noise shows; the reading standard deviation is taken as a reading step of {:.3} mm over √12",
-                step * 1e3
-            ))
-            .hint("state the reading standard deviation with --reading-sd (e.g. 1mm for a hand survey)"),
-        );
-        Some(step)
+    let (sigma, source) = phases::reading_sigma(&inp, &mut diags);
+    let nominal = if inp.classic_spacing() {
+        phases::classic_nominal(&inp, opts.start, sigma, &mut diags)?
     } else {
-        detect_resolution(&vals, survey.versine_unit)
+        phases::dense_nominal(&inp, opts.start, sigma, &mut diags)?
     };
-    let floor = resolution.map_or(0.0, |q| q / 12f64.sqrt());
-    let est = estimate_noise(&vcs);
-    let (mut sigma, source) = match (setup.reading_sd, est) {
-        (Some(sd), _) if sd >= floor => (sd, NoiseSource::Stated),
-        (Some(sd), _) => {
-            diags.push(Diagnostic::warning(format!(
-                "the stated reading standard deviation {:.3} mm is below what the rounding of the readings allows ({:.3} mm = resolution {:.3} mm/√12); using {:.3} mm",
-                sd * 1e3, floor * 1e3, floor * 12f64.sqrt() * 1e3, floor * 1e3
-            )));
-            (floor, NoiseSource::RoundingFloor)
-        }
-        (None, Some(e)) if e >= floor => (e, NoiseSource::Estimated),
-        (None, Some(_)) => (floor, NoiseSource::RoundingFloor),
-        (None, None) if floor > 0.0 => {
-            diags.push(Diagnostic::warning(
-                "too few consecutive readings to estimate the reading noise; using the rounding floor only",
-            ).hint("state the reading standard deviation (e.g. 1 mm for a hand survey)"));
-            (floor, NoiseSource::RoundingFloor)
-        }
-        (None, None) => {
-            diags.push(Diagnostic::warning(
-                "too few consecutive readings to estimate the reading noise; assuming 1 mm (typical of a hand survey)",
-            ).hint("state the reading standard deviation"));
-            (1e-3, NoiseSource::Estimated)
-        }
-    };
-    if sigma < SIGMA_FLOOR {
-        sigma = SIGMA_FLOOR;
-    }
-    diags.push(Diagnostic::note(format!(
-        "reading standard deviation {:.3} mm ({}){}",
-        sigma * 1e3,
-        match source {
-            NoiseSource::Stated => "stated",
-            NoiseSource::Estimated => "estimated from third differences of the readings",
-            NoiseSource::RoundingFloor => "rounding floor",
-        },
-        resolution.map_or(String::new(), |q| format!(
-            "; readings rounded to {:.4} mm",
-            q * 1e3
-        ))
-    )));
-
-    // Classic spacing?
-    let deltas: Vec<f64> = s.windows(2).map(|w| w[1] - w[0]).collect();
-    let tol = (5e-3_f64).max(1e-3 * a);
-    let classic = deltas.iter().all(|d| (d - a).abs() <= tol);
-    let g_of = |r: Rail| -r.offset_left(setup.gauge);
-    let spacing_fwd: Vec<f64> = (0..n)
-        .map(|i| {
-            if i + 1 < n {
-                deltas[i]
-            } else if n > 1 {
-                deltas[n - 2]
-            } else {
-                a
-            }
-        })
-        .collect();
-
-    let too_large = |i: usize| IntegrateError::VersineTooLarge {
-        file: survey.source.clone(),
-        line: rd[i].line,
-        chainage: rd[i].chainage,
-        versine_mm: rd[i].versine.unwrap_or(0.0) * 1e3,
-        chord: setup.chord,
-    };
-
-    // Nominal plan in the final frame: rail points, tangent headings, rail curvature, turn variances.
-    let mut rail_xy = vec![(0.0, 0.0); n];
-    let mut theta = vec![0.0; n];
-    let mut k_rail = vec![0.0; n];
-    let mut dvar = vec![0.0; n];
-    let start = opts.start;
-
-    if classic {
-        let (vf, gaps) = fill_gaps(&s, &vcs);
-        // Runs on one rail.
-        let mut runs = Vec::new();
-        let mut b = 0;
-        for i in 1..=n {
-            if i == n || rd[i].rail != rd[b].rail {
-                runs.push((b, i));
-                b = i;
-            }
-        }
-        let mut pose = (start.x, start.y, start.heading);
-        for (ri, &(p, q)) in runs.iter().enumerate() {
-            let geo = polygon::polygon_run(&vf[p..q], &spacing_fwd[p..q], a, setup.marking)
-                .map_err(|i| too_large(p + i))?;
-            let g = g_of(rd[p].rail);
-            let (cx, cy, th0) = pose;
-            let (sn, cs) = th0.sin_cos();
-            let (rx0, ry0) = (cx + g * sn, cy - g * cs); // centre − g·n(θ)
-            let place = |(x, y): (f64, f64)| (rx0 + cs * x - sn * y, ry0 + sn * x + cs * y);
-            for i in 0..q - p {
-                rail_xy[p + i] = place(geo.rail[i]);
-                theta[p + i] = th0 + geo.theta[i];
-                k_rail[p + i] = geo.k_rail[i];
-                let gain = geo.gain[i];
-                dvar[p + i] = if p + i == 0 {
-                    (0.5 * sigma * gain).powi(2)
-                } else {
-                    (sigma * gain).powi(2)
-                };
-            }
-            if ri > 0 {
-                // The tangent at a change of rail is carried over from the previous run.
-                dvar[p] += 0.25 * dvar[p - 1];
-                diags.push(
-                    Diagnostic::note(format!(
-                        "the measured rail changes to the {} rail at chainage {:.3} m; the plan is carried across on the centreline",
-                        rd[p].rail.name(),
-                        rd[p].chainage
-                    ))
-                    .at_opt(loc(survey, rd[p].line)),
-                );
-            }
-            let ((nx, ny), nth) = geo.next;
-            let (wx, wy) = place((nx, ny));
-            let th = th0 + nth;
-            let (s2, c2) = th.sin_cos();
-            pose = (wx - g * s2, wy + g * c2, th);
-        }
-        // Inflate for gaps: interpolation error of the versines at the gap's length, fully correlated.
-        let mut cache = std::collections::HashMap::new();
-        let mut gap_log = GapLog::default();
-        for gp in &gaps {
-            let sd_i = *cache
-                .entry(gp.len)
-                .or_insert_with(|| interp_error(&vcs, gp.len));
-            // A missing deflection at either end of the survey only turns the
-            // end tangent by half of it.
-            let mut g_eff = gp.len as f64;
-            if gp.first == 0 {
-                g_eff -= 0.5;
-            }
-            if gp.last + 1 == n {
-                g_eff -= 0.5;
-            }
-            let extra = (g_eff.max(0.5) * 2.0 * sd_i / a).powi(2);
-            let mid = (gp.first + gp.last) / 2;
-            dvar[mid] += extra;
-            gap_log.push(
-                &mut diags,
-                survey,
-                gp,
-                InterpError::Versine(sd_i),
-                extra.sqrt(),
-            );
-        }
-        gap_log.finish(&mut diags);
-        diags.push(Diagnostic::note(format!(
-            "readings every half chord: exact polygon of the marks ({} marking)",
-            match setup.marking {
-                Marking::Taped => "taped",
-                Marking::Wire => "fixed-wire",
-            }
-        )));
-    } else {
-        if let Some(i) = (1..n).find(|&i| rd[i].rail != rd[0].rail) {
-            return Err(IntegrateError::RailChangeInDenseSurvey {
-                file: src,
-                line: rd[i].line,
-                chainage: rd[i].chainage,
-            });
-        }
-        let vlin = dense::linearise(&vcs, a, setup.marking).map_err(too_large)?;
-        let mut ds = deltas.clone();
-        let dmed = if ds.is_empty() {
-            a
-        } else {
-            let m = ds.len() / 2;
-            *ds.select_nth_unstable_by(m, |x, y| x.total_cmp(y)).1
-        };
-        let h = dense::knot_spacing(a, dmed);
-        let (curve, p) = dense::fit(&s, &vlin, a, h, sigma)
-            .ok_or_else(|| IntegrateError::CurvatureFit { file: src.clone() })?;
-        let (pos, th, ks) = dense::integrate_curve(&curve, &s);
-        let g = g_of(rd[0].rail);
-        let (cx, cy, th0) = (start.x, start.y, start.heading);
-        let (sn, cs) = th0.sin_cos();
-        let (rx0, ry0) = (cx + g * sn, cy - g * cs);
-        let q_unit = 4.0 * sigma * sigma * dmed / a.powi(4);
-        for i in 0..n {
-            let (x, y) = pos[i];
-            rail_xy[i] = (rx0 + cs * x - sn * y, ry0 + sn * x + cs * y);
-            theta[i] = th0 + th[i];
-            k_rail[i] = ks[i];
-            dvar[i] = if i == 0 {
-                0.25 * q_unit * spacing_fwd[0]
-            } else {
-                0.5 * q_unit * (spacing_fwd[i - 1] + spacing_fwd[i])
-            };
-        }
-        let mut cache = std::collections::HashMap::new();
-        let mut gap_log = GapLog::default();
-        for gp in gaps_of(&vcs) {
-            // The kernels of the readings either side see the curvature up to
-            // about a quarter chord into the gap; the rest is bridged.
-            let len = gap_span(&s, &vcs, &gp);
-            let key = (len / h).round() as u64;
-            let sd_k = *cache
-                .entry(key)
-                .or_insert_with(|| curve_interp_error(&curve, len));
-            let extra = (sd_k * (len - a).max(0.0)).powi(2);
-            let mid = (gp.first + gp.last) / 2;
-            dvar[mid] += extra;
-            gap_log.push(
-                &mut diags,
-                survey,
-                &gp,
-                InterpError::Curvature(sd_k),
-                extra.sqrt(),
-            );
-        }
-        gap_log.finish(&mut diags);
-        diags.push(Diagnostic::note(format!(
-            "readings closer than the half chord (median spacing {:.3} m): regularised curvature estimate on knots every {:.3} m, penalty weight 10^{:.2} (discrepancy principle)",
-            dmed, h, p
-        )));
-    }
+    let phases::Nominal {
+        rail_xy,
+        mut theta,
+        k_rail,
+        dvar,
+    } = nominal;
+    let n = rail_xy.len();
 
     // Centreline.
-    let goff: Vec<f64> = rd.iter().map(|r| g_of(r.rail)).collect();
+    let goff: Vec<f64> = survey.readings.iter().map(|r| inp.g_of(r.rail)).collect();
     let mut centre: Vec<(f64, f64)> = (0..n)
         .map(|i| {
             let (sn, cs) = theta[i].sin_cos();
@@ -605,72 +350,9 @@ pub fn integrate(
         })
         .collect();
 
-    // Control points.
-    let mut ctrl = Vec::with_capacity(opts.position_obs.len());
-    for o in &opts.position_obs {
-        if !(o.x.is_finite() && o.y.is_finite() && o.chainage.is_finite()) {
-            return Err(IntegrateError::BadControl {
-                id: o.id.clone(),
-                why: "its chainage or coordinates are not finite numbers".into(),
-            });
-        }
-        if !(o.sd.is_finite() && o.sd > 0.0) {
-            return Err(IntegrateError::BadControl {
-                id: o.id.clone(),
-                why: format!(
-                    "its standard deviation must be positive (got {} m); give a realistic value such as 0.005 m",
-                    o.sd
-                ),
-            });
-        }
-        let tol_c = 1e-6;
-        if o.chainage < s[0] - tol_c || o.chainage > s[n - 1] + tol_c {
-            return Err(IntegrateError::BadControl {
-                id: o.id.clone(),
-                why: format!(
-                    "chainage {:.3} m lies outside the survey ({:.3} to {:.3} m); remove it or extend the survey",
-                    o.chainage,
-                    s[0],
-                    s[n - 1]
-                ),
-            });
-        }
-        let j = s
-            .partition_point(|&x| x <= o.chainage)
-            .saturating_sub(1)
-            .min(n - 1);
-        let t = if j + 1 < n {
-            ((o.chainage - s[j]) / (s[j + 1] - s[j])).clamp(0.0, 1.0)
-        } else {
-            0.0
-        };
-        ctrl.push(adjust::Ctrl {
-            j,
-            t,
-            obs: (o.x, o.y),
-            sd: o.sd,
-        });
-    }
-    let mode = if ctrl.is_empty() {
-        adjust::StartMode::Fixed
-    } else {
-        let (lo, hi) = opts
-            .position_obs
-            .iter()
-            .fold((f64::INFINITY, f64::NEG_INFINITY), |(l, h), o| {
-                (l.min(o.chainage), h.max(o.chainage))
-            });
-        if ctrl.len() >= 2 && hi - lo > 1.0 {
-            adjust::StartMode::TranslateRotate
-        } else {
-            if ctrl.len() >= 2 {
-                diags.push(Diagnostic::warning(
-                    "the control points lie within 1 m of chainage of each other: they fix the position only; the heading comes from the start pose",
-                ));
-            }
-            adjust::StartMode::Translate
-        }
-    };
+    // Control points, then the joint adjustment.
+    let ctrl = phases::control_rows(opts, &inp.s)?;
+    let mode = phases::start_mode(opts, &ctrl, &mut diags);
     // Bring the nominal plan close to the control first (rigid fit), so that
     // the linearised adjustment only sees small corrections.
     if mode != adjust::StartMode::Fixed {
@@ -692,52 +374,8 @@ pub fn integrate(
         )));
     }
 
-    // Stations.
-    let mut stations = Vec::with_capacity(n);
-    for i in 0..n {
-        let th = adj.theta[i];
-        let (sn, cs) = th.sin_cos();
-        let (cx, cy) = adj.c[i];
-        let g = goff[i];
-        let mut kr = k_rail[i];
-        if i > 0 && mode != adjust::StartMode::Fixed {
-            let span = 0.5 * (spacing_fwd[i - 1] + spacing_fwd[i]);
-            kr += adj.turn[i] / span;
-        }
-        let denom = 1.0 - g * kr;
-        let kc = if denom.abs() > 1e-9 { kr / denom } else { kr };
-        stations.push(Station {
-            chainage: s[i],
-            versine: rd[i].versine,
-            rail: rd[i].rail,
-            curvature: kc,
-            heading: th,
-            x: cx,
-            y: cy,
-            rail_x: cx + g * sn,
-            rail_y: cy - g * cs,
-            position_sd: adj.lateral_var[i].sqrt(),
-            heading_sd: adj.heading_var[i].sqrt(),
-        });
-    }
-    let mut position_residuals = Vec::with_capacity(ctrl.len());
-    for (o, r) in opts.position_obs.iter().zip(&adj.residuals) {
-        if r.2 > 3.0 {
-            diags.push(
-                Diagnostic::warning(format!(
-                    "control point '{}' at chainage {:.3} m disagrees with the survey and the other points: residual ({:.1}, {:.1}) mm, {:.1} standard deviations",
-                    o.id, o.chainage, r.0 * 1e3, r.1 * 1e3, r.2
-                ))
-                .hint("check its coordinates and chainage, or give it a larger standard deviation"),
-            );
-        }
-        position_residuals.push(PositionResidual {
-            id: o.id.clone(),
-            dx: r.0,
-            dy: r.1,
-            normalised: r.2,
-        });
-    }
+    let stations = phases::build_stations(&inp, &k_rail, &goff, &adj, mode);
+    let position_residuals = phases::control_residuals(opts, &adj, &mut diags);
     Ok((
         Plan {
             stations,
