@@ -10,6 +10,7 @@
 
 use chordline::fit::{FitOptions, fit};
 use chordline::geometry::{Alignment, Pose};
+use chordline::integrate::{IntegrateOptions, integrate};
 use chordline::pipeline::{Options, process};
 use chordline::simulate::{SimSetup, simulate, synthetic_route};
 use chordline::survey::{Rail, Setup, Survey};
@@ -38,10 +39,12 @@ fn benches(c: &mut Criterion) {
         b.iter(|| process(black_box(hand.clone()), &hand_opts).map(|r| r.plan.stations.len()))
     });
     let setup = Setup::new(10.0, Rail::Left);
+    let plan = match integrate(&vehicle, &setup, &IntegrateOptions::default()) {
+        Ok((p, _)) => p,
+        Err(e) => panic!("benchmark plan: {e}"),
+    };
     g.bench_function("fit, vehicle survey 20 km every 0.25 m", |b| {
-        b.iter(|| {
-            fit(black_box(&vehicle), &setup, &FitOptions::default()).map(|r| r.0.elements.len())
-        })
+        b.iter(|| fit(black_box(&plan), &FitOptions::default()).map(|r| r.0.elements.len()))
     });
     let vehicle_opts = Options::new(10.0, Rail::Left);
     g.bench_function("process, vehicle survey 20 km every 0.25 m", |b| {

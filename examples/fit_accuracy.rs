@@ -25,6 +25,7 @@
 
 #[path = "support/fit_classes.rs"]
 mod fit_classes;
+use fit_classes::plan_of;
 
 use chordline::fit::{FitOptions, fit};
 use chordline::geometry::{Alignment, Element, ElementKind, Pose};
@@ -343,7 +344,7 @@ fn run_case(case: &Case, seeds: u64) -> Acc {
         setup.marking = sim.marking;
         setup.gauge = sim.gauge;
         let t0 = Instant::now();
-        let Ok((res, _)) = fit(&simd.survey, &setup, &FitOptions::default()) else {
+        let Ok((res, _)) = fit(&plan_of(&simd.survey, &setup), &FitOptions::default()) else {
             acc.missing += joints.len();
             acc.runs += 1;
             continue;
@@ -442,47 +443,8 @@ fn speed() {
     let simd = simulate(&al, &sim).expect("simulate");
     let tsim = t0.elapsed().as_secs_f64();
     let setup = Setup::new(20.0, Rail::Right);
-    if std::env::var("FIT_PROFILE").is_ok() {
-        let s: Vec<f64> = simd
-            .survey
-            .readings
-            .iter()
-            .filter(|r| r.versine.is_some())
-            .map(|r| r.chainage)
-            .collect();
-        let k: Vec<f64> = simd
-            .survey
-            .readings
-            .iter()
-            .filter_map(|r| r.chord_side())
-            .map(|v| 2.0 * v / 100.0)
-            .collect();
-        let o = chordline::fit::segment::DpOptions {
-            bin: 5.0,
-            sigma_k: 2e-5,
-            log_n: 1.0,
-            min_straight: 10.0,
-            min_arc: 5.0,
-            min_ramp: 20.0,
-            max_ramp: 400.0,
-        };
-        let t2 = Instant::now();
-        let segs = chordline::fit::segment::typed_partition(&s, &k, &o);
-        println!(
-            "dp: {:.3} s, {} segments",
-            t2.elapsed().as_secs_f64(),
-            segs.len()
-        );
-        let o2 = FitOptions {
-            max_iterations: 5,
-            ..FitOptions::default()
-        };
-        let t3 = Instant::now();
-        let _ = fit(&simd.survey, &setup, &o2);
-        println!("fit with 5 iterations: {:.3} s", t3.elapsed().as_secs_f64());
-    }
     let t1 = Instant::now();
-    let (res, _) = fit(&simd.survey, &setup, &FitOptions::default()).expect("fit");
+    let (res, _) = fit(&plan_of(&simd.survey, &setup), &FitOptions::default()).expect("fit");
     let tfit = t1.elapsed().as_secs_f64();
     println!(
         "speed: {:.1} km, {} readings at 0.25 m: simulate {:.2} s, fit {:.2} s (release, one thread); {} elements fitted for {} true",

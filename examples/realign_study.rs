@@ -11,6 +11,7 @@
 
 use chordline::fit::{FitOptions, fit};
 use chordline::geometry::{Alignment, Element, Pose};
+use chordline::integrate::{IntegrateOptions, integrate};
 use chordline::realign::{SlewOptions, slews, summary_line, versine_change};
 use chordline::simulate::{SimSetup, simulate, synthetic_route};
 use chordline::survey::Survey;
@@ -96,7 +97,10 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
         s.irregularity_rms = 3e-3;
         s.seed = seed;
         let simd = simulate(&design(), &s)?;
-        let (f, _) = fit(&simd.survey, &setup, &FitOptions::default())?;
+        let (f, _) = fit(
+            &integrate(&simd.survey, &setup, &IntegrateOptions::default())?.0,
+            &FitOptions::default(),
+        )?;
         let (sl, _) = slews(
             &simd.survey,
             &setup,

@@ -45,7 +45,7 @@
 //! let last = plan.stations.last().expect("a survey has stations");
 //! println!("plan ends {:.1} m east, {:.1} m north of the start", last.x, last.y);
 //!
-//! let (elements, _notes) = fit::fit(&survey, &setup, &FitOptions::default())?;
+//! let (elements, _notes) = fit::fit(&plan, &FitOptions::default())?;
 //! assert!(elements.elements.len() >= 5, "straights, transitions and arcs");
 //!
 //! let mut csv = Vec::new();

@@ -169,13 +169,8 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
     }
     let (mut fitted, mut design) = (None, None);
     if let Some(fopts) = &opts.fit {
-        let mut fopts = fopts.clone();
-        if fopts.reading_sd.is_none() {
-            fopts.reading_sd = setup.reading_sd;
-        }
-        // One reading-noise figure: the plan's.
-        fopts.reading_noise = fopts.reading_noise.or(Some(plan.reading_sd));
-        match fit(&survey, &setup, &fopts) {
+        // One reading-noise figure: the plan's, which the fit reads from it.
+        match fit(&plan, fopts) {
             Ok((f, mut d)) => {
                 diagnostics.append(&mut d);
                 if f.outliers.iter().any(|o| o.excluded) {

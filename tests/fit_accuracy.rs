@@ -2,6 +2,9 @@
 //! cases, loose enough to be robust, tight enough to fail). The full study is
 //! `cargo run --release --example fit_accuracy`.
 
+mod common;
+use common::plan_of;
+
 use chordline::fit::{ElementStatus, FitOptions, FitResult, fit};
 use chordline::geometry::{Alignment, Element, ElementKind, Pose};
 use chordline::simulate::{SimSetup, simulate};
@@ -40,7 +43,7 @@ fn run(els: &[Element], sim: &SimSetup) -> (FitResult, Vec<f64>) {
     let simd = simulate(&al, sim).expect("simulate");
     let mut setup = Setup::new(sim.chord, sim.rail);
     setup.marking = sim.marking;
-    let (res, _) = fit(&simd.survey, &setup, &FitOptions::default()).expect("fit");
+    let (res, _) = fit(&plan_of(&simd.survey, &setup), &FitOptions::default()).expect("fit");
     let d = sim.rail.offset_left(sim.gauge);
     let mut joints = Vec::new();
     let mut s = 0.0;

@@ -2,6 +2,9 @@
 //! and bridged in the plan; `keep_outliers` keeps them. The survey is
 //! simulated (invented geometry), the slips are put in by hand.
 
+mod common;
+use common::plan_of;
+
 use chordline::fit::{FitOptions, Slip, fit};
 use chordline::geometry::{Alignment, Element, Pose};
 use chordline::simulate::{SimSetup, simulate};
@@ -42,7 +45,7 @@ fn at(sv: &Survey, c: f64) -> usize {
 fn slips_are_found_described_and_left_out() {
     let clean = survey();
     let setup = Setup::new(20.0, Rail::Right);
-    let (ref_fit, _) = fit(&clean, &setup, &FitOptions::default()).expect("fit");
+    let (ref_fit, _) = fit(&plan_of(&clean, &setup), &FitOptions::default()).expect("fit");
     assert!(ref_fit.outliers.is_empty(), "{:?}", ref_fit.outliers);
     let mut sv = clean.clone();
     // On the arc (about 111 mm): the sign lost; in the ramp: digits swapped
@@ -61,7 +64,7 @@ fn slips_are_found_described_and_left_out() {
     assert!(v.abs() >= 2.0 && v.abs() < 20.0, "{v}");
     sv.readings[i_dec].versine = Some(v * 10.0 * 1e-3);
 
-    let (res, diags) = fit(&sv, &setup, &FitOptions::default()).expect("fit");
+    let (res, diags) = fit(&plan_of(&sv, &setup), &FitOptions::default()).expect("fit");
     let found: Vec<(usize, Slip)> = res
         .outliers
         .iter()
@@ -100,7 +103,7 @@ fn slips_are_found_described_and_left_out() {
         keep_outliers: true,
         ..FitOptions::default()
     };
-    let (kept, _) = fit(&sv, &setup, &keep).expect("fit");
+    let (kept, _) = fit(&plan_of(&sv, &setup), &keep).expect("fit");
     assert_eq!(kept.stats.n, ref_fit.stats.n);
     assert!(kept.outliers.iter().all(|o| !o.excluded));
 }

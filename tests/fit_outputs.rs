@@ -1,9 +1,13 @@
 //! The element fit's outputs: elements.csv, the terminal table, placing the
 //! design in the plan, per-station design values, bias, errors.
 
+mod common;
+use common::plan_of;
+
 use chordline::export::elements::{header, summary_table, write_elements_csv};
 use chordline::fit::{FitError, FitOptions, fit};
 use chordline::geometry::{Alignment, Element, Pose};
+use chordline::integrate::{IntegrateOptions, integrate};
 use chordline::simulate::{SimSetup, simulate};
 use chordline::survey::{Rail, Setup};
 use chordline::units::{FOOT, LengthUnit, VersineUnit};
@@ -39,8 +43,7 @@ fn sim(seed: u64, noise: f64) -> SimSetup {
 fn elements_csv_rows_join_and_hold_no_nan() {
     let simd = simulate(&design(), &sim(3, 0.001)).expect("simulate");
     let (res, _) = fit(
-        &simd.survey,
-        &Setup::new(20.0, Rail::Right),
+        &plan_of(&simd.survey, &Setup::new(20.0, Rail::Right)),
         &FitOptions::default(),
     )
     .expect("fit");
@@ -129,12 +132,8 @@ fn imperial_headers_use_feet_and_inches() {
     s.chainage_unit = LengthUnit::Foot;
     s.versine_unit = VersineUnit::Inch;
     let simd = simulate(&design(), &s).expect("simulate");
-    let (res, _) = fit(
-        &simd.survey,
-        &Setup::new(62.0 * FOOT, Rail::Right),
-        &FitOptions::default(),
-    )
-    .expect("fit");
+    let plan = plan_of(&simd.survey, &Setup::new(62.0 * FOOT, Rail::Right));
+    let (res, _) = fit(&plan, &FitOptions::default()).expect("fit");
     let mut buf = Vec::new();
     write_elements_csv(&res, LengthUnit::Foot, &mut buf).expect("write");
     let text = String::from_utf8(buf).expect("utf8");
@@ -151,8 +150,7 @@ fn placed_design_lies_on_the_track() {
     let al = design();
     let simd = simulate(&al, &sim(1, 0.0)).expect("simulate");
     let (res, _) = fit(
-        &simd.survey,
-        &Setup::new(20.0, Rail::Right),
+        &plan_of(&simd.survey, &Setup::new(20.0, Rail::Right)),
         &FitOptions::default(),
     )
     .expect("fit");
@@ -191,8 +189,7 @@ fn reading_bias_is_estimated_and_reported() {
     s.bias = 0.0015; // field sign: rail bows away from the wire
     let simd = simulate(&design(), &s).expect("simulate");
     let (res, diags) = fit(
-        &simd.survey,
-        &Setup::new(20.0, Rail::Right),
+        &plan_of(&simd.survey, &Setup::new(20.0, Rail::Right)),
         &FitOptions::default(),
     )
     .expect("fit");
@@ -207,7 +204,11 @@ fn reading_bias_is_estimated_and_reported() {
         remove_bias: true,
         ..FitOptions::default()
     };
-    let (res2, _) = fit(&simd.survey, &Setup::new(20.0, Rail::Right), &opts).expect("fit");
+    let (res2, _) = fit(
+        &plan_of(&simd.survey, &Setup::new(20.0, Rail::Right)),
+        &opts,
+    )
+    .expect("fit");
     let r1 = res.elements[2].start_radius.expect("r").value;
     let r2 = res2.elements[2].start_radius.expect("r").value;
     assert!((r2 - 450.0).abs() < (r1 - 450.0).abs(), "{r1} {r2}");
@@ -219,29 +220,21 @@ fn bad_input_is_an_error_not_a_panic() {
     let mut few = simd.survey.clone();
     few.readings.truncate(5);
     assert!(matches!(
-        fit(&few, &Setup::new(20.0, Rail::Right), &FitOptions::default()),
-        Err(FitError::TooFewReadings { .. })
-    ));
-    let e = fit(
-        &simd.survey,
-        &Setup::new(0.0, Rail::Right),
-        &FitOptions::default(),
-    );
-    assert!(matches!(e, Err(FitError::BadSetup { what: "chord", .. })));
-    let mut unsorted = simd.survey.clone();
-    unsorted.readings.swap(10, 11);
-    assert!(matches!(
         fit(
-            &unsorted,
-            &Setup::new(20.0, Rail::Right),
+            &plan_of(&few, &Setup::new(20.0, Rail::Right)),
             &FitOptions::default()
         ),
-        Err(FitError::Unsorted { .. })
+        Err(FitError::TooFewReadings { .. })
     ));
-    // Non-finite readings are skipped, not fatal.
-    let mut odd = simd.survey.clone();
-    odd.readings[20].versine = Some(f64::NAN);
-    assert!(fit(&odd, &Setup::new(20.0, Rail::Right), &FitOptions::default()).is_ok());
+    // A chord of zero and unsorted chainages never reach the fit: the plan
+    // refuses them (the fit trusts the plan's invariants).
+    let bad_chord = Setup::new(0.0, Rail::Right);
+    let opts = IntegrateOptions::default();
+    assert!(integrate(&simd.survey, &bad_chord, &opts).is_err());
+    // A non-finite versine in a plan is skipped, not fatal.
+    let mut odd = plan_of(&simd.survey, &Setup::new(20.0, Rail::Right));
+    odd.stations[20].versine = Some(f64::NAN);
+    assert!(fit(&odd, &FitOptions::default()).is_ok());
 }
 
 #[test]
@@ -263,8 +256,7 @@ fn dense_readings_short_transition_is_flagged_or_found() {
     s.spacing = 1.0;
     let simd = simulate(&al, &s).expect("simulate");
     let (res, _) = fit(
-        &simd.survey,
-        &Setup::new(20.0, Rail::Right),
+        &plan_of(&simd.survey, &Setup::new(20.0, Rail::Right)),
         &FitOptions::default(),
     )
     .expect("fit");
@@ -298,7 +290,7 @@ fn pipeline_integrate_fit_place_write_stations() {
     let simd = simulate(&design(), &sim(6, 0.0005)).expect("simulate");
     let setup = Setup::new(20.0, Rail::Right);
     let (plan, _) = integrate(&simd.survey, &setup, &IntegrateOptions::default()).expect("plan");
-    let (res, _) = fit(&simd.survey, &setup, &FitOptions::default()).expect("fit");
+    let (res, _) = fit(&plan_of(&simd.survey, &setup), &FitOptions::default()).expect("fit");
     let pts: Vec<(f64, f64, f64)> = plan
         .stations
         .iter()

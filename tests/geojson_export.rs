@@ -63,6 +63,7 @@ fn case() -> Case {
                 chainage: s,
                 versine: Some(0.0),
                 rail: Rail::Left,
+                line: 0,
                 curvature: alignment.curvature_at(s),
                 heading: p.heading,
                 x: p.x,

@@ -6,7 +6,7 @@ use chordline::georef::{
     ControlError, Crs, LonLat, Placement, leave_one_out, position_at, read_controls,
 };
 use chordline::integrate::{NoiseSource, Plan, PositionObs, PositionResidual, Station};
-use chordline::survey::{Rail, Reading, Survey};
+use chordline::survey::{Rail, Reading, Setup, Survey};
 use chordline::units::{LengthUnit, VersineUnit};
 
 fn survey(first: f64, last: f64, step: f64) -> Survey {
@@ -258,6 +258,7 @@ fn station(ch: f64, x: f64, y: f64, heading: f64, sd: f64) -> Station {
         chainage: ch,
         versine: None,
         rail: Rail::Left,
+        line: 0,
         curvature: 0.0,
         heading,
         x,
@@ -338,6 +339,10 @@ fn fit_line(obs: &[PositionObs]) -> Result<Plan, String> {
         reading_sd: 0.001,
         noise_source: NoiseSource::Stated,
         position_residuals,
+        setup: Setup::new(20.0, Rail::Left),
+        source: "test".into(),
+        versine_unit: VersineUnit::Millimetre,
+        resolution: None,
     })
 }
 

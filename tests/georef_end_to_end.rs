@@ -2,8 +2,10 @@
 //! the Earth by a start point or by control points, integrated, and compared
 //! with the design mapped through an independent placement.
 
-#[path = "support/skip.rs"]
-mod skip;
+mod common;
+use common::plan_of;
+
+use common::skip;
 use std::path::Path;
 
 use chordline::geometry::heading_to_bearing;
@@ -256,7 +258,7 @@ fn fitted_design_goes_onto_the_map_and_into_the_grid() {
         position_obs: g.position_obs.clone(),
     };
     let (plan, _) = integrate(&sim.survey, &st, &o).unwrap();
-    let (f, _) = fit(&sim.survey, &st, &FitOptions::default()).unwrap();
+    let (f, _) = fit(&plan_of(&sim.survey, &st), &FitOptions::default()).unwrap();
     let pts: Vec<(f64, f64, f64)> = plan
         .stations
         .iter()

@@ -1,6 +1,9 @@
 //! Slews: published check values, round trips through `simulate`, errors and
 //! the stations.csv columns.
 
+mod common;
+use common::plan_of;
+
 use chordline::diag::Severity;
 use chordline::export::stations::{StationExtras, write_stations_with};
 use chordline::fit::{FitOptions, fit};
@@ -292,7 +295,7 @@ fn fitted_design_round_trip_with_irregular_track() {
     // is the target. Consistency must hold exactly whatever the data.
     let simd = sim(5.0, 0.3e-3, 3e-3, 7);
     let setup = Setup::new(20.0, Rail::Left);
-    let (f, _) = fit(&simd.survey, &setup, &FitOptions::default()).expect("fit");
+    let (f, _) = fit(&plan_of(&simd.survey, &setup), &FitOptions::default()).expect("fit");
     let (s, _) = slews_for_fit(&simd.survey, &setup, &f, &SlewOptions::default()).expect("slews");
     assert_eq!(s.reading_sd, f.stats.reading_sd);
     check_consistent(&simd.survey, &f.design_versine, &s);

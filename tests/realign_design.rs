@@ -2,6 +2,9 @@
 //! less than the fitted one and recovers a known smooth error; the
 //! engineer's elements passed back in are used as given.
 
+mod common;
+use common::plan_of;
+
 use chordline::fit::{FitOptions, fit};
 use chordline::geometry::{Alignment, Element, ElementKind, Pose};
 use chordline::realign::{
@@ -77,7 +80,7 @@ fn optimised_design_moves_the_track_less_and_recovers_the_error() {
     // of the displaced track may follow the bump with a short compound arc,
     // which the optimiser then uses to absorb it).
     let (clean, survey, p) = surveyed(21);
-    let (f, _) = fit(&clean, &setup, &FitOptions::default()).expect("fit");
+    let (f, _) = fit(&plan_of(&clean, &setup), &FitOptions::default()).expect("fit");
     let base = SlewOptions {
         fixed: vec![250.0, 450.0],
         max_slew: Some(0.015),
@@ -141,7 +144,7 @@ fn optimised_design_moves_the_track_less_and_recovers_the_error() {
 fn engineers_elements_are_used_as_given() {
     let setup = Setup::new(20.0, Rail::Left);
     let (_, survey, _) = surveyed(22);
-    let (f, _) = fit(&survey, &setup, &FitOptions::default()).expect("fit");
+    let (f, _) = fit(&plan_of(&survey, &setup), &FitOptions::default()).expect("fit");
     let mut els = elements_of_fit(&f);
     // The fitted design passed back unchanged gives the fitted slews.
     let same = SlewOptions {

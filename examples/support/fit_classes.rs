@@ -13,6 +13,7 @@
 
 use chordline::fit::{FitOptions, FitResult, KnownSequence, fit, fit_known};
 use chordline::geometry::{Alignment, Element, ElementKind, Pose};
+use chordline::integrate::{IntegrateOptions, Plan, integrate};
 use chordline::simulate::{SimSetup, simulate};
 use chordline::survey::{Rail, Setup, Survey};
 use rand::{Rng, SeedableRng};
@@ -278,8 +279,8 @@ pub fn run_class(c: &Class, seeds: u64) -> ClassAcc {
         let (joints, seq) = truth(&al, &sim);
         let opts = FitOptions::default();
         let (Ok((res, _)), Ok((known, _))) = (
-            fit(&simd.survey, &setup, &opts),
-            fit_known(&simd.survey, &setup, &opts, &seq),
+            fit(&plan_of(&simd.survey, &setup), &opts),
+            fit_known(&plan_of(&simd.survey, &setup), &opts, &seq),
         ) else {
             continue;
         };
@@ -295,7 +296,7 @@ pub fn run_class(c: &Class, seeds: u64) -> ClassAcc {
         // The same readings with typing slips.
         let mut dirty = simd.survey.clone();
         let at = inject_blunders(&mut dirty, &mut rng);
-        if let Ok((rb, _)) = fit(&dirty, &setup, &opts) {
+        if let Ok((rb, _)) = fit(&plan_of(&dirty, &setup), &opts) {
             let (e, x, m) = boundary_errors(&rb, &joints);
             acc.bl_berr.extend(e);
             acc.bl_extra += x;
@@ -309,4 +310,13 @@ pub fn run_class(c: &Class, seeds: u64) -> ClassAcc {
         }
     }
     acc
+}
+
+/// The integrated plan of a simulated survey (no control points): what the
+/// element fit takes. The benchmark surveys always integrate.
+pub fn plan_of(survey: &Survey, setup: &Setup) -> Plan {
+    match integrate(survey, setup, &IntegrateOptions::default()) {
+        Ok((plan, _)) => plan,
+        Err(e) => panic!("benchmark survey does not integrate: {e}"),
+    }
 }

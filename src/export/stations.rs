@@ -90,12 +90,14 @@ fn num(out: &mut String, v: f64, dp: usize, col: &str, chainage: f64) -> io::Res
 /// ```
 /// use chordline::export::stations::write_stations;
 /// use chordline::integrate::{NoiseSource, Plan, Station};
-/// use chordline::survey::Rail;
-/// use chordline::units::LengthUnit;
-/// let st = Station { chainage: 10.0, versine: Some(0.0125), rail: Rail::Left, curvature: 0.002,
+/// use chordline::survey::{Rail, Setup};
+/// use chordline::units::{LengthUnit, VersineUnit};
+/// let st = Station { chainage: 10.0, versine: Some(0.0125), rail: Rail::Left, line: 2, curvature: 0.002,
 ///     heading: std::f64::consts::FRAC_PI_2, x: 1.0, y: 2.0, rail_x: 0.2825, rail_y: 2.0,
 ///     position_sd: 0.001, heading_sd: 1e-4 };
-/// let plan = Plan { stations: vec![st], reading_sd: 1e-3, noise_source: NoiseSource::Stated, position_residuals: vec![] };
+/// let plan = Plan { stations: vec![st], reading_sd: 1e-3, noise_source: NoiseSource::Stated,
+///     position_residuals: vec![], setup: Setup::new(20.0, Rail::Left), source: "s.csv".into(),
+///     versine_unit: VersineUnit::Millimetre, resolution: None };
 /// let mut out = Vec::new();
 /// write_stations(&mut out, &plan, LengthUnit::Metre, None).unwrap();
 /// let text = String::from_utf8(out).unwrap();

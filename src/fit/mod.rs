@@ -16,17 +16,17 @@
 //!    screened out before the search, confirmed against the fitted design,
 //!    described (wrong sign, slipped decimal point, swapped digits) and left
 //!    out of the fit unless [`FitOptions::keep_outliers`] is set.
-//! 3. **Initial partition** ([`segment`]): a typed penalised optimal partition
+//! 3. **Initial partition** (`segment.rs`): a typed penalised optimal partition
 //!    of the curvature estimate `k̂ = 2v/a²` into straights, arcs and ramps.
-//! 4. **Chord-space fit** ([`lm`]): the partition becomes a continuous
+//! 4. **Chord-space fit** (`lm.rs`): the partition becomes a continuous
 //!    piecewise-linear curvature diagram whose versines are predicted exactly as
-//!    the chord measures them ([`model`]); Levenberg–Marquardt refines every
+//!    the chord measures them (`model.rs`); Levenberg–Marquardt refines every
 //!    boundary and arc curvature, curve by curve (curves separated by straights
 //!    longer than two chords are independent).
 //! 5. **Element count** (`search.rs`). Bottom-up moves (drop a short plateau, hold an arc at
 //!    zero, merge two equal plateaus) are accepted while the Bayesian
 //!    information criterion `RSS/σ² + p ln n` falls.
-//! 6. **Uncertainty** (`covariance.rs`, [`stats`], `elements.rs`): covariance `(JᵀJ)⁻¹JᵀΓJ(JᵀJ)⁻¹` with the
+//! 6. **Uncertainty** (`covariance.rs`, `stats.rs`, `elements.rs`): covariance `(JᵀJ)⁻¹JᵀΓJ(JᵀJ)⁻¹` with the
 //!    pooled residual autocovariance `Γ`, Student-t 95 % intervals, a profile
 //!    bound for transitions the chord cannot resolve.
 //!
@@ -42,22 +42,23 @@
 mod covariance;
 mod elements;
 mod known;
-pub mod lm;
-pub mod model;
+pub(crate) mod lm;
+pub(crate) mod model;
 mod noise;
 mod outliers;
 mod passes;
 mod result;
 mod search;
-pub mod segment;
-pub mod stats;
+pub(crate) mod segment;
+pub(crate) mod stats;
 
 pub use known::KnownSequence;
 pub use outliers::{Outlier, Slip};
 pub use result::{ElementStatus, Estimate, FitResult, FitStats, FittedElement, StationDesign};
 
 use crate::diag::Diagnostic;
-use crate::survey::{Rail, Setup, Survey};
+use crate::integrate::Plan;
+use crate::survey::Rail;
 use passes::{Searched, Settings, describe_outliers, note_outliers, search_robust};
 
 /// Options of the element fit. `Default` suits a 20 m-chord hand survey and
@@ -88,10 +89,6 @@ pub struct FitOptions {
     /// Threads for fitting independent curves of long surveys (`None`: one
     /// per processor). The result does not depend on it.
     pub threads: Option<usize>,
-    /// The reading noise already decided for this survey (m), e.g. the
-    /// integrated plan's estimate, used instead of estimating it again (not
-    /// treated as stated). `None`: estimated here the same way.
-    pub reading_noise: Option<f64>,
     /// Keep readings that look like blunders in the fit (they are still
     /// listed). Default: they are left out.
     pub keep_outliers: bool,
@@ -110,7 +107,6 @@ impl Default for FitOptions {
             bin: None,
             max_iterations: 60,
             threads: None,
-            reading_noise: None,
             keep_outliers: false,
         }
     }
@@ -138,18 +134,6 @@ pub enum FitError {
         what: &'static str,
         /// The value given.
         value: f64,
-    },
-    /// Chainages are not finite and strictly increasing.
-    #[error(
-        "chainage {chainage} m at line {line} of {source_name} is not a number above the one before; sort and check the survey"
-    )]
-    Unsorted {
-        /// Where the survey came from.
-        source_name: String,
-        /// The offending chainage.
-        chainage: f64,
-        /// Its line.
-        line: usize,
     },
 }
 
@@ -191,68 +175,37 @@ struct Input {
     spacing: f64,
 }
 
-fn check_input(survey: &Survey, setup: &Setup) -> Result<(), FitError> {
-    if !(setup.chord.is_finite() && setup.chord > 0.0) {
-        return Err(FitError::BadSetup {
-            what: "chord",
-            value: setup.chord,
-        });
-    }
-    if !(setup.gauge.is_finite() && setup.gauge >= 0.0) {
-        return Err(FitError::BadSetup {
-            what: "gauge",
-            value: setup.gauge,
-        });
-    }
-    if let Some(r) = survey.readings.iter().find(|r| !r.chainage.is_finite()) {
-        return Err(FitError::Unsorted {
-            source_name: survey.source.clone(),
-            chainage: r.chainage,
-            line: r.line,
-        });
-    }
-    for w in survey.readings.windows(2) {
-        if w[1].chainage.partial_cmp(&w[0].chainage) != Some(std::cmp::Ordering::Greater) {
-            return Err(FitError::Unsorted {
-                source_name: survey.source.clone(),
-                chainage: w[1].chainage,
-                line: w[1].line,
-            });
-        }
-    }
-    Ok(())
-}
-
-fn prepare(survey: &Survey, setup: &Setup, diags: &mut Vec<Diagnostic>) -> Result<Input, FitError> {
-    check_input(survey, setup)?;
+/// The fit's readings from the plan's stations, and the set-up in the fit's
+/// terms. The plan is already validated (chainages finite and strictly
+/// increasing, chord positive, gauge finite): nothing is checked again.
+fn prepare(plan: &Plan, diags: &mut Vec<Diagnostic>) -> Result<Input, FitError> {
+    let setup = &plan.setup;
     let (mut s, mut v, mut index) = (Vec::new(), Vec::new(), Vec::new());
     let mut n_left = 0usize;
-    for (i, r) in survey.readings.iter().enumerate() {
-        if let Some(x) = r.chord_side()
+    for (i, st) in plan.stations.iter().enumerate() {
+        if let Some(x) = st.versine.map(|v| st.rail.chord_side(v))
             && x.is_finite()
         {
-            s.push(r.chainage);
+            s.push(st.chainage);
             v.push(x);
             index.push(i);
-            n_left += usize::from(r.rail == Rail::Left);
+            n_left += usize::from(st.rail == Rail::Left);
         }
     }
     if s.len() < NEEDED {
         return Err(FitError::TooFewReadings {
-            source_name: survey.source.clone(),
+            source_name: plan.source.clone(),
             found: s.len(),
             needed: NEEDED,
         });
     }
     let n = s.len();
-    let rail = if !survey.has_side_column {
-        setup.rail
-    } else if n_left * 2 >= n {
+    let rail = if n_left * 2 >= n {
         Rail::Left
     } else {
         Rail::Right
     };
-    if survey.has_side_column && n_left != 0 && n_left != n {
+    if n_left != 0 && n_left != n {
         diags.push(Diagnostic::warning(
             "readings were taken on both rails; the element fit uses one rail chainage and converts radii with the rail most readings were on",
         ));
@@ -272,29 +225,6 @@ fn prepare(survey: &Survey, setup: &Setup, diags: &mut Vec<Diagnostic>) -> Resul
     })
 }
 
-/// The reading step of the survey (m), if its readings are visibly rounded.
-fn resolution(survey: &Survey) -> Option<f64> {
-    let vals: Vec<f64> = survey.readings.iter().filter_map(|r| r.versine).collect();
-    crate::integrate::detect_resolution(&vals, survey.versine_unit)
-}
-
-/// The reading noise (m): given, or estimated the way the integration does
-/// (median of third differences, never below the rounding of the readings).
-fn reading_noise(survey: &Survey, input: &Input, opts: &FitOptions) -> f64 {
-    if let Some(x) = opts.reading_noise.filter(|x| x.is_finite() && *x > 0.0) {
-        return x.max(NOISE_FLOOR);
-    }
-    let vcs: Vec<Option<f64>> = survey
-        .readings
-        .iter()
-        .map(|r| r.chord_side().filter(|x| x.is_finite()))
-        .collect();
-    let floor = resolution(survey).map_or(0.0, |q| q / 12f64.sqrt());
-    let est =
-        crate::integrate::estimate_noise(&vcs).unwrap_or_else(|| segment::white_sigma(&input.v));
-    est.max(floor).max(NOISE_FLOOR)
-}
-
 /// Fit straights, transitions and arcs to a versine survey.
 ///
 /// Returns the fitted elements with standard errors and intervals, the design
@@ -303,13 +233,12 @@ fn reading_noise(survey: &Survey, input: &Input, opts: &FitOptions) -> f64 {
 /// blunders, indeterminate elements).
 ///
 /// # Errors
-/// [`FitError::TooFewReadings`] with fewer than 8 readings; [`FitError::BadSetup`]
-/// for a non-positive chord or a negative gauge; [`FitError::Unsorted`] when
-/// chainages do not increase.
+/// [`FitError::TooFewReadings`] with fewer than 8 readings.
 ///
 /// # Examples
 /// ```
 /// use chordline::fit::{fit, FitOptions};
+/// use chordline::integrate::{integrate, IntegrateOptions};
 /// use chordline::geometry::{Alignment, Element, ElementKind, Pose};
 /// use chordline::simulate::{simulate, SimSetup};
 /// use chordline::survey::{Rail, Setup};
@@ -321,7 +250,9 @@ fn reading_noise(survey: &Survey, input: &Input, opts: &FitOptions) -> f64 {
 ///     Element::arc(300.0, 450.0), Element::transition(60.0, k, 0.0),
 ///     Element::straight(200.0)]);
 /// let sim = simulate(&design, &SimSetup::classic(20.0, Rail::Right)).unwrap();
-/// let (res, _diags) = fit(&sim.survey, &Setup::new(20.0, Rail::Right), &FitOptions::default()).unwrap();
+/// let setup = Setup::new(20.0, Rail::Right);
+/// let (plan, _) = integrate(&sim.survey, &setup, &IntegrateOptions::default()).unwrap();
+/// let (res, _diags) = fit(&plan, &FitOptions::default()).unwrap();
 /// let kinds: Vec<_> = res.elements.iter().map(|e| e.kind).collect();
 /// assert_eq!(kinds, [ElementKind::Straight, ElementKind::Transition, ElementKind::Arc,
 ///                    ElementKind::Transition, ElementKind::Straight]);
@@ -329,38 +260,28 @@ fn reading_noise(survey: &Survey, input: &Input, opts: &FitOptions) -> f64 {
 /// assert!((r - 450.0).abs() < 0.05, "{r}");
 /// assert!(res.outliers.is_empty());
 /// ```
-pub fn fit(
-    survey: &Survey,
-    setup: &Setup,
-    opts: &FitOptions,
-) -> Result<(FitResult, Vec<Diagnostic>), FitError> {
+pub fn fit(plan: &Plan, opts: &FitOptions) -> Result<(FitResult, Vec<Diagnostic>), FitError> {
     let mut diags = Vec::new();
-    let input = prepare(survey, setup, &mut diags)?;
-    let step = resolution(survey);
-    let st = settings(survey, setup, opts, &input, step);
+    let input = prepare(plan, &mut diags)?;
+    let st = settings(plan, opts, &input);
     let (sr, excluded, flagged) = search_robust(&st);
     let listed = if opts.keep_outliers {
         &flagged
     } else {
         &excluded
     };
-    let outliers = describe_outliers(survey, &st, &sr, listed, step);
-    note_outliers(survey, &outliers, &mut diags);
-    Ok((finish(survey, &st, sr, outliers, &mut diags), diags))
+    let outliers = describe_outliers(plan, &st, &sr, listed);
+    note_outliers(plan, &outliers, &mut diags);
+    Ok((finish(plan, &st, sr, outliers, &mut diags), diags))
 }
 
-fn settings<'a>(
-    survey: &Survey,
-    setup: &Setup,
-    opts: &'a FitOptions,
-    input: &'a Input,
-    step: Option<f64>,
-) -> Settings<'a> {
+fn settings<'a>(plan: &Plan, opts: &'a FitOptions, input: &'a Input) -> Settings<'a> {
+    let step = plan.resolution;
     Settings {
         input,
         opts,
-        sigma_read: reading_noise(survey, input, opts),
-        stated: opts.reading_sd.or(setup.reading_sd),
+        sigma_read: plan.reading_sd.max(NOISE_FLOOR),
+        stated: opts.reading_sd.or(plan.setup.reading_sd),
         floor: step.map_or(0.0, |q| q / 12f64.sqrt()),
         step,
         threads: opts
@@ -380,26 +301,24 @@ fn settings<'a>(
 /// As [`fit`], and [`FitError::BadSetup`] for a sequence that does not fit
 /// together (see [`KnownSequence`]).
 pub fn fit_known(
-    survey: &Survey,
-    setup: &Setup,
+    plan: &Plan,
     opts: &FitOptions,
     seq: &KnownSequence,
 ) -> Result<(FitResult, Vec<Diagnostic>), FitError> {
     let mut diags = Vec::new();
-    let input = prepare(survey, setup, &mut diags)?;
+    let input = prepare(plan, &mut diags)?;
     let chain = known::chain_of(seq, input.d_off).ok_or(FitError::BadSetup {
         what: "known element sequence (kinds, joints and curvatures must agree)",
         value: seq.kinds.len() as f64,
     })?;
-    let step = resolution(survey);
-    let st = settings(survey, setup, opts, &input, step);
+    let st = settings(plan, opts, &input);
     let sr = st.fit_chain(chain);
-    Ok((finish(survey, &st, sr, Vec::new(), &mut diags), diags))
+    Ok((finish(plan, &st, sr, Vec::new(), &mut diags), diags))
 }
 
 /// Residuals, covariance, elements and statistics of the final search.
 fn finish(
-    survey: &Survey,
+    plan: &Plan,
     st: &Settings,
     sr: Searched,
     outliers: Vec<Outlier>,
@@ -457,7 +376,7 @@ fn finish(
     let ex = elements::extract(&cx, diags);
     noise_diags(st, &sr, diags);
     let stats_out = fit_stats(st, &sr, &resid, rss, dof, cov.p_free, lag1, diags);
-    let (chainages, design_versine, residual) = per_reading(survey, st, &sr);
+    let (chainages, design_versine, residual) = per_reading(plan, st, &sr);
     FitResult {
         elements: ex.elements,
         design: ex.design,
@@ -628,7 +547,7 @@ fn fit_stats(
 /// Chainage, design versine (field convention) and residual at every
 /// reading of the survey, gaps included.
 fn per_reading(
-    survey: &Survey,
+    plan: &Plan,
     st: &Settings,
     sr: &Searched,
 ) -> (Vec<f64>, Vec<f64>, Vec<Option<f64>>) {
@@ -638,15 +557,17 @@ fn per_reading(
     } else {
         0.0
     };
-    let mut chainages = Vec::with_capacity(survey.readings.len());
-    let mut design_versine = Vec::with_capacity(survey.readings.len());
-    let mut residual = Vec::with_capacity(survey.readings.len());
-    for r in &survey.readings {
+    let n = plan.stations.len();
+    let mut chainages = Vec::with_capacity(n);
+    let mut design_versine = Vec::with_capacity(n);
+    let mut residual = Vec::with_capacity(n);
+    for r in &plan.stations {
         let dv = sr.chain.versine(r.chainage, inp.a, inp.eps) + shift;
         chainages.push(r.chainage);
         design_versine.push(r.rail.chord_side(dv));
         residual.push(
-            r.chord_side()
+            r.versine
+                .map(|v| r.rail.chord_side(v))
                 .filter(|o| o.is_finite())
                 .map(|o| r.rail.chord_side(o - dv)),
         );

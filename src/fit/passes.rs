@@ -7,7 +7,7 @@ use super::outliers::{self, Outlier};
 use super::search::{self, GroupFit, Problem};
 use super::{FitOptions, Input, NEEDED, NOISE_FLOOR, noise, segment};
 use crate::diag::{Diagnostic, Location};
-use crate::survey::Survey;
+use crate::integrate::Plan;
 
 /// The coarse first partition penalises with this many reading standard
 /// deviations: it only has to find the long straights, even when track
@@ -351,14 +351,14 @@ pub(super) fn search_robust(st: &Settings) -> (Searched, Vec<usize>, Vec<usize>)
 
 /// Each blunder with what it looks like.
 pub(super) fn describe_outliers(
-    survey: &Survey,
+    plan: &Plan,
     st: &Settings,
     sr: &Searched,
     listed: &[usize],
-    step: Option<f64>,
 ) -> Vec<Outlier> {
     let inp = st.input;
-    let decimals = outliers::decimals_of(step, survey.versine_unit);
+    let step = plan.resolution;
+    let decimals = outliers::decimals_of(step, plan.versine_unit);
     let shift = if sr.bias_removed {
         sr.bias.map_or(0.0, |b| b.0)
     } else {
@@ -367,7 +367,7 @@ pub(super) fn describe_outliers(
     listed
         .iter()
         .map(|&i| {
-            let r = &survey.readings[inp.index[i]];
+            let r = &plan.stations[inp.index[i]];
             let model = sr.chain.versine(inp.s[i], inp.a, inp.eps) + shift;
             let expected = r.rail.chord_side(model);
             let read = r.versine.unwrap_or(f64::NAN);
@@ -379,15 +379,15 @@ pub(super) fn describe_outliers(
                 read,
                 expected,
                 z: (inp.v[i] - model).abs() / sr.sigma_res,
-                looks_like: outliers::classify(read, expected, tol, survey.versine_unit, decimals),
+                looks_like: outliers::classify(read, expected, tol, plan.versine_unit, decimals),
                 excluded: !st.opts.keep_outliers,
             }
         })
         .collect()
 }
 
-pub(super) fn note_outliers(survey: &Survey, outliers: &[Outlier], diags: &mut Vec<Diagnostic>) {
-    let vu = survey.versine_unit;
+pub(super) fn note_outliers(plan: &Plan, outliers: &[Outlier], diags: &mut Vec<Diagnostic>) {
+    let vu = plan.versine_unit;
     for o in outliers {
         let d = Diagnostic::warning(format!(
             "the reading at chainage {:.3} m looks like a blunder ({}): read {:.2} {}, the fitted design expects {:.2} {} ({:.0} robust standard deviations off); {}",
@@ -411,7 +411,7 @@ pub(super) fn note_outliers(survey: &Survey, outliers: &[Outlier], diags: &mut V
         });
         diags.push(if o.line > 0 {
             d.at(Location {
-                file: survey.source.clone(),
+                file: plan.source.clone(),
                 line: o.line,
                 column: None,
             })

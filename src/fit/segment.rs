@@ -61,26 +61,6 @@ pub struct DpOptions {
     pub max_ramp: f64,
 }
 
-/// White noise of the readings from second differences `v_{i−1} − 2v_i +
-/// v_{i+1}` (variance `6σ²`): the mean square of the smallest 90 % divided by
-/// 0.62297, the mean square of a standard normal variable truncated to its
-/// central 90 % (`1 − 2qφ(q)/0.9`, `q = 1.6449`; derived here). Robust to the
-/// kinks of the signal and to spikes, and unlike a median it does not collapse
-/// to zero when coarse rounding makes most differences exactly zero.
-pub fn white_sigma(v: &[f64]) -> f64 {
-    if v.len() < 5 {
-        return 0.0;
-    }
-    let mut d: Vec<f64> = v
-        .windows(3)
-        .map(|w| (w[0] - 2.0 * w[1] + w[2]).abs())
-        .collect();
-    d.sort_by(|a, b| a.total_cmp(b));
-    let keep = ((d.len() as f64 * 0.9).round() as usize).max(1);
-    let ms = d[..keep].iter().map(|x| x * x).sum::<f64>() / keep as f64;
-    (ms / 0.62297 / 6.0).sqrt()
-}
-
 struct Prefix {
     n: Vec<f64>,
     x: Vec<f64>,

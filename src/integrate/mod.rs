@@ -32,6 +32,7 @@
 use crate::diag::{Diagnostic, Location};
 use crate::geometry::Pose;
 use crate::survey::{Setup, Survey};
+use crate::units::VersineUnit;
 
 mod adjust;
 mod banded;
@@ -109,6 +110,8 @@ pub struct Station {
     pub versine: Option<f64>,
     /// The rail the reading was taken on.
     pub rail: crate::survey::Rail,
+    /// 1-based line of the reading in the survey file (0 when not read from a file).
+    pub line: usize,
     /// Curvature of the track centreline, 1/m, positive curving left.
     pub curvature: f64,
     /// Heading of the centreline, radians CCW from east (local frame).
@@ -149,6 +152,14 @@ pub struct Plan {
     pub noise_source: NoiseSource,
     /// Residuals of the position observations, in the order given.
     pub position_residuals: Vec<PositionResidual>,
+    /// The set-up the plan was integrated with; what the later stages use.
+    pub setup: Setup,
+    /// Where the survey came from (a file path as given), for messages.
+    pub source: String,
+    /// Unit the versines were written in (messages of later stages follow it).
+    pub versine_unit: VersineUnit,
+    /// The rounding step of the readings (m), when the readings show one.
+    pub resolution: Option<f64>,
 }
 
 /// Why the integration could not run.
@@ -327,7 +338,7 @@ pub fn integrate(
             file: survey.source.clone(),
         });
     }
-    let (sigma, source) = phases::reading_sigma(&inp, &mut diags);
+    let (sigma, source, resolution) = phases::reading_sigma(&inp, &mut diags);
     let nominal = if inp.classic_spacing() {
         phases::classic_nominal(&inp, opts.start, sigma, &mut diags)?
     } else {
@@ -382,6 +393,10 @@ pub fn integrate(
             reading_sd: sigma,
             noise_source: source,
             position_residuals,
+            setup: setup.clone(),
+            source: survey.source.clone(),
+            versine_unit: survey.versine_unit,
+            resolution,
         },
         diags,
     ))

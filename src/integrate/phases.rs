@@ -131,8 +131,12 @@ pub(super) fn check_readings(survey: &Survey) -> Result<(), IntegrateError> {
 }
 
 /// The reading standard deviation and where it came from: stated, estimated
-/// from the readings, or the rounding floor (never below it).
-pub(super) fn reading_sigma(inp: &Inputs, diags: &mut Vec<Diagnostic>) -> (f64, NoiseSource) {
+/// from the readings, or the rounding floor (never below it); and the
+/// rounding step the readings show.
+pub(super) fn reading_sigma(
+    inp: &Inputs,
+    diags: &mut Vec<Diagnostic>,
+) -> (f64, NoiseSource, Option<f64>) {
     let (survey, setup, vcs) = (inp.survey, inp.setup, &inp.vcs);
     let rd = &survey.readings;
     let vals: Vec<f64> = rd.iter().filter_map(|r| r.versine).collect();
@@ -200,7 +204,7 @@ pub(super) fn reading_sigma(inp: &Inputs, diags: &mut Vec<Diagnostic>) -> (f64, 
         ))
     )));
 
-    (sigma, source)
+    (sigma, source, resolution.filter(|_| !all_zero))
 }
 
 /// The exact polygon of the marks, run by run on one rail, with the gaps
@@ -499,6 +503,7 @@ pub(super) fn build_stations(
             chainage: s[i],
             versine: rd[i].versine,
             rail: rd[i].rail,
+            line: rd[i].line,
             curvature: kc,
             heading: th,
             x: cx,

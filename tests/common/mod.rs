@@ -79,3 +79,15 @@ pub fn check_contract(dir: &Path) -> bool {
     );
     true
 }
+
+/// The integrated plan of `survey` (no control points, default start): what
+/// the element fit takes.
+pub fn plan_of(
+    survey: &chordline::survey::Survey,
+    setup: &chordline::survey::Setup,
+) -> chordline::integrate::Plan {
+    let opts = chordline::integrate::IntegrateOptions::default();
+    chordline::integrate::integrate(survey, setup, &opts)
+        .expect("integrate")
+        .0
+}
