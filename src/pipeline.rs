@@ -182,7 +182,7 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
                     .map(|s| (s.chainage, s.x, s.y))
                     .collect();
                 let placed = f.place(&points);
-                let at = f.design_at_stations(&placed);
+                let at = f.station_design(&placed);
                 design = Some((placed, at));
                 fitted = Some(f);
             }

@@ -5,8 +5,8 @@
 //! depend on it, not on each other.
 
 use crate::diag::Diagnostic;
-use crate::export::stations::DesignAtStation;
 use crate::fit::FitResult;
+use crate::fit::StationDesign;
 use crate::georef::{ControlCheck, Georef};
 use crate::integrate::Plan;
 use crate::survey::{Setup, Survey};
@@ -24,7 +24,7 @@ pub struct Results {
     pub fit: Option<FitResult>,
     /// The design placed in the plan frame and its values at every station
     /// (with `fit`).
-    pub design: Option<(crate::geometry::Alignment, Vec<DesignAtStation>)>,
+    pub design: Option<(crate::geometry::Alignment, Vec<StationDesign>)>,
     /// The placement on the Earth, when one was asked for.
     pub georef: Option<Georef>,
     /// The verdict on each control point (empty without control points).

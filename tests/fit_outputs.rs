@@ -297,7 +297,7 @@ fn pipeline_integrate_fit_place_write_stations() {
         .map(|s| (s.chainage, s.x, s.y))
         .collect();
     let placed = res.place(&pts);
-    let design = res.design_at_stations(&placed);
+    let design = res.station_design(&placed);
     assert_eq!(design.len(), plan.stations.len());
     // The placed design follows the integrated centreline closely.
     let worst = design

@@ -3,7 +3,8 @@
 
 #[path = "support/skip.rs"]
 mod skip;
-use chordline::export::stations::{DesignAtStation, write_stations};
+use chordline::export::stations::write_stations;
+use chordline::fit::StationDesign;
 use chordline::geometry::{Alignment, Element, Pose};
 use chordline::integrate::{IntegrateOptions, Plan, integrate};
 use chordline::simulate::{SimSetup, simulate};
@@ -38,7 +39,7 @@ fn plan(imperial: bool) -> Plan {
         .0
 }
 
-fn text(p: &Plan, unit: LengthUnit, design: Option<&[DesignAtStation]>) -> String {
+fn text(p: &Plan, unit: LengthUnit, design: Option<&[StationDesign]>) -> String {
     let mut out = Vec::new();
     write_stations(&mut out, p, unit, design).unwrap();
     String::from_utf8(out).unwrap()
@@ -94,10 +95,11 @@ fn imperial_columns_and_degree_of_curve() {
 #[test]
 fn design_columns_follow_and_bad_values_are_refused() {
     let p = plan(false);
-    let d: Vec<DesignAtStation> = p
+    let d: Vec<StationDesign> = p
         .stations
         .iter()
-        .map(|s| DesignAtStation {
+        .map(|s| StationDesign {
+            chainage: s.chainage,
             design_versine: 0.01,
             residual: Some(-0.0005),
             x: s.x + 0.001,

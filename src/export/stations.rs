@@ -30,23 +30,11 @@
 //! Numbers have fixed decimals, so the same plan always gives the same bytes.
 //! A value that is not finite is refused (an error), never written as NaN.
 
+use crate::fit::StationDesign;
 use crate::integrate::Plan;
+use crate::realign::StationSlew;
 use crate::units::{LengthUnit, VersineUnit};
 use std::io::{self, Write};
-
-/// The design (fitted alignment) at one station, all SI, for the last four columns.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct DesignAtStation {
-    /// Design versine (field convention, like the reading), metres.
-    pub design_versine: f64,
-    /// Measured minus design versine, metres; `None` where the reading is
-    /// missing (written as an empty cell).
-    pub residual: Option<f64>,
-    /// Design centreline easting, metres.
-    pub x: f64,
-    /// Design centreline northing, metres.
-    pub y: f64,
-}
 
 const POW10: [f64; 10] = [1.0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9];
 
@@ -108,7 +96,7 @@ pub fn write_stations(
     w: impl Write,
     plan: &Plan,
     unit: LengthUnit,
-    design: Option<&[DesignAtStation]>,
+    design: Option<&[StationDesign]>,
 ) -> io::Result<()> {
     write_stations_with(
         w,
@@ -132,15 +120,6 @@ pub struct GeoAtStation {
     pub true_bearing: f64,
 }
 
-/// The slew at one station (lateral move onto the design).
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct SlewAtStation {
-    /// Slew, metres, positive to the left facing increasing chainage.
-    pub slew: f64,
-    /// Its standard deviation, metres.
-    pub sd: f64,
-}
-
 /// Grid coordinates (grid units) at every station, for a survey placed with `--crs`.
 #[derive(Debug, Clone, Copy)]
 pub struct GridColumns<'a> {
@@ -161,12 +140,12 @@ pub struct StationExtras<'a> {
     /// (the local frame then goes to `local_easting`, `local_northing`).
     pub grid: Option<GridColumns<'a>>,
     /// The fitted design: `design_versine`, `residual`, `design_easting`, `design_northing`.
-    pub design: Option<&'a [DesignAtStation]>,
+    pub design: Option<&'a [StationDesign]>,
     /// A placed survey: `bearing_deg` becomes the true bearing, and
     /// `longitude_deg`, `latitude_deg` are added.
     pub geo: Option<&'a [GeoAtStation]>,
     /// Slews onto the design: `slew`, `slew_sd` (versine unit).
-    pub slews: Option<&'a [SlewAtStation]>,
+    pub slews: Option<&'a [StationSlew]>,
 }
 
 /// [`write_stations`] with any of the optional column groups.
@@ -366,7 +345,7 @@ impl GridCoords {
     pub fn of(
         g: &crate::georef::Georef,
         plan: &Plan,
-        design: Option<&[DesignAtStation]>,
+        design: Option<&[StationDesign]>,
     ) -> Result<Option<GridCoords>, crate::georef::CrsError> {
         let Some(crs) = &g.crs else { return Ok(None) };
         let to_grid = |x: f64, y: f64| {

@@ -301,7 +301,9 @@ impl FitResult {
     }
 
     /// Design versine, residual and design centreline position at every
-    /// reading, for a design placed with [`FitResult::place`].
+    /// reading (gaps included, in survey order; a gap has no residual), for a
+    /// design placed with [`FitResult::place`]: the design columns of
+    /// `stations.csv`.
     pub fn station_design(&self, placed: &Alignment) -> Vec<StationDesign> {
         self.chainages
             .iter()
@@ -316,24 +318,6 @@ impl FitResult {
                     x: p.x,
                     y: p.y,
                 }
-            })
-            .collect()
-    }
-
-    /// The design columns of `stations.csv`, one per survey reading (gaps
-    /// included, in survey order), for a design placed with
-    /// [`FitResult::place`]. A gap has no residual (an empty cell).
-    pub fn design_at_stations(
-        &self,
-        placed: &Alignment,
-    ) -> Vec<crate::export::stations::DesignAtStation> {
-        self.station_design(placed)
-            .into_iter()
-            .map(|d| crate::export::stations::DesignAtStation {
-                design_versine: d.design_versine,
-                residual: d.residual,
-                x: d.x,
-                y: d.y,
             })
             .collect()
     }

@@ -179,6 +179,15 @@ impl SlewOptions {
     }
 }
 
+/// The slew at one station (lateral move onto the design).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct StationSlew {
+    /// Slew, metres, positive to the left facing increasing chainage.
+    pub slew: f64,
+    /// Its standard deviation, metres.
+    pub sd: f64,
+}
+
 /// Slews at every reading of the work section (gaps included), SI units.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Slews {
@@ -289,11 +298,11 @@ impl Slews {
     /// `slew_in`, `slew_sd_in`), one per survey reading, for
     /// [`crate::export::stations::StationExtras::slews`]. Outside the work
     /// section the track is not moved: slew and sd 0.
-    pub fn at_stations(&self) -> Vec<crate::export::stations::SlewAtStation> {
-        let none = crate::export::stations::SlewAtStation { slew: 0.0, sd: 0.0 };
+    pub fn at_stations(&self) -> Vec<StationSlew> {
+        let none = StationSlew { slew: 0.0, sd: 0.0 };
         let mut out = vec![none; self.survey_len];
         for (k, (&slew, &sd)) in self.slew.iter().zip(&self.sd).enumerate() {
-            out[self.first + k] = crate::export::stations::SlewAtStation { slew, sd };
+            out[self.first + k] = StationSlew { slew, sd };
         }
         out
     }

@@ -42,6 +42,7 @@ mod checks;
 mod error;
 mod header;
 mod numbers;
+mod rows;
 mod source;
 mod text;
 
@@ -50,7 +51,6 @@ pub use source::{STDIN_NAME, read_survey_input, read_survey_source};
 
 use header::Columns;
 pub(crate) use numbers::versine_word;
-use numbers::{Quantity, number_error};
 use text::LineKind;
 
 /// What the reader needs to know that the file does not say.
@@ -165,6 +165,25 @@ pub fn read_survey_bytes(
 /// taken to 0.5 or 1 mm, recording vehicles report 0.1 mm or so).
 const FINE_DECIMALS: u32 = 3;
 
+/// The header line and what it decided.
+struct Head {
+    /// Its line number.
+    line: usize,
+    delim: char,
+    /// Lines in the file, and whether the last one ends with a newline (a
+    /// file cut off mid-line does not).
+    total_lines: usize,
+    ends_with_newline: bool,
+    cols: Columns,
+}
+
+impl Head {
+    /// Semicolon- and tab-separated files may write decimal commas.
+    fn decimal_comma(&self) -> bool {
+        self.delim != ','
+    }
+}
+
 struct Reader<'a> {
     name: &'a str,
     text: &'a str,
@@ -217,13 +236,51 @@ impl<'a> Reader<'a> {
     }
 
     fn run(mut self) -> Result<(Survey, Vec<Diagnostic>), SurveyError> {
-        let name = self.name;
-        let total_lines = self.text.trim_end_matches('\n').matches('\n').count() + 1;
-        let ends_with_newline = self.text.ends_with('\n');
         let mut lines = text::lines(self.text);
+        let head = self.header(&mut lines)?;
+        self.note_unused_columns(&head);
+        if head.cols.side.is_none() && self.opts.rail.is_none() {
+            return Err(SurveyError::file(self.name, SurveyErrorKind::NoRail));
+        }
+        let (readings, stats) = self.rows(&head, lines)?;
+        self.check_rows(&head, &readings, &stats)?;
+        let cols = &head.cols;
+        let ctx = checks::Context {
+            file: self.name,
+            cols,
+            chord: self.opts.chord,
+            marking: self.opts.marking,
+            thousands_like: head.decimal_comma() && stats.thousands_like == readings.len(),
+        };
+        let (regular, s_nom) = checks::spacing(&ctx, &readings, &mut self.diags)?;
+        let (readings, regular) = checks::fill_gaps(readings, regular, s_nom);
+        checks::units(
+            &ctx,
+            &readings,
+            stats.fine_decimals,
+            stats.nonzero,
+            &mut self.diags,
+        )?;
+        checks::outliers(&ctx, &readings, &regular, &mut self.diags);
+        Ok((
+            Survey {
+                source: self.name.to_string(),
+                chainage_unit: cols.chainage_unit,
+                versine_unit: cols.versine_unit,
+                readings,
+                has_side_column: cols.side.is_some(),
+            },
+            self.diags,
+        ))
+    }
 
-        // Header: the first line that is neither blank nor a comment (nor a
-        // spreadsheet's `sep=;` line, which names the delimiter).
+    /// The header: the first line that is neither blank nor a comment (nor
+    /// a spreadsheet's `sep=;` line, which names the delimiter).
+    fn header<'t>(
+        &self,
+        lines: &mut impl Iterator<Item = (usize, &'t str)>,
+    ) -> Result<Head, SurveyError> {
+        let name = self.name;
         let mut header = None;
         let mut sep_line = None;
         for (no, line) in lines.by_ref() {
@@ -241,27 +298,31 @@ impl<'a> Reader<'a> {
                 LineKind::Blank | LineKind::Comment => {}
             }
         }
-        let Some((header_line, header_text)) = header else {
+        let Some((line, header_text)) = header else {
             return Err(SurveyError::file(name, SurveyErrorKind::NoHeader));
         };
         let delim = sep_line.unwrap_or_else(|| text::detect_delimiter(header_text));
-        let decimal_comma = delim != ',';
         let mut cells: Vec<Cow<'_, str>> = Vec::new();
         text::split_into(header_text, delim, &mut cells)
-            .map_err(|k| SurveyError::line(name, header_line, k))?;
+            .map_err(|k| SurveyError::line(name, line, k))?;
         let cols = header::parse_header(&cells).map_err(|(field, kind)| match field {
-            Some(i) => SurveyError::cell(name, header_line, &cells[i], i + 1, kind),
-            None => SurveyError::line(name, header_line, kind),
+            Some(i) => SurveyError::cell(name, line, &cells[i], i + 1, kind),
+            None => SurveyError::line(name, line, kind),
         })?;
-        // Unnamed columns (often trailing empty cells of a spreadsheet) get a
-        // warning only when a line has something in them.
-        let mut unnamed: Vec<usize> = Vec::new();
+        Ok(Head {
+            line,
+            delim,
+            total_lines: self.text.trim_end_matches('\n').matches('\n').count() + 1,
+            ends_with_newline: self.text.ends_with('\n'),
+            cols,
+        })
+    }
+
+    /// A warning per unused named column (capped, with a count).
+    fn note_unused_columns(&mut self, head: &Head) {
+        let cols = &head.cols;
         let mut unused = 0usize;
-        for &i in &cols.unknown {
-            if cols.names[i].is_empty() {
-                unnamed.push(i);
-                continue;
-            }
+        for &i in cols.unknown.iter().filter(|&&i| !cols.names[i].is_empty()) {
             unused += 1;
             if unused > checks::MAX_LISTED {
                 continue;
@@ -269,7 +330,7 @@ impl<'a> Reader<'a> {
             let col = crate::diag::quote_capped(&cols.names[i]);
             let what = format!("column '{col}' (field {}) is not used", i + 1);
             let d = Diagnostic::warning(what)
-                .at(self.loc(header_line, Some(&col)))
+                .at(self.loc(head.line, Some(&col)))
                 .hint("the columns read are chainage_m|chainage_ft, versine_mm|versine_m|versine_in|versine_ft, side and note");
             self.diags.push(d);
         }
@@ -279,285 +340,20 @@ impl<'a> Reader<'a> {
                     "{} more columns are not used (not listed)",
                     unused - checks::MAX_LISTED
                 ))
-                .at(self.loc(header_line, None)),
+                .at(self.loc(head.line, None)),
             );
         }
-        if cols.side.is_none() && self.opts.rail.is_none() {
-            return Err(SurveyError::file(name, SurveyErrorKind::NoRail));
-        }
+    }
 
-        let mut readings: Vec<Reading> = Vec::new();
-        let mut stats = RowStats::default();
-        // Previous reading: chainage text, line.
-        let mut prev: Option<(Cow<'_, str>, usize)> = None;
-        let mut prev_prev_chainage: Option<f64> = None;
-        let required_max = cols.chainage.max(cols.versine).max(cols.side.unwrap_or(0));
-        let ncols = cols.names.len();
-
-        for (no, line) in lines {
-            match text::classify(line).map_err(|k| SurveyError::line(name, no, k))? {
-                LineKind::Blank | LineKind::Comment => continue,
-                LineKind::Content => {}
-            }
-            let is_last = no == total_lines;
-            if let Err(k) = text::split_into(line, delim, &mut cells) {
-                // A file cut inside a quoted note ends in an open quote.
-                let kind = if is_last && !ends_with_newline {
-                    SurveyErrorKind::Truncated {
-                        found: line[..line.rfind('"').unwrap_or(0)].matches(delim).count() + 1,
-                        expected: ncols,
-                    }
-                } else {
-                    k
-                };
-                return Err(SurveyError::line(name, no, kind));
-            }
-            if cells.iter().all(|c| c.is_empty()) {
-                // Padding rows that spreadsheets write (",,,").
-                continue;
-            }
-            if cells.len() < ncols && is_last && !ends_with_newline {
-                if cells.len() <= required_max {
-                    return Err(SurveyError::line(
-                        name,
-                        no,
-                        SurveyErrorKind::Truncated {
-                            found: cells.len(),
-                            expected: ncols,
-                        },
-                    ));
-                }
-                self.diags.push(
-                    Diagnostic::warning(format!(
-                        "the last line has {} of {} fields and the file ends in the middle of it: the file may have been cut off",
-                        cells.len(),
-                        ncols
-                    ))
-                    .at(self.loc(no, None))
-                    .hint("compare the end of the file with its source"),
-                );
-            }
-            if cells.len() <= required_max {
-                let missing = [
-                    (cols.chainage, "chainage"),
-                    (cols.versine, "versine"),
-                    (cols.side.unwrap_or(0), "side"),
-                ]
-                .into_iter()
-                .filter(|(i, _)| *i >= cells.len())
-                .min_by_key(|(i, _)| *i)
-                .map_or("versine", |(_, w)| w);
-                let other = [',', ';', '\t']
-                    .into_iter()
-                    .find(|&d| d != delim && line.contains(d));
-                let todo = match other {
-                    Some(d) => format!(
-                        "this line seems to separate fields with {} while the header uses {}; use one delimiter throughout",
-                        delim_name(d),
-                        delim_name(delim)
-                    ),
-                    None if missing == "versine" => format!(
-                        "if the reading is missing, keep its field and leave it empty (e.g. '{}{}')",
-                        cells.first().map_or("", |c| c.as_ref()),
-                        delim
-                    ),
-                    None => "complete the line or delete it".to_string(),
-                };
-                return Err(SurveyError::line(
-                    name,
-                    no,
-                    SurveyErrorKind::MissingField {
-                        found: cells.len(),
-                        expected: ncols,
-                        what: missing,
-                        todo,
-                    },
-                ));
-            }
-            if cells.len() > ncols && cells[ncols..].iter().any(|c| !c.is_empty()) {
-                let todo = if delim == ',' {
-                    "if you wrote decimal commas (12,5), write decimal points (12.5) or separate the fields with semicolons; put a note that contains commas in quotes (\"near bridge, left\")".to_string()
-                } else {
-                    format!(
-                        "put a note that contains the {} in quotes, or delete the extra cells",
-                        delim_name(delim)
-                    )
-                };
-                return Err(SurveyError::line(
-                    name,
-                    no,
-                    SurveyErrorKind::TooManyFields {
-                        found: cells.len(),
-                        expected: ncols,
-                        todo,
-                    },
-                ));
-            }
-
-            if !unnamed.is_empty() {
-                let filled = unnamed
-                    .iter()
-                    .position(|&i| cells.get(i).is_some_and(|c| !c.is_empty()));
-                if let Some(k) = filled {
-                    let i = unnamed.swap_remove(k);
-                    self.diags.push(
-                        Diagnostic::warning(format!(
-                            "field {} has values but no name in the header; they are not used",
-                            i + 1
-                        ))
-                        .at(self.loc(no, None))
-                        .hint("name the column in the header if it matters, e.g. side or note, or delete it"),
-                    );
-                }
-            }
-
-            // Chainage.
-            let ch_text = &cells[cols.chainage];
-            if ch_text.is_empty() {
-                return Err(self.cell_err(
-                    &cols,
-                    no,
-                    cols.chainage,
-                    SurveyErrorKind::EmptyChainage,
-                ));
-            }
-            let chainage_file = match text::parse_number(ch_text, decimal_comma) {
-                Ok((v, _)) => v,
-                Err(p) => {
-                    let kind =
-                        number_error(p, ch_text, Quantity::Chainage(cols.chainage_unit), delim);
-                    return Err(self.cell_err(&cols, no, cols.chainage, kind));
-                }
-            };
-            let chainage = cols.chainage_unit.to_m(chainage_file);
-            if chainage.abs() > MAX_CHAINAGE {
-                let max = fmt_num(cols.chainage_unit.from_m(MAX_CHAINAGE).round());
-                let text = crate::diag::quote_capped(ch_text);
-                let kind = SurveyErrorKind::ChainageTooLarge { text, max };
-                return Err(self.cell_err(&cols, no, cols.chainage, kind));
-            }
-            if decimal_comma && looks_like_thousands(ch_text) {
-                stats.thousands_like += 1;
-            }
-            if readings.len() == 1 {
-                stats.second_chainage = ch_text.to_string();
-            }
-            if let (Some((prev_text, prev_line)), Some(last)) = (&prev, readings.last()) {
-                if chainage == last.chainage {
-                    return Err(self.cell_err(
-                        &cols,
-                        no,
-                        cols.chainage,
-                        SurveyErrorKind::Repeated {
-                            value: ch_text.to_string(),
-                            previous_line: *prev_line,
-                        },
-                    ));
-                }
-                if chainage < last.chainage {
-                    let todo = if readings.len() == 1 {
-                        "readings must be in increasing chainage; if the survey ran the other way, sort the lines into increasing chainage (and check the side column, which names rails facing increasing chainage)".to_string()
-                    } else if prev_prev_chainage.is_some_and(|pp| {
-                        chainage > pp && last.chainage - pp > 3.0 * (chainage - pp)
-                    }) {
-                        format!(
-                            "readings must be in increasing chainage; the chainage on line {prev_line} ({prev_text}) looks like the typing error"
-                        )
-                    } else {
-                        "readings must be in increasing chainage; sort the lines by chainage, or correct a typing error".to_string()
-                    };
-                    return Err(self.cell_err(
-                        &cols,
-                        no,
-                        cols.chainage,
-                        SurveyErrorKind::Backwards {
-                            value: ch_text.to_string(),
-                            previous: prev_text.to_string(),
-                            previous_line: *prev_line,
-                            todo,
-                        },
-                    ));
-                }
-            }
-
-            // Versine.
-            let v_text = &cells[cols.versine];
-            let versine = if v_text.is_empty() {
-                if stats.missing == 0 {
-                    stats.first_missing_line = no;
-                }
-                stats.missing += 1;
-                None
-            } else {
-                match text::parse_number(v_text, decimal_comma) {
-                    Ok((v, decimals)) => {
-                        if v != 0.0 {
-                            stats.nonzero += 1;
-                            if decimals >= FINE_DECIMALS {
-                                stats.fine_decimals += 1;
-                            }
-                        }
-                        Some(cols.versine_unit.to_m(v))
-                    }
-                    Err(p) => {
-                        let kind =
-                            number_error(p, v_text, Quantity::Versine(cols.versine_unit), delim);
-                        return Err(self.cell_err(&cols, no, cols.versine, kind));
-                    }
-                }
-            };
-
-            // Rail.
-            let rail = match cols.side {
-                None => self.opts.rail.unwrap_or(Rail::Left),
-                Some(i) => {
-                    let s = cells.get(i).map_or("", |c| c.as_ref());
-                    let rail = parse_side(s).map_err(|k| self.cell_err(&cols, no, i, k))?;
-                    if let Some(given) = self.opts.rail
-                        && given != rail
-                    {
-                        return Err(self.cell_err(
-                            &cols,
-                            no,
-                            i,
-                            SurveyErrorKind::RailContradicts {
-                                given: given.name(),
-                                text: crate::diag::quote_capped(s),
-                            },
-                        ));
-                    }
-                    if let Some(last) = readings.last()
-                        && last.rail != rail
-                    {
-                        self.diags.push(
-                            Diagnostic::note(format!(
-                                "the readings change from the {} rail to the {} rail here",
-                                last.rail.name(),
-                                rail.name()
-                            ))
-                            .at(self.loc(no, Some(&cols.names[i]))),
-                        );
-                    }
-                    rail
-                }
-            };
-            let note = cols
-                .note
-                .and_then(|i| cells.get(i))
-                .filter(|c| !c.is_empty())
-                .map(|c| c.to_string());
-
-            prev_prev_chainage = readings.last().map(|r| r.chainage);
-            readings.push(Reading {
-                chainage,
-                versine,
-                rail,
-                note,
-                line: no,
-            });
-            prev = Some((cells[cols.chainage].clone(), no));
-        }
-
+    /// What the rows as a whole must be: some readings, at least three, not
+    /// every versine missing; notes on thousands-like chainages and gaps.
+    fn check_rows(
+        &mut self,
+        head: &Head,
+        readings: &[Reading],
+        stats: &RowStats,
+    ) -> Result<(), SurveyError> {
+        let (name, cols, header_line) = (self.name, &head.cols, head.line);
         if readings.is_empty() {
             return Err(SurveyError::line(
                 name,
@@ -588,13 +384,13 @@ impl<'a> Reader<'a> {
                 }),
             });
         }
-        if decimal_comma && stats.thousands_like == readings.len() {
+        if head.decimal_comma() && stats.thousands_like == readings.len() {
             self.diags.push(
                 Diagnostic::warning(format!(
                     "every chainage has three digits after a point, like {} on line {}, in a {}-separated file where '.' may separate thousands; they are read with '.' as the decimal point ({} {})",
                     stats.second_chainage,
                     readings[1].line,
-                    if delim == ';' { "semicolon" } else { "tab" },
+                    if head.delim == ';' { "semicolon" } else { "tab" },
                     fmt_num(cols.chainage_unit.from_m(readings[1].chainage)),
                     cols.chainage_unit.suffix()
                 ))
@@ -614,34 +410,7 @@ impl<'a> Reader<'a> {
             );
         }
 
-        let ctx = checks::Context {
-            file: name,
-            cols: &cols,
-            chord: self.opts.chord,
-            marking: self.opts.marking,
-            thousands_like: decimal_comma && stats.thousands_like == readings.len(),
-        };
-        let (regular, s_nom) = checks::spacing(&ctx, &readings, &mut self.diags)?;
-        let (readings, regular) = checks::fill_gaps(readings, regular, s_nom);
-        checks::units(
-            &ctx,
-            &readings,
-            stats.fine_decimals,
-            stats.nonzero,
-            &mut self.diags,
-        )?;
-        checks::outliers(&ctx, &readings, &regular, &mut self.diags);
-
-        Ok((
-            Survey {
-                source: name.to_string(),
-                chainage_unit: cols.chainage_unit,
-                versine_unit: cols.versine_unit,
-                readings,
-                has_side_column: cols.side.is_some(),
-            },
-            self.diags,
-        ))
+        Ok(())
     }
 
     fn cell_err(
