@@ -118,6 +118,41 @@ pub(crate) fn spacing(
     r: &[Reading],
     diags: &mut Vec<Diagnostic>,
 ) -> Result<(Vec<bool>, f64), SurveyError> {
+    let nominal = nominal_spacing(ctx, r)?;
+    let (m, s_nom) = (nominal.steps_per_half_chord, nominal.spacing);
+    if ctx.marking == Marking::Taped && m > MAX_TAPED_STEPS {
+        diags.push(
+            Diagnostic::warning(format!(
+                "the readings are {} apart, {} to the half chord of {}: a hand survey with taped marks reads every half chord or a few times more often",
+                ctx.len(s_nom),
+                fmt_num(m),
+                ctx.chord_text()
+            ))
+            .hint(format!(
+                "check --chord (a chord of {} reads every half chord at this spacing); for a trolley or vehicle give --marking wire",
+                ctx.len(2.0 * s_nom)
+            )),
+        );
+    }
+    let scan = scan_steps(ctx, r, s_nom, diags)?;
+    warn_irregular(ctx, r, &scan, s_nom, diags);
+    warn_scale(ctx, &scan, &nominal, diags);
+    Ok((scan.regular, s_nom))
+}
+
+/// The regular spacing the readings follow: the median step, fitted to a
+/// whole fraction of the half chord.
+struct Nominal {
+    /// Steps to the half chord.
+    steps_per_half_chord: f64,
+    /// The nominal step (m).
+    spacing: f64,
+}
+
+/// The nominal spacing, or why the readings cannot be on one for this chord
+/// (closer than any survey reads, longer than the half chord, not a whole
+/// fraction of it).
+fn nominal_spacing(ctx: &Context<'_>, r: &[Reading]) -> Result<Nominal, SurveyError> {
     let mut steps: Vec<f64> = r
         .windows(2)
         .map(|w| w[1].chainage - w[0].chainage)
@@ -138,35 +173,7 @@ pub(crate) fn spacing(
         SurveyError::file(ctx.file, SurveyErrorKind::SpacingMisfit { what, todo })
     };
     if s_med < MIN_SPACING {
-        return Err(SurveyError::file(
-            ctx.file,
-            SurveyErrorKind::SpacingTooSmall {
-                what: format!(
-                    "the readings are {} apart, closer than any chord survey reads (every {} at the closest)",
-                    ctx.len(s_med),
-                    ctx.len(MIN_SPACING)
-                ),
-                todo: if ctx.thousands_like {
-                    format!(
-                        "the chainages are written like {:.3}, where '.' separates thousands in this file: write them without it ({})",
-                        ctx.cols.chainage_unit.from_m(r[1].chainage),
-                        fmt_num((ctx.cols.chainage_unit.from_m(r[1].chainage) * 1000.0).round())
-                    )
-                } else {
-                    format!(
-                        "if the chainages are kilometres (like {} for {} m), write them in {} in the column {}",
-                        fmt_num(ctx.cols.chainage_unit.from_m(r[1].chainage)),
-                        fmt_num((ctx.cols.chainage_unit.from_m(r[1].chainage) * 1000.0).round()),
-                        if ctx.cols.chainage_unit == crate::units::LengthUnit::Foot {
-                            "feet"
-                        } else {
-                            "metres"
-                        },
-                        ctx.cols.name(ctx.cols.chainage)
-                    )
-                },
-            },
-        ));
+        return Err(too_close(ctx, r, s_med));
     }
     if ratio < 1.0 - FIT_TOL {
         return Err(misfit(format!(
@@ -185,100 +192,106 @@ pub(crate) fn spacing(
             fmt_num((ratio * 100.0).round() / 100.0)
         )));
     }
+    Ok(Nominal {
+        steps_per_half_chord: m,
+        spacing: s_nom,
+    })
+}
 
-    if ctx.marking == Marking::Taped && m > MAX_TAPED_STEPS {
-        diags.push(
-            Diagnostic::warning(format!(
-                "the readings are {} apart, {} to the half chord of {}: a hand survey with taped marks reads every half chord or a few times more often",
-                ctx.len(s_nom),
-                fmt_num(m),
-                ctx.chord_text()
-            ))
-            .hint(format!(
-                "check --chord (a chord of {} reads every half chord at this spacing); for a trolley or vehicle give --marking wire",
-                ctx.len(2.0 * s_nom)
-            )),
-        );
-    }
-    let mut regular = vec![false; r.len()];
-    let mut irregular = 0usize;
-    let mut worst: Option<(f64, usize, f64)> = None; // (deviation, index, step)
+/// Readings closer than any chord survey reads: most likely chainages in
+/// kilometres, or a '.' that separates thousands.
+fn too_close(ctx: &Context<'_>, r: &[Reading], s_med: f64) -> SurveyError {
+    let second = ctx.cols.chainage_unit.from_m(r[1].chainage);
+    let todo = if ctx.thousands_like {
+        format!(
+            "the chainages are written like {second:.3}, where '.' separates thousands in this file: write them without it ({})",
+            fmt_num((second * 1000.0).round())
+        )
+    } else {
+        format!(
+            "if the chainages are kilometres (like {} for {} m), write them in {} in the column {}",
+            fmt_num(second),
+            fmt_num((second * 1000.0).round()),
+            if ctx.cols.chainage_unit == crate::units::LengthUnit::Foot {
+                "feet"
+            } else {
+                "metres"
+            },
+            ctx.cols.name(ctx.cols.chainage)
+        )
+    };
+    let what = format!(
+        "the readings are {} apart, closer than any chord survey reads (every {} at the closest)",
+        ctx.len(s_med),
+        ctx.len(MIN_SPACING)
+    );
+    SurveyError::file(ctx.file, SurveyErrorKind::SpacingTooSmall { what, todo })
+}
+
+/// Each step against the nominal spacing.
+struct StepScan {
+    /// Whether the step to reading `i` is one nominal spacing.
+    regular: Vec<bool>,
+    /// Steps within the pattern tolerance but off it by more than 1 %.
+    irregular: usize,
+    /// The worst of them: (deviation in spacings, index, step).
+    worst: Option<(f64, usize, f64)>,
+    /// Sum and count of the regular steps (for the scale check).
+    sum_regular: f64,
+    n_regular: usize,
+}
+
+/// Classify every step: one spacing (regular), several (a gap, warned;
+/// refused beyond `MAX_GAP_CHORDS` chords), or off the pattern (refused).
+fn scan_steps(
+    ctx: &Context<'_>,
+    r: &[Reading],
+    s_nom: f64,
+    diags: &mut Vec<Diagnostic>,
+) -> Result<StepScan, SurveyError> {
+    let mut scan = StepScan {
+        regular: vec![false; r.len()],
+        irregular: 0,
+        worst: None,
+        sum_regular: 0.0,
+        n_regular: 0,
+    };
     let mut gaps = 0usize;
-    let mut sum_regular = 0.0;
-    let mut n_regular = 0usize;
-    let ch_col = Some(ctx.cols.chainage);
     for i in 1..r.len() {
         let d = r[i].chainage - r[i - 1].chainage;
         let x = d / s_nom;
         let k = x.round();
         let dev = (x - k).abs();
-        if k >= 1.0 && dev <= PATTERN_TOL {
-            if k == 1.0 {
-                regular[i] = true;
-                sum_regular += d;
-                n_regular += 1;
-            } else if d > MAX_GAP_CHORDS * ctx.chord {
-                return Err(SurveyError::cell(
-                    ctx.file,
-                    r[i].line,
-                    ctx.cols.name(ctx.cols.chainage),
-                    ctx.cols.chainage + 1,
-                    SurveyErrorKind::GapTooLong {
-                        what: format!(
-                            "chainage jumps from {} (line {}) to {}, a gap of {} with no readings, more than {} chords",
-                            ctx.ch(r[i - 1].chainage),
-                            r[i - 1].line,
-                            ctx.ch(r[i].chainage),
-                            ctx.len(d),
-                            fmt_num(MAX_GAP_CHORDS)
-                        ),
-                        todo: "nothing measured bridges a gap that long: if it is a typing error, correct the chainage; otherwise split the file there and run each part".into(),
-                    },
-                ));
-            } else {
-                gaps += 1;
-                if gaps <= MAX_LISTED {
-                    diags.push(
-                        Diagnostic::warning(format!(
-                            "gap: no readings between chainage {} (line {}) and {}, {} station(s) missing",
-                            ctx.ch(r[i - 1].chainage),
-                            r[i - 1].line,
-                            ctx.ch(r[i].chainage),
-                            k as u64 - 1
-                        ))
-                        .at(ctx.loc(r[i].line, ch_col))
-                        .hint("the alignment is bridged across the gap, less certainly; check that no lines were lost"),
-                    );
-                }
-            }
-            if dev > REGULAR_TOL {
-                irregular += 1;
-                if worst.is_none_or(|(w, _, _)| dev > w) {
-                    worst = Some((dev, i, d));
-                }
-            }
+        if !(k >= 1.0 && dev <= PATTERN_TOL) {
+            return Err(spacing_break(ctx, r, i, x, s_nom));
+        }
+        if k == 1.0 {
+            scan.regular[i] = true;
+            scan.sum_regular += d;
+            scan.n_regular += 1;
+        } else if d > MAX_GAP_CHORDS * ctx.chord {
+            return Err(gap_too_long(ctx, r, i));
         } else {
-            let todo = match ctx.marking {
-                Marking::Taped => "check the chainages around it (a typing error or a mis-taped mark?); if the survey restarts on a new pattern, split the file there".to_string(),
-                Marking::Wire => "check the chainages around it; if the recording restarts on a new pattern, split the file there".to_string(),
-            };
-            return Err(SurveyError::cell(
-                ctx.file,
-                r[i].line,
-                ctx.cols.name(ctx.cols.chainage),
-                ctx.cols.chainage + 1,
-                SurveyErrorKind::SpacingBreak {
-                    what: format!(
-                        "chainage jumps from {} (line {}) to {}, {} spacings of {}",
+            gaps += 1;
+            if gaps <= MAX_LISTED {
+                diags.push(
+                    Diagnostic::warning(format!(
+                        "gap: no readings between chainage {} (line {}) and {}, {} station(s) missing",
                         ctx.ch(r[i - 1].chainage),
                         r[i - 1].line,
                         ctx.ch(r[i].chainage),
-                        fmt_num((x * 100.0).round() / 100.0),
-                        ctx.len(s_nom)
-                    ),
-                    todo,
-                },
-            ));
+                        k as u64 - 1
+                    ))
+                    .at(ctx.loc(r[i].line, Some(ctx.cols.chainage)))
+                    .hint("the alignment is bridged across the gap, less certainly; check that no lines were lost"),
+                );
+            }
+        }
+        if dev > REGULAR_TOL {
+            scan.irregular += 1;
+            if scan.worst.is_none_or(|(w, _, _)| dev > w) {
+                scan.worst = Some((dev, i, d));
+            }
         }
     }
     if gaps > MAX_LISTED {
@@ -287,41 +300,107 @@ pub(crate) fn spacing(
             gaps - MAX_LISTED
         )));
     }
-    if let Some((dev, i, d)) = worst {
+    Ok(scan)
+}
+
+/// A gap longer than anything measured can bridge.
+fn gap_too_long(ctx: &Context<'_>, r: &[Reading], i: usize) -> SurveyError {
+    let what = format!(
+        "chainage jumps from {} (line {}) to {}, a gap of {} with no readings, more than {} chords",
+        ctx.ch(r[i - 1].chainage),
+        r[i - 1].line,
+        ctx.ch(r[i].chainage),
+        ctx.len(r[i].chainage - r[i - 1].chainage),
+        fmt_num(MAX_GAP_CHORDS)
+    );
+    let todo = "nothing measured bridges a gap that long: if it is a typing error, correct the chainage; otherwise split the file there and run each part".into();
+    let cols = ctx.cols;
+    let kind = SurveyErrorKind::GapTooLong { what, todo };
+    SurveyError::cell(
+        ctx.file,
+        r[i].line,
+        cols.name(cols.chainage),
+        cols.chainage + 1,
+        kind,
+    )
+}
+
+/// A step of `x` nominal spacings, off the regular pattern.
+fn spacing_break(ctx: &Context<'_>, r: &[Reading], i: usize, x: f64, s_nom: f64) -> SurveyError {
+    let todo = match ctx.marking {
+        Marking::Taped => "check the chainages around it (a typing error or a mis-taped mark?); if the survey restarts on a new pattern, split the file there".to_string(),
+        Marking::Wire => "check the chainages around it; if the recording restarts on a new pattern, split the file there".to_string(),
+    };
+    let what = format!(
+        "chainage jumps from {} (line {}) to {}, {} spacings of {}",
+        ctx.ch(r[i - 1].chainage),
+        r[i - 1].line,
+        ctx.ch(r[i].chainage),
+        fmt_num((x * 100.0).round() / 100.0),
+        ctx.len(s_nom)
+    );
+    let cols = ctx.cols;
+    let kind = SurveyErrorKind::SpacingBreak { what, todo };
+    SurveyError::cell(
+        ctx.file,
+        r[i].line,
+        cols.name(cols.chainage),
+        cols.chainage + 1,
+        kind,
+    )
+}
+
+/// One warning for the steps off the pattern by more than 1 %, at the worst.
+fn warn_irregular(
+    ctx: &Context<'_>,
+    r: &[Reading],
+    scan: &StepScan,
+    s_nom: f64,
+    diags: &mut Vec<Diagnostic>,
+) {
+    let Some((dev, i, d)) = scan.worst else {
+        return;
+    };
+    diags.push(
+        Diagnostic::warning(format!(
+            "the spacing is irregular at {} place(s), by up to {}% of the {} spacing ({} from line {} to line {})",
+            scan.irregular,
+            fmt_num((dev * 1000.0).round() / 10.0),
+            ctx.len(s_nom),
+            ctx.len(d),
+            r[i - 1].line,
+            r[i].line
+        ))
+        .at(ctx.loc(r[i].line, Some(ctx.cols.chainage)))
+        .hint(format!(
+            "within the {}% tolerance, so the readings are used as if on the regular pattern; check the chainages",
+            fmt_num(PATTERN_TOL * 100.0)
+        )),
+    );
+}
+
+/// A warning when the regular steps run long or short on average (a chord
+/// or chainage scale error).
+fn warn_scale(ctx: &Context<'_>, scan: &StepScan, nominal: &Nominal, diags: &mut Vec<Diagnostic>) {
+    if scan.n_regular == 0 {
+        return;
+    }
+    let s_nom = nominal.spacing;
+    let mean = scan.sum_regular / scan.n_regular as f64;
+    if (mean - s_nom).abs() > SCALE_TOL * s_nom {
         diags.push(
             Diagnostic::warning(format!(
-                "the spacing is irregular at {irregular} place(s), by up to {}% of the {} spacing ({} from line {} to line {})",
-                fmt_num((dev * 1000.0).round() / 10.0),
+                "the readings are on average {} apart rather than {} (the chord of {} over {}): the chainages run {}% {}",
+                ctx.len(mean),
                 ctx.len(s_nom),
-                ctx.len(d),
-                r[i - 1].line,
-                r[i].line
+                ctx.chord_text(),
+                fmt_num(2.0 * nominal.steps_per_half_chord),
+                fmt_num(((mean / s_nom - 1.0).abs() * 1000.0).round() / 10.0),
+                if mean > s_nom { "long" } else { "short" }
             ))
-            .at(ctx.loc(r[i].line, ch_col))
-            .hint(format!(
-                "within the {}% tolerance, so the readings are used as if on the regular pattern; check the chainages",
-                fmt_num(PATTERN_TOL * 100.0)
-            )),
+            .hint("check the chord length and how the chainages were measured: tape or odometer scale"),
         );
     }
-    if n_regular > 0 {
-        let mean = sum_regular / n_regular as f64;
-        if (mean - s_nom).abs() > SCALE_TOL * s_nom {
-            diags.push(
-                Diagnostic::warning(format!(
-                    "the readings are on average {} apart rather than {} (the chord of {} over {}): the chainages run {}% {}",
-                    ctx.len(mean),
-                    ctx.len(s_nom),
-                    ctx.chord_text(),
-                    fmt_num(2.0 * m),
-                    fmt_num(((mean / s_nom - 1.0).abs() * 1000.0).round() / 10.0),
-                    if mean > s_nom { "long" } else { "short" }
-                ))
-                .hint("check the chord length and how the chainages were measured: tape or odometer scale"),
-            );
-        }
-    }
-    Ok((regular, s_nom))
 }
 
 /// Put a missing reading (no versine) at every station of the regular
