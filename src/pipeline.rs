@@ -351,39 +351,68 @@ pub fn run(
     diags.extend(dir.notes().iter().map(Diagnostic::note));
     diags.append(&mut results.diagnostics);
     results.diagnostics = diags;
+    write_tables(&mut dir, &results)?;
+    dir.write_file("report.html", |w| {
+        w.write_all(crate::report::html_report(&results, &record).as_bytes())
+    })?;
+    let props: Vec<ElementProps> = results
+        .fit
+        .iter()
+        .flat_map(|f| f.elements.iter().map(ElementProps::from_fitted))
+        .collect();
+    write_map_layers(&mut dir, &results, &props)?;
+    if let Some((placed, _)) = &results.design {
+        let lopts = LandXmlOptions {
+            name: survey_path
+                .file_stem()
+                .map_or("alignment".into(), |s| s.to_string_lossy().into_owned()),
+            unit: results.survey.chainage_unit,
+            created,
+        };
+        write_design_exchange(&mut dir, &results, placed, &props, &lopts)?;
+    }
+    let files = dir.files().to_vec();
+    let folder = dir.commit()?;
+    Ok(Outcome {
+        results,
+        folder,
+        files,
+    })
+}
+
+/// Longitude, latitude and true bearing at every station of a placed survey.
+fn geo_columns(results: &Results) -> Option<Vec<GeoAtStation>> {
+    let g = results.georef.as_ref()?;
+    let at = |s: &crate::integrate::Station| {
+        let (lon, lat) = g.lonlat(s.x, s.y);
+        let pose = Pose {
+            x: s.x,
+            y: s.y,
+            heading: s.heading,
+        };
+        GeoAtStation {
+            lon,
+            lat,
+            true_bearing: g.true_bearing(pose),
+        }
+    };
+    Some(results.plan.stations.iter().map(at).collect())
+}
+
+/// The tables: `stations.csv`, `elements.csv`, the slew sheet, `outliers.csv`
+/// and `advice.csv`, each where its results exist.
+fn write_tables(dir: &mut OutputDir, results: &Results) -> Result<(), RunError> {
     let unit = results.survey.chainage_unit;
-    let geo: Option<Vec<GeoAtStation>> = results.georef.as_ref().map(|g| {
-        results
-            .plan
-            .stations
-            .iter()
-            .map(|s| {
-                let (lon, lat) = g.lonlat(s.x, s.y);
-                GeoAtStation {
-                    lon,
-                    lat,
-                    true_bearing: g.true_bearing(Pose {
-                        x: s.x,
-                        y: s.y,
-                        heading: s.heading,
-                    }),
-                }
-            })
-            .collect()
-    });
+    let geo = geo_columns(results);
     let slew_cols = results.slews.as_ref().map(|s| s.at_stations());
+    let design = results.design.as_ref().map(|(_, d)| d.as_slice());
     let grid = match &results.georef {
-        Some(g) => GridCoords::of(
-            g,
-            &results.plan,
-            results.design.as_ref().map(|(_, d)| d.as_slice()),
-        )
-        .map_err(GeorefError::from)?,
+        Some(g) => GridCoords::of(g, &results.plan, design).map_err(GeorefError::from)?,
         None => None,
     };
     let extras = StationExtras {
         grid: grid.as_ref().map(GridCoords::columns),
-        design: results.design.as_ref().map(|(_, d)| d.as_slice()),
+        design,
         geo: geo.as_deref(),
         slews: slew_cols.as_deref(),
     };
@@ -403,7 +432,7 @@ pub fn run(
         })?;
     }
     if let Some(s) = &results.slews {
-        crate::export::slews::write_slew_files(&mut dir, s, &results.survey)?;
+        crate::export::slews::write_slew_files(dir, s, &results.survey)?;
     }
     if let Some(f) = results.fit.as_ref().filter(|f| !f.outliers.is_empty()) {
         let vunit = results.survey.versine_unit;
@@ -416,74 +445,73 @@ pub fn run(
             crate::export::advice::write_advice_csv(w, a, unit)
         })?;
     }
-    dir.write_file("report.html", |w| {
-        w.write_all(crate::report::html_report(&results, &record).as_bytes())
-    })?;
-    let props: Vec<ElementProps> = results
-        .fit
-        .iter()
-        .flat_map(|f| f.elements.iter().map(ElementProps::from_fitted))
-        .collect();
-    if let Some(g) = &results.georef {
-        let input = GeoJsonInput {
-            placement: &g.placement,
-            stations: &results.plan.stations,
-            design: results.design.as_ref().map(|(a, _)| (a, props.as_slice())),
-            controls: g
-                .controls
-                .as_ref()
-                .map(|c| (c, results.control_checks.as_slice())),
-        };
-        match build_layers(&input) {
-            Ok(layers) => {
-                for layer in &layers {
-                    dir.write_file(layer.file, |w| write_layer(w, layer))?;
-                }
+    Ok(())
+}
+
+/// The GeoJSON layers and `controls.csv` of a placed survey.
+fn write_map_layers(
+    dir: &mut OutputDir,
+    results: &Results,
+    props: &[ElementProps],
+) -> Result<(), RunError> {
+    let Some(g) = &results.georef else {
+        return Ok(());
+    };
+    let input = GeoJsonInput {
+        placement: &g.placement,
+        stations: &results.plan.stations,
+        design: results.design.as_ref().map(|(a, _)| (a, props)),
+        controls: g
+            .controls
+            .as_ref()
+            .map(|c| (c, results.control_checks.as_slice())),
+    };
+    match build_layers(&input) {
+        Ok(layers) => {
+            for layer in &layers {
+                dir.write_file(layer.file, |w| write_layer(w, layer))?;
             }
-            // Reported as a failure to write the first layer; nothing is committed.
-            Err(e) => dir.write_file("alignment.geojson", |_| Err(e.into_io()))?,
         }
-        if g.controls.is_some() {
-            dir.write_file("controls.csv", |w| {
-                crate::export::controls::write_checks_csv(w, &results.control_checks)
-            })?;
-        }
+        // Reported as a failure to write the first layer; nothing is committed.
+        Err(e) => dir.write_file("alignment.geojson", |_| Err(e.into_io()))?,
     }
-    if let Some((placed, _)) = &results.design {
-        let frame = match &results.georef {
-            Some(Georef {
-                placement,
-                crs: Some(crs),
-                ..
-            }) => LandXmlFrame::Grid { placement, crs },
-            Some(g) => LandXmlFrame::Local {
-                placement: Some(&g.placement),
-            },
-            None => LandXmlFrame::Local { placement: None },
-        };
-        let lopts = LandXmlOptions {
-            name: survey_path
-                .file_stem()
-                .map_or("alignment".into(), |s| s.to_string_lossy().into_owned()),
-            unit,
-            created,
-        };
-        dir.write_file("alignment.xml", |w| {
-            write_landxml(w, placed, &props, frame, &lopts).map_err(LandXmlError::into_io)
-        })?;
-        dir.write_file("alignment.ifc", |w| {
-            let o = crate::export::ifc::IfcOptions::from(&lopts);
-            crate::export::ifc::write_ifc(w, placed, &props, frame, &o)
-                .map_err(crate::export::ifc::IfcError::into_io)
+    if g.controls.is_some() {
+        dir.write_file("controls.csv", |w| {
+            crate::export::controls::write_checks_csv(w, &results.control_checks)
         })?;
     }
-    let files = dir.files().to_vec();
-    let folder = dir.commit()?;
-    Ok(Outcome {
-        results,
-        folder,
-        files,
-    })
+    Ok(())
+}
+
+/// `alignment.xml` (LandXML) and `alignment.ifc` of the placed design, in
+/// the grid with `--crs`, else in the local frame.
+fn write_design_exchange(
+    dir: &mut OutputDir,
+    results: &Results,
+    placed: &crate::geometry::Alignment,
+    props: &[ElementProps],
+    lopts: &LandXmlOptions,
+) -> Result<(), RunError> {
+    let frame = match &results.georef {
+        Some(Georef {
+            placement,
+            crs: Some(crs),
+            ..
+        }) => LandXmlFrame::Grid { placement, crs },
+        Some(g) => LandXmlFrame::Local {
+            placement: Some(&g.placement),
+        },
+        None => LandXmlFrame::Local { placement: None },
+    };
+    dir.write_file("alignment.xml", |w| {
+        write_landxml(w, placed, props, frame, lopts).map_err(LandXmlError::into_io)
+    })?;
+    dir.write_file("alignment.ifc", |w| {
+        let o = crate::export::ifc::IfcOptions::from(lopts);
+        crate::export::ifc::write_ifc(w, placed, props, frame, &o)
+            .map_err(crate::export::ifc::IfcError::into_io)
+    })?;
+    Ok(())
 }
 
 /// A reproducible time stamp for a run and where it comes from:

@@ -1,8 +1,9 @@
 //! `chordline simulate`: write the survey a chord would measure on a known design.
 
 use super::Failure;
-use super::util::{StagedFile, gauge, same_file, small_length};
+use super::util::{gauge, same_file, small_length};
 use anyhow::Context;
+use chordline::export::staged_file::StagedFile;
 use chordline::simulate::{Design, simulate, write_survey_csv};
 use chordline::survey::{Marking, Rail};
 use chordline::units::{Length, LengthUnit, VersineUnit};

@@ -1,8 +1,7 @@
 //! Small helpers shared by the commands.
 
-use anyhow::{Context, bail};
 use chordline::units::{LengthUnit, length_unit_of, split_unit};
-use std::io::Write;
+
 use std::path::Path;
 
 /// Parse a small length with its unit (`1mm`, `0.5 mm`, `2cm`, `0.125in`, `0.001m`) into metres.
@@ -104,95 +103,6 @@ pub fn chainage(s: &str) -> Result<ChainageArg, String> {
         ));
     }
     Ok(ChainageArg { value, unit })
-}
-
-/// A file written beside its destination under a hidden temporary name and
-/// renamed into place only by [`StagedFile::commit`]; dropped uncommitted,
-/// the temporary file is removed. Staging every file of a command before
-/// committing any means a failure leaves none of them half-written.
-pub struct StagedFile {
-    tmp: std::path::PathBuf,
-    path: std::path::PathBuf,
-    done: bool,
-}
-
-impl StagedFile {
-    /// Write `path`'s new content through `f` into the temporary file.
-    /// Refuses to replace an existing file unless `force`, and a folder always.
-    pub fn write(
-        path: &Path,
-        force: bool,
-        f: impl FnOnce(&mut dyn Write) -> std::io::Result<()>,
-    ) -> anyhow::Result<Self> {
-        refuse_existing(path, force)?;
-        let dir = path
-            .parent()
-            .filter(|p| !p.as_os_str().is_empty())
-            .unwrap_or(Path::new("."));
-        let name = path
-            .file_name()
-            .with_context(|| format!("{} is not a file name", path.display()))?;
-        static N: std::sync::atomic::AtomicU64 = std::sync::atomic::AtomicU64::new(0);
-        let n = N.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
-        let tmp = dir.join(format!(
-            ".{}.{}-{n}.tmp",
-            name.to_string_lossy(),
-            std::process::id()
-        ));
-        let staged = StagedFile {
-            tmp,
-            path: path.to_path_buf(),
-            done: false,
-        };
-        let result = (|| -> std::io::Result<()> {
-            let file = std::fs::File::create(&staged.tmp)?;
-            let mut w = std::io::BufWriter::new(file);
-            f(&mut w)?;
-            let file = w.into_inner().map_err(|e| e.into_error())?;
-            file.sync_all()
-        })();
-        result.with_context(|| {
-            format!(
-                "could not write {} (nothing was replaced); check that its folder exists and the free disk space",
-                path.display()
-            )
-        })?;
-        Ok(staged)
-    }
-
-    /// Rename the finished file into place.
-    pub fn commit(mut self) -> anyhow::Result<()> {
-        std::fs::rename(&self.tmp, &self.path)
-            .with_context(|| format!("could not write {}", self.path.display()))?;
-        self.done = true;
-        Ok(())
-    }
-}
-
-impl Drop for StagedFile {
-    fn drop(&mut self) {
-        if !self.done {
-            let _ = std::fs::remove_file(&self.tmp);
-        }
-    }
-}
-
-/// Refuse to write over a folder, or over an existing file without `force`.
-pub fn refuse_existing(path: &Path, force: bool) -> anyhow::Result<()> {
-    if path.is_dir() {
-        bail!(
-            "{} is a folder; name a file to write (e.g. {})",
-            path.display(),
-            path.join("survey.csv").display()
-        );
-    }
-    if path.exists() && !force {
-        bail!(
-            "{} already exists; pass --force to replace it, or choose another name",
-            path.display()
-        );
-    }
-    Ok(())
 }
 
 /// Whether two paths name the same file (the same text, or the same file

@@ -17,5 +17,7 @@ pub mod outliers;
 pub mod output_dir;
 /// `slews.csv`: the slew sheet for site.
 pub mod slews;
+/// One file written whole or not at all.
+pub mod staged_file;
 /// `stations.csv`: the plan at every station.
 pub mod stations;

@@ -467,9 +467,6 @@ pub(crate) fn units(
     nonzero: usize,
     diags: &mut Vec<Diagnostic>,
 ) -> Result<(), SurveyError> {
-    let u = ctx.cols.versine_unit;
-    let col = ctx.cols.versine;
-    let col_name = ctx.cols.name(col).to_string();
     let mut abs: Vec<f64> = r.iter().filter_map(|x| x.versine).map(f64::abs).collect();
     if abs.is_empty() {
         return Ok(());
@@ -477,147 +474,188 @@ pub(crate) fn units(
     let k = ((abs.len() - 1) as f64 * 0.9).round() as usize;
     let (_, p90, _) = abs.select_nth_unstable_by(k, f64::total_cmp);
     let p90 = *p90;
-    let c = ctx.chord;
-    let in_file = |v: f64| format!("{} {}", fmt_num(u.from_m(v)), u.suffix());
-
     // The column as a whole: a tenth of the readings or more are too large.
-    if p90 > 0.0 && implied_radius(c, p90) < MIN_RADIUS {
-        let alt = smaller_units(u).iter().find_map(|&a| {
-            let v = u.from_m(p90) * a.metres();
-            let radius = implied_radius(c, v);
-            (radius >= MIN_RADIUS).then_some((a, radius))
-        });
-        let what = format!(
-            "a tenth of the versines are {} or more, which on a chord of {} would mean curves of radius {} m or less; no railway has such curves",
-            in_file(p90),
-            ctx.chord_text(),
-            fmt_num(implied_radius(c, p90).round().max(0.0))
-        );
-        let todo = match alt {
-            Some((a, radius)) => format!(
-                "the values look like {} (radius about {} m): rename the column versine_{}",
-                versine_word(a),
-                fmt_num(radius.round()),
-                a.suffix()
-            ),
-            None => "check the unit in the column name and the chord length (--chord)".to_string(),
-        };
-        return Err(SurveyError {
-            file: ctx.file.to_string(),
-            line: None,
-            column: Some(ColumnRef {
-                name: col_name,
-                field: col + 1,
-            }),
-            kind: Box::new(SurveyErrorKind::UnitImplausible { what, todo }),
-        });
+    if p90 > 0.0 && implied_radius(ctx.chord, p90) < MIN_RADIUS {
+        return Err(column_implausible(ctx, p90));
     }
-    // Very sharp, but possible: warn when another unit would make the
-    // curves ordinary (e.g. millimetres written in an inch column).
+    let column_warned = warn_column_sharp(ctx, r, p90, diags);
+    if let Some(e) = single_reading_impossible(ctx, r) {
+        return Err(e);
+    }
+    if !column_warned {
+        warn_sharpest(ctx, r, diags);
+    }
+    let max = abs.iter().copied().fold(0.0, f64::max);
+    let tally = (fine_decimals, nonzero);
+    warn_metres_in_millimetres(ctx, r, max, tally, diags);
+    Ok(())
+}
+
+/// A versine as written in the file, with its unit.
+fn in_file(ctx: &Context<'_>, v: f64) -> String {
+    let u = ctx.cols.versine_unit;
+    format!("{} {}", fmt_num(u.from_m(v)), u.suffix())
+}
+
+/// The versine column, for a warning's location.
+fn versine_loc(ctx: &Context<'_>, line: usize) -> Location {
+    Location {
+        file: ctx.file.to_string(),
+        line,
+        column: Some(ctx.cols.name(ctx.cols.versine).to_string()),
+    }
+}
+
+/// A tenth of the versines mean curves no railway has: the error names the
+/// smaller unit that would make them plausible.
+fn column_implausible(ctx: &Context<'_>, p90: f64) -> SurveyError {
+    let (u, c, col) = (ctx.cols.versine_unit, ctx.chord, ctx.cols.versine);
+    let alt = smaller_units(u).iter().find_map(|&a| {
+        let v = u.from_m(p90) * a.metres();
+        let radius = implied_radius(c, v);
+        (radius >= MIN_RADIUS).then_some((a, radius))
+    });
+    let what = format!(
+        "a tenth of the versines are {} or more, which on a chord of {} would mean curves of radius {} m or less; no railway has such curves",
+        in_file(ctx, p90),
+        ctx.chord_text(),
+        fmt_num(implied_radius(c, p90).round().max(0.0))
+    );
+    let todo = match alt {
+        Some((a, radius)) => format!(
+            "the values look like {} (radius about {} m): rename the column versine_{}",
+            versine_word(a),
+            fmt_num(radius.round()),
+            a.suffix()
+        ),
+        None => "check the unit in the column name and the chord length (--chord)".to_string(),
+    };
+    SurveyError {
+        file: ctx.file.to_string(),
+        line: None,
+        column: Some(ColumnRef {
+            name: ctx.cols.name(col).to_string(),
+            field: col + 1,
+        }),
+        kind: Box::new(SurveyErrorKind::UnitImplausible { what, todo }),
+    }
+}
+
+/// Very sharp, but possible: warn when another unit would make the curves
+/// ordinary (e.g. millimetres written in an inch column). Whether it warned.
+fn warn_column_sharp(
+    ctx: &Context<'_>,
+    r: &[Reading],
+    p90: f64,
+    diags: &mut Vec<Diagnostic>,
+) -> bool {
+    let (u, c) = (ctx.cols.versine_unit, ctx.chord);
     let ordinary = smaller_units(u).iter().find_map(|&a| {
         let radius = implied_radius(c, u.from_m(p90) * a.metres());
         (radius >= ORDINARY_RADIUS).then_some((a, radius))
     });
-    let column_warned = p90 > 0.0 && implied_radius(c, p90) < SHARP_RADIUS && ordinary.is_some();
-    if p90 > 0.0
-        && implied_radius(c, p90) < SHARP_RADIUS
-        && let Some((a, radius)) = ordinary
-    {
-        diags.push(
-            Diagnostic::warning(format!(
-                "a tenth of the versines are {} or more, which on a chord of {} means curves of radius {} m or less, sharper than almost any railway; as {} they would mean radius about {} m",
-                in_file(p90),
-                ctx.chord_text(),
-                fmt_num(implied_radius(c, p90).round()),
-                versine_word(a),
-                fmt_num(radius.round())
-            ))
-            .at(Location {
-                file: ctx.file.to_string(),
-                line: r[0].line,
-                column: Some(col_name.clone()),
-            })
-            .hint(format!(
-                "if the values are {}, rename the column versine_{}; check --chord too",
-                versine_word(a),
-                a.suffix()
-            )),
-        );
-    }
-    // Single readings too large for any railway.
-    for x in r {
-        if let Some(v) = x.versine
-            && v != 0.0
-            && implied_radius(c, v) < MIN_RADIUS
-        {
-            return Err(SurveyError::cell(
-                ctx.file,
-                x.line,
-                &col_name,
-                col + 1,
-                SurveyErrorKind::VersineImpossible {
-                    what: format!(
-                        "the versine {} would mean a curve of radius {} m on a chord of {}, which no railway has",
-                        in_file(v),
-                        fmt_num((implied_radius(c, v) * 10.0).round() / 10.0),
-                        ctx.chord_text()
-                    ),
-                    todo: "check the value for a typing error, or leave the cell empty for a missing reading".to_string(),
-                },
-            ));
-        }
-    }
-    // The sharpest single reading, possible but found only on tramways.
+    let Some((a, radius)) = ordinary.filter(|_| p90 > 0.0 && implied_radius(c, p90) < SHARP_RADIUS)
+    else {
+        return false;
+    };
+    diags.push(
+        Diagnostic::warning(format!(
+            "a tenth of the versines are {} or more, which on a chord of {} means curves of radius {} m or less, sharper than almost any railway; as {} they would mean radius about {} m",
+            in_file(ctx, p90),
+            ctx.chord_text(),
+            fmt_num(implied_radius(c, p90).round()),
+            versine_word(a),
+            fmt_num(radius.round())
+        ))
+        .at(versine_loc(ctx, r[0].line))
+        .hint(format!(
+            "if the values are {}, rename the column versine_{}; check --chord too",
+            versine_word(a),
+            a.suffix()
+        )),
+    );
+    true
+}
+
+/// The first single reading too large for any railway.
+fn single_reading_impossible(ctx: &Context<'_>, r: &[Reading]) -> Option<SurveyError> {
+    let c = ctx.chord;
+    let (x, v) = r
+        .iter()
+        .filter_map(|x| x.versine.map(|v| (x, v)))
+        .find(|&(_, v)| v != 0.0 && implied_radius(c, v) < MIN_RADIUS)?;
+    let what = format!(
+        "the versine {} would mean a curve of radius {} m on a chord of {}, which no railway has",
+        in_file(ctx, v),
+        fmt_num((implied_radius(c, v) * 10.0).round() / 10.0),
+        ctx.chord_text()
+    );
+    let todo =
+        "check the value for a typing error, or leave the cell empty for a missing reading".into();
+    let col = ctx.cols.versine;
+    let kind = SurveyErrorKind::VersineImpossible { what, todo };
+    Some(SurveyError::cell(
+        ctx.file,
+        x.line,
+        ctx.cols.name(col),
+        col + 1,
+        kind,
+    ))
+}
+
+/// The sharpest single reading, possible but found only on tramways.
+fn warn_sharpest(ctx: &Context<'_>, r: &[Reading], diags: &mut Vec<Diagnostic>) {
+    let c = ctx.chord;
     let sharpest = r
         .iter()
         .filter_map(|x| x.versine.filter(|v| *v != 0.0).map(|v| (x.line, v)))
         .min_by(|a, b| implied_radius(c, a.1).total_cmp(&implied_radius(c, b.1)));
-    if let Some((line, v)) = sharpest
-        && implied_radius(c, v) < SHARP_RADIUS
-        && !column_warned
-    {
-        diags.push(
-            Diagnostic::warning(format!(
-                "the versine {} means a curve of radius {} m on a chord of {}, sharper than almost any railway (only tramways and some sidings go below {} m)",
-                in_file(v),
-                fmt_num((implied_radius(c, v) * 10.0).round() / 10.0),
-                ctx.chord_text(),
-                fmt_num(SHARP_RADIUS)
-            ))
-            .at(Location {
-                file: ctx.file.to_string(),
-                line,
-                column: Some(col_name.clone()),
-            })
-            .hint("check the value for a typing error, the unit in the column name and --chord"),
-        );
-    }
-    // Millimetre column holding metres: every value under 1 mm, written to
-    // three or more decimals, finer than any tape or gauge reads.
-    let max = abs.iter().copied().fold(0.0, f64::max);
-    if u == VersineUnit::Millimetre
+    let Some((line, v)) = sharpest.filter(|&(_, v)| implied_radius(c, v) < SHARP_RADIUS) else {
+        return;
+    };
+    diags.push(
+        Diagnostic::warning(format!(
+            "the versine {} means a curve of radius {} m on a chord of {}, sharper than almost any railway (only tramways and some sidings go below {} m)",
+            in_file(ctx, v),
+            fmt_num((implied_radius(c, v) * 10.0).round() / 10.0),
+            ctx.chord_text(),
+            fmt_num(SHARP_RADIUS)
+        ))
+        .at(versine_loc(ctx, line))
+        .hint("check the value for a typing error, the unit in the column name and --chord"),
+    );
+}
+
+/// Millimetre column holding metres: every value under 1 mm, written to
+/// three or more decimals, finer than any tape or gauge reads. `tally`:
+/// readings written finely, readings not zero.
+fn warn_metres_in_millimetres(
+    ctx: &Context<'_>,
+    r: &[Reading],
+    max: f64,
+    (fine_decimals, nonzero): (usize, usize),
+    diags: &mut Vec<Diagnostic>,
+) {
+    if !(ctx.cols.versine_unit == VersineUnit::Millimetre
         && nonzero >= 5
         && max < 1e-3
-        && fine_decimals as f64 >= 0.8 * nonzero as f64
+        && fine_decimals as f64 >= 0.8 * nonzero as f64)
     {
-        let as_metres = max * 1000.0;
-        diags.push(
-            Diagnostic::warning(format!(
-                "every versine in {col_name} is under 1 mm and most are written to {} or more decimals, finer than a tape or gauge reads: these look like metres (as metres the largest, {} m, means a radius of {} m on the chord of {})",
-                super::FINE_DECIMALS,
-                fmt_num(as_metres),
-                fmt_num(implied_radius(c, as_metres).round()),
-                ctx.chord_text()
-            ))
-            .at(Location {
-                file: ctx.file.to_string(),
-                line: r[0].line,
-                column: Some(col_name.clone()),
-            })
-            .hint("if the values are metres, rename the column versine_m; if they are millimetres on straight track, ignore this"),
-        );
+        return;
     }
-    Ok(())
+    let as_metres = max * 1000.0;
+    let col_name = ctx.cols.name(ctx.cols.versine);
+    diags.push(
+        Diagnostic::warning(format!(
+            "every versine in {col_name} is under 1 mm and most are written to {} or more decimals, finer than a tape or gauge reads: these look like metres (as metres the largest, {} m, means a radius of {} m on the chord of {})",
+            super::FINE_DECIMALS,
+            fmt_num(as_metres),
+            fmt_num(implied_radius(ctx.chord, as_metres).round()),
+            ctx.chord_text()
+        ))
+        .at(versine_loc(ctx, r[0].line))
+        .hint("if the values are metres, rename the column versine_m; if they are millimetres on straight track, ignore this"),
+    );
 }
 
 /// Warn about isolated outliers: a reading whose second difference is beyond
