@@ -63,6 +63,7 @@ pub mod fit;
 pub mod geometry;
 pub mod georef;
 pub mod integrate;
+pub mod numeric;
 pub mod pipeline;
 pub mod realign;
 pub mod report;

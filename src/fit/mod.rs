@@ -211,10 +211,9 @@ fn prepare(plan: &Plan, diags: &mut Vec<Diagnostic>) -> Result<Input, FitError> 
         ));
     }
     let mut gaps: Vec<f64> = s.windows(2).map(|w| w[1] - w[0]).collect();
-    let mid = gaps.len() / 2;
-    gaps.select_nth_unstable_by(mid, |x, y| x.total_cmp(y));
+    let spacing = crate::numeric::median_in_place(&mut gaps).unwrap_or(setup.chord);
     Ok(Input {
-        spacing: gaps[mid],
+        spacing,
         s,
         v,
         index,

@@ -335,12 +335,7 @@ pub(super) fn dense_nominal(
     }
     let vlin = dense::linearise(vcs, a, setup.marking).map_err(too_large)?;
     let mut ds = deltas.clone();
-    let dmed = if ds.is_empty() {
-        a
-    } else {
-        let m = ds.len() / 2;
-        *ds.select_nth_unstable_by(m, |x, y| x.total_cmp(y)).1
-    };
+    let dmed = crate::numeric::median_in_place(&mut ds).unwrap_or(a);
     let h = dense::knot_spacing(a, dmed);
     let (curve, p) = dense::fit(s, &vlin, a, h, sigma)
         .ok_or_else(|| IntegrateError::CurvatureFit { file: src.clone() })?;

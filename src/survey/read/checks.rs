@@ -100,15 +100,6 @@ impl Context<'_> {
     }
 }
 
-fn median(v: &mut [f64]) -> f64 {
-    if v.is_empty() {
-        return 0.0;
-    }
-    let mid = v.len() / 2;
-    let (_, m, _) = v.select_nth_unstable_by(mid, f64::total_cmp);
-    *m
-}
-
 /// Check the spacing of the chainages against the chord. Returns, for each
 /// reading, whether the step from the previous one is one regular spacing
 /// (within the pattern tolerance; `false` for the first reading), and the
@@ -157,7 +148,7 @@ fn nominal_spacing(ctx: &Context<'_>, r: &[Reading]) -> Result<Nominal, SurveyEr
         .windows(2)
         .map(|w| w[1].chainage - w[0].chainage)
         .collect();
-    let s_med = median(&mut steps);
+    let s_med = crate::numeric::median_in_place(&mut steps).unwrap_or(0.0);
     let half = 0.5 * ctx.chord;
     let ratio = half / s_med;
     let m = ratio.round().max(1.0);
@@ -468,12 +459,9 @@ pub(crate) fn units(
     diags: &mut Vec<Diagnostic>,
 ) -> Result<(), SurveyError> {
     let mut abs: Vec<f64> = r.iter().filter_map(|x| x.versine).map(f64::abs).collect();
-    if abs.is_empty() {
+    let Some(p90) = crate::numeric::quantile_in_place(&mut abs, 0.9) else {
         return Ok(());
-    }
-    let k = ((abs.len() - 1) as f64 * 0.9).round() as usize;
-    let (_, p90, _) = abs.select_nth_unstable_by(k, f64::total_cmp);
-    let p90 = *p90;
+    };
     // The column as a whole: a tenth of the readings or more are too large.
     if p90 > 0.0 && implied_radius(ctx.chord, p90) < MIN_RADIUS {
         return Err(column_implausible(ctx, p90));
@@ -682,11 +670,12 @@ pub(crate) fn outliers(
     if vals.len() < 5 {
         return;
     }
-    let med = median(&mut vals);
+    let med = crate::numeric::median_in_place(&mut vals).unwrap_or(0.0);
     for v in vals.iter_mut() {
         *v = (*v - med).abs();
     }
-    let sigma = (1.4826 * median(&mut vals)).max(SIGMA_FLOOR);
+    let sigma =
+        (1.4826 * crate::numeric::median_in_place(&mut vals).unwrap_or(0.0)).max(SIGMA_FLOOR);
     let limit = OUTLIER_SIGMAS * sigma;
     let u = ctx.cols.versine_unit;
     let mut found = 0usize;
