@@ -64,6 +64,7 @@ pub mod geometry;
 pub mod georef;
 pub mod integrate;
 pub mod pipeline;
+pub mod place;
 pub mod realign;
 pub mod report;
 pub mod results;
