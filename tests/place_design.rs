@@ -53,7 +53,8 @@ fn the_placed_demo_design_passes_its_control_points() {
             .iter()
             .find(|s| (s["chainage_m"] - cp["chainage_m"]).abs() < 1e-6)
             .expect("a station at the control point");
-        let d = (s["design_easting_m"] - cp["easting_m"]).hypot(s["design_northing_m"] - cp["northing_m"]);
+        let d = (s["design_easting_m"] - cp["easting_m"])
+            .hypot(s["design_northing_m"] - cp["northing_m"]);
         assert!(
             d <= 2.0 * cp["sd_m"],
             "control at {}: design {:.1} mm away, sd {:.1} mm",

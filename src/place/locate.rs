@@ -23,7 +23,11 @@ pub(super) struct Locator {
 
 impl Locator {
     pub fn new(fit: &FitResult) -> Self {
-        let d = &fit.design;
+        Self::of_alignment(&fit.design)
+    }
+
+    /// The locator of the chain `d`.
+    pub fn of_alignment(d: &Alignment) -> Self {
         let n = d.elements().len();
         Locator {
             starts: (0..n).map(|i| d.element_start(i)).collect(),

@@ -194,7 +194,8 @@ impl<'a> Params<'a> {
         }
         let a = j - 3 - n;
         let i = self.arc.iter().position(|&x| x == Some(a)).unwrap_or(0);
-        let is_tr = |k: usize| self.template.get(k).map(|e| e.kind) == Some(ElementKind::Transition);
+        let is_tr =
+            |k: usize| self.template.get(k).map(|e| e.kind) == Some(ElementKind::Transition);
         let lo = if i > 0 && is_tr(i - 1) { i - 1 } else { i };
         let hi = if is_tr(i + 1) { i + 1 } else { i };
         (lo, hi)
@@ -211,13 +212,17 @@ impl<'a> Params<'a> {
             let i = self.arc.iter().position(|&x| x == Some(a)).unwrap_or(0);
             let k = self.template[i].k_start;
             // se(1/R) = se(R)/R².
-            let se = fit.elements.get(i).and_then(|e| e.start_radius).map_or(0.0, |r| {
-                if r.value != 0.0 {
-                    r.se / (r.value * r.value)
-                } else {
-                    0.0
-                }
-            });
+            let se = fit
+                .elements
+                .get(i)
+                .and_then(|e| e.start_radius)
+                .map_or(0.0, |r| {
+                    if r.value != 0.0 {
+                        r.se / (r.value * r.value)
+                    } else {
+                        0.0
+                    }
+                });
             (k, se.max(MIN_CURVATURE_SE))
         }
     }
@@ -235,7 +240,11 @@ struct Target {
 /// Place the design of `fit` on `plan`, through `controls` (the plan's
 /// position observations, local frame). See the module documentation.
 pub fn place_design(fit: &FitResult, plan: &Plan, controls: &[PositionObs]) -> PlacedDesign {
-    let points: Vec<(f64, f64, f64)> = plan.stations.iter().map(|s| (s.chainage, s.x, s.y)).collect();
+    let points: Vec<(f64, f64, f64)> = plan
+        .stations
+        .iter()
+        .map(|s| (s.chainage, s.x, s.y))
+        .collect();
     let rigid = fit.place(&points);
     let locator = Locator::new(fit);
     let template = rigid.elements().to_vec();
@@ -301,7 +310,12 @@ pub fn place_design(fit: &FitResult, plan: &Plan, controls: &[PositionObs]) -> P
 
 /// The ties (plan stations nearest every joint and element middle) and the
 /// control points.
-fn targets(fit: &FitResult, plan: &Plan, controls: &[PositionObs], locator: &Locator) -> Vec<Target> {
+fn targets(
+    fit: &FitResult,
+    plan: &Plan,
+    controls: &[PositionObs],
+    locator: &Locator,
+) -> Vec<Target> {
     let st = &plan.stations;
     let mut picks: Vec<usize> = Vec::new();
     if !st.is_empty() {
@@ -417,11 +431,9 @@ fn jacobian(
     let n_el = params.template.len();
     for j in 3..params.len() {
         let (a, b) = params.reach(j);
-        let h = if j < 3 + n_el {
-            1e-4
-        } else {
-            1e-7 * p[j].abs().max(1e-5)
-        };
+        // Steps that move points by about 0.1 mm over a few hundred metres:
+        // well above rounding, far below where the chain bends non-linearly.
+        let h = if j < 3 + n_el { 1e-4 } else { 1e-9 };
         let first = targets.partition_point(|t| t.loc.element < a);
         let mut cols = [Vec::new(), Vec::new()];
         for (side, sign) in [1.0, -1.0].into_iter().enumerate() {
@@ -477,9 +489,10 @@ impl PlacedDesign {
             .zip(&fit.design_versine)
             .zip(&fit.residual)
             .map(|((&ch, &dv), &r)| {
-                let q = self
-                    .locator
-                    .point(&self.alignment, self.locator.locate(fit.centre_distance(ch)));
+                let q = self.locator.point(
+                    &self.alignment,
+                    self.locator.locate(fit.centre_distance(ch)),
+                );
                 DesignAtStation {
                     design_versine: dv,
                     residual: r,
@@ -502,7 +515,6 @@ impl PlacedDesign {
     }
 }
 
-
 /// What the run should say about the placement: how the design passes the
 /// control points, how far it leaves the measured centreline, and how much
 /// the elements were changed for it.
@@ -520,7 +532,11 @@ pub fn notes(p: &PlacedDesign) -> Vec<crate::diag::Diagnostic> {
         .iter()
         .max_by(|a, b| (a.distance() / a.sd).total_cmp(&(b.distance() / b.sd)))
     {
-        let far = p.controls.iter().map(ControlFit::distance).fold(0.0, f64::max);
+        let far = p
+            .controls
+            .iter()
+            .map(ControlFit::distance)
+            .fold(0.0, f64::max);
         out.push(Diagnostic::note(format!(
             "the design passes the {} control points within {:.1} mm (worst against its sd: '{}', {:.1} mm for sd {:.1} mm)",
             p.controls.len(),
@@ -530,12 +546,20 @@ pub fn notes(p: &PlacedDesign) -> Vec<crate::diag::Diagnostic> {
             w.sd * 1e3
         )));
     }
-    let zl = p.changes.iter().map(|c| c.length_z.abs()).fold(0.0, f64::max);
-    let zk = p.changes.iter().map(|c| c.curvature_z.abs()).fold(0.0, f64::max);
+    let zl = p
+        .changes
+        .iter()
+        .map(|c| c.length_z.abs())
+        .fold(0.0, f64::max);
+    let zk = p
+        .changes
+        .iter()
+        .map(|c| c.curvature_z.abs())
+        .fold(0.0, f64::max);
     let dl = p.changes.iter().map(|c| c.length.abs()).fold(0.0, f64::max);
     if let Some((d, _)) = p.max_offset() {
         out.push(Diagnostic::note(format!(
-            "the design is placed on the measured centreline element by element: at most {:.1} mm from it; element lengths moved by up to {:.1} mm ({:.2} standard errors), arc curvatures by up to {:.2} standard errors",
+            "the design is placed on the measured centreline element by element: at most {:.1} mm from it; element lengths moved by up to {:.1} mm ({:.3} standard errors), arc curvatures by up to {:.2} standard errors",
             d * 1e3,
             dl * 1e3,
             zl,
@@ -544,3 +568,6 @@ pub fn notes(p: &PlacedDesign) -> Vec<crate::diag::Diagnostic> {
     }
     out
 }
+
+#[cfg(test)]
+mod tests;
