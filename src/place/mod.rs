@@ -108,13 +108,15 @@ pub struct PlacedDesign {
 /// curvature per arc.
 struct Params<'a> {
     template: &'a [Element],
+    /// Index in the whole chain of `template[0]` (a block's first element).
+    first: usize,
     /// Index of each element's curvature parameter (arcs only).
     arc: Vec<Option<usize>>,
     n_arcs: usize,
 }
 
 impl<'a> Params<'a> {
-    fn new(template: &'a [Element]) -> Self {
+    fn new(template: &'a [Element], first: usize) -> Self {
         let mut n_arcs = 0;
         let arc = template
             .iter()
@@ -127,6 +129,7 @@ impl<'a> Params<'a> {
             .collect();
         Params {
             template,
+            first,
             arc,
             n_arcs,
         }
@@ -148,7 +151,12 @@ impl<'a> Params<'a> {
         p
     }
     fn curvature(&self, p: &DVector<f64>, i: usize) -> Option<f64> {
-        self.arc[i].map(|a| p[3 + self.template.len() + a])
+        // `None` past either end too (a transition at the end of the chain).
+        self.arc
+            .get(i)
+            .copied()
+            .flatten()
+            .map(|a| p[3 + self.template.len() + a])
     }
     /// Element `i` for parameters `p`.
     fn element(&self, p: &DVector<f64>, i: usize) -> Element {
@@ -205,7 +213,10 @@ impl<'a> Params<'a> {
         let n = self.template.len();
         if j < 3 + n {
             let i = j - 3;
-            let se = fit.elements.get(i).map_or(0.0, |e| e.length.se);
+            let se = fit
+                .elements
+                .get(self.first + i)
+                .map_or(0.0, |e| e.length.se);
             (self.template[i].length, se.max(MIN_LENGTH_SE))
         } else {
             let a = j - 3 - n;
@@ -230,6 +241,7 @@ impl<'a> Params<'a> {
 
 /// A point the placement looks at: where it is on the chain, where it should
 /// be, and how well that is known.
+#[derive(Clone, Copy)]
 struct Target {
     loc: Loc,
     x: f64,
@@ -248,15 +260,24 @@ pub fn place_design(fit: &FitResult, plan: &Plan, controls: &[PositionObs]) -> P
     let rigid = fit.place(&points);
     let locator = Locator::new(fit);
     let template = rigid.elements().to_vec();
-    let params = Params::new(&template);
+    let params = Params::new(&template, 0);
     let targets = targets(fit, plan, controls, &locator);
-    let p0 = params.initial(rigid.start());
-    let iterations = adjust(fit, &params, &targets, p0.clone(), rigid.start_chainage());
-    let (p, iterations) = match iterations {
-        Some((p, k)) => (p, Some(k)),
-        None => (p0.clone(), None),
+    let (alignment, iterations) = match adjust_in_blocks(fit, &template, &targets, &rigid) {
+        Some((al, k)) => (al, Some(k)),
+        None => (rigid.clone(), None),
     };
-    let alignment = params.alignment(&p, rigid.start_chainage());
+    let p = params.initial(alignment.start());
+    let p = {
+        // The placed values in the parameter layout, for the changes below.
+        let mut p = p;
+        for (i, e) in alignment.elements().iter().enumerate() {
+            p[3 + i] = e.length;
+            if let Some(a) = params.arc[i] {
+                p[3 + template.len() + a] = e.k_start;
+            }
+        }
+        p
+    };
     let changes = (0..template.len())
         .map(|i| {
             let (l0, lse) = params.prior(fit, 3 + i);
@@ -363,6 +384,77 @@ fn targets(
     out
 }
 
+/// Elements per least-squares block at most (more only until the next
+/// straight): the normal equations of a block are dense, so a long survey is
+/// placed block after block, each starting where the previous one ended,
+/// which keeps the time linear in the length (a 100 km survey of 409
+/// elements is three blocks), each solved with [`OVERLAP`] elements more.
+const BLOCK: usize = 150;
+
+/// Elements solved beyond a block's end (then dropped), at least.
+const OVERLAP: usize = 40;
+
+/// The chain adjusted block by block (blocks end before a straight, so that
+/// no transition's end curvature belongs to another block); the total of the
+/// Gauss–Newton iterations, or `None` when a block's adjustment failed.
+fn adjust_in_blocks(
+    fit: &FitResult,
+    template: &[Element],
+    targets: &[Target],
+    rigid: &Alignment,
+) -> Option<(Alignment, usize)> {
+    let n = template.len();
+    let mut placed: Vec<Element> = Vec::with_capacity(n);
+    let mut start = rigid.start();
+    let mut first_start = start;
+    let mut total = 0;
+    let mut a = 0;
+    // The end of a block before the first straight at or after `i`.
+    let to_straight = |mut i: usize| {
+        while i < n && template[i].kind != ElementKind::Straight {
+            i += 1;
+        }
+        i.min(n)
+    };
+    loop {
+        // Solve on [a, c) and keep [a, b): the overlap lets the elements
+        // after a block's end steer its last elements.
+        let b = to_straight((a + BLOCK).min(n));
+        let c = to_straight((b + OVERLAP).min(n));
+        let block = &template[a..c];
+        let params = Params::new(block, a);
+        let lo = targets.partition_point(|t| t.loc.element < a);
+        let hi = targets.partition_point(|t| t.loc.element < c.max(a + 1));
+        let local: Vec<Target> = targets[lo..hi]
+            .iter()
+            .map(|t| Target {
+                loc: Loc {
+                    element: t.loc.element - a,
+                    ..t.loc
+                },
+                ..*t
+            })
+            .collect();
+        let p0 = params.initial(start);
+        let (p, k) = adjust(fit, &params, &local, p0, rigid.start_chainage(), a > 0)?;
+        total += k;
+        let al = params.alignment(&p, rigid.start_chainage());
+        if a == 0 {
+            first_start = al.start();
+        }
+        placed.extend_from_slice(&al.elements()[..b - a]);
+        if b >= n {
+            break;
+        }
+        start = al.element_pose(b - a);
+        a = b;
+    }
+    Some((
+        Alignment::new(first_start, rigid.start_chainage(), placed),
+        total,
+    ))
+}
+
 /// Gauss–Newton on the parameters; `None` when the normal equations cannot
 /// be solved (then the rigid placement stands).
 fn adjust(
@@ -371,6 +463,7 @@ fn adjust(
     targets: &[Target],
     mut p: DVector<f64>,
     start_chainage: f64,
+    fix_start: bool,
 ) -> Option<(DVector<f64>, usize)> {
     let np = params.len();
     let locator = Locator::new(fit);
@@ -390,6 +483,13 @@ fn adjust(
             let w = 1.0 / (se * se);
             n[(3 + j, 3 + j)] += w;
             g[3 + j] += w * (p[3 + j] - v);
+        }
+        if fix_start {
+            // The block starts where the previous one ended.
+            for j in 0..3 {
+                n[(j, j)] += 1e20;
+                g[j] = 0.0;
+            }
         }
         let step = n.cholesky()?.solve(&(-g));
         if !step.iter().all(|v| v.is_finite()) {
