@@ -65,6 +65,7 @@ pub mod georef;
 pub mod integrate;
 pub mod numeric;
 pub mod pipeline;
+pub mod place;
 pub mod realign;
 pub mod report;
 pub mod results;

@@ -176,14 +176,10 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
                 if f.outliers.iter().any(|o| o.excluded) {
                     plan = bridge_outliers(&survey, &setup, &iopts, &f, plan, &mut diagnostics)?;
                 }
-                let points: Vec<(f64, f64, f64)> = plan
-                    .stations
-                    .iter()
-                    .map(|s| (s.chainage, s.x, s.y))
-                    .collect();
-                let placed = f.place(&points);
-                let at = f.station_design(&placed);
-                design = Some((placed, at));
+                let placed = crate::place::place_design(&f, &plan, &iopts.position_obs);
+                diagnostics.extend(crate::place::notes(&placed));
+                let at = placed.station_design(&f);
+                design = Some((placed.alignment, at));
                 fitted = Some(f);
             }
             // The plan is still useful without elements: say why they are missing.

@@ -96,7 +96,8 @@ fn placed_stations_and_elements_are_in_the_grid() {
             "straight" => {
                 let chord = (f(e, "end_easting_m") - f(e, "start_easting_m"))
                     .hypot(f(e, "end_northing_m") - f(e, "start_northing_m"));
-                let len = f(e, "length_m");
+                // The placed length: the one the coordinates are drawn with.
+                let len = f(e, "placed_length_m");
                 let k = chord / len;
                 // Tolerance: the written rounding (length 0.5 mm, ends 0.05 mm each)
                 // and x²/2R² ≈ 1e-6.
@@ -104,13 +105,13 @@ fn placed_stations_and_elements_are_in_the_grid() {
             }
             // A transition from or to a straight: A² = R·L (clothoid definition).
             "transition" => {
-                let rad = ["start_radius_m", "end_radius_m"]
+                let rad = ["placed_start_radius_m", "placed_end_radius_m"]
                     .iter()
                     .find_map(|k| e[*k].parse::<f64>().ok())
                     .unwrap()
                     .abs();
                 let a = f(e, "clothoid_a_m");
-                let rl = rad * f(e, "length_m");
+                let rl = rad * f(e, "placed_length_m");
                 assert!((a * a - rl).abs() / rl < 1e-4, "{a} {rad}");
             }
             _ => assert!(e["clothoid_a_m"].is_empty()),

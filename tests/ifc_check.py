@@ -14,7 +14,7 @@ Checks, each against what IfcOpenShell itself reads or computes:
 1. the file opens as IFC4X3_ADD2;
 2. ifcopenshell.validate with EXPRESS rules reports nothing;
 3. the layout: one IfcAlignment nesting one IfcAlignmentHorizontal whose segments are
-   the rows of elements.csv (kind, length) plus a final zero-length LINE; the
+   the rows of elements.csv (kind, placed length) plus a final zero-length LINE; the
    IfcCompositeCurve has one IfcCurveSegment per layout segment and only its last is
    DISCONTINUOUS (the validator cannot decide that rule: ClosedCurve is derived);
 4. the geometry kernel (ifcopenshell.geom: map_shape + function_item_evaluator on the
@@ -123,11 +123,13 @@ def check_layout(model, folder, params, curve):
     check(last.SegmentLength == 0.0 and last.PredefinedType == "LINE", "last layout segment is not a zero-length LINE")
     kinds = {"straight": {"LINE"}, "arc": {"CIRCULARARC"}, "transition": {"CLOTHOID", "LINE", "CIRCULARARC"}}
     grid_mode = "--grid" in sys.argv
+    # The placed length (adjusted to the controls and the measured centreline) where given.
+    lcol = f"placed_length_{unit}" if f"placed_length_{unit}" in rows[0] else f"length_{unit}"
     worst_length = 0.0
     for row, p in zip(rows, params):
         check(p.PredefinedType in kinds[row["kind"]], f"element {row['element']}: {p.PredefinedType} for {row['kind']}")
         if not grid_mode:  # grid lengths are scaled
-            worst_length = max(worst_length, abs(p.SegmentLength - float(row[f"length_{unit}"])))
+            worst_length = max(worst_length, abs(p.SegmentLength - float(row[lcol])))
     check(worst_length <= 0.0005 + 1e-9, f"lengths differ from elements.csv by {worst_length}")
     segs = curve.Segments
     check(len(segs) == len(params), f"{len(segs)} curve segments for {len(params)} layout segments")

@@ -15,7 +15,7 @@
 //! end, a radius interval that reaches a straight) is an empty field, never
 //! NaN. Consecutive rows join exactly: each start is the previous end.
 //!
-//! With the placed design ([`write_elements_csv_placed`](crate::export::elements::write_elements_csv_placed)) seven columns
+//! With the placed design ([`write_elements_csv_placed`](crate::export::elements::write_elements_csv_placed)) ten columns
 //! follow: `start_easting_m, start_northing_m, end_easting_m,
 //! end_northing_m` (the element's ends on the design centreline: grid
 //! coordinates with `--crs`, suffix in the grid's unit `_m`/`_usft`/`_ft`;
@@ -23,7 +23,11 @@
 //! end_bearing_deg` (clockwise from north: true north when the survey is
 //! placed, like `stations.csv`), and `clothoid_a_m`, the clothoid parameter
 //! A = √(L / |1/R₂ − 1/R₁|) of a transition (A² = R·L from a straight;
-//! empty for straights and arcs).
+//! empty for straights and arcs), then `placed_length_m,
+//! placed_start_radius_m, placed_end_radius_m`: the element as placed
+//! (`crate::place`: adjusted within the fit's uncertainty to pass the control
+//! points and follow the measured centreline), the values the coordinates,
+//! `alignment.xml` and `alignment.ifc` are drawn with.
 
 use crate::fit::{ElementStatus, Estimate, FitResult, FittedElement};
 use crate::geometry::{Alignment, ElementKind, Pose, heading_to_bearing};
@@ -167,6 +171,14 @@ pub struct ElementEnds {
     pub end_bearing: f64,
     /// Clothoid parameter A of a transition, metres.
     pub clothoid_a: Option<f64>,
+    /// Centreline length of the placed element (m): the fitted length as
+    /// adjusted to pass the control points and follow the measured
+    /// centreline (`crate::place`).
+    pub length: f64,
+    /// Signed radius of the placed element at its start (m); `None` for zero curvature.
+    pub start_radius: Option<f64>,
+    /// Signed radius at its end (m).
+    pub end_radius: Option<f64>,
 }
 
 /// Where the design's elements are: the extra columns of `elements.csv`.
@@ -225,6 +237,9 @@ impl ElementPlacement {
                 end_bearing: bearing_deg(georef, p1),
                 clothoid_a: (e.kind == ElementKind::Transition && dk > 0.0)
                     .then(|| (e.length / dk).sqrt()),
+                length: e.length,
+                start_radius: (e.k_start != 0.0).then(|| 1.0 / e.k_start),
+                end_radius: (e.k_end != 0.0).then(|| 1.0 / e.k_end),
             });
         }
         Ok(ElementPlacement {
@@ -272,6 +287,9 @@ pub fn write_elements_csv_placed<W: Write>(
         h.push("start_bearing_deg".into());
         h.push("end_bearing_deg".into());
         h.push(format!("clothoid_a_{}", unit.suffix()));
+        for c in ["placed_length", "placed_start_radius", "placed_end_radius"] {
+            h.push(format!("{c}_{}", unit.suffix()));
+        }
     }
     w.write_record(h).map_err(io::Error::other)?;
     for (i, e) in fit.elements.iter().enumerate() {
@@ -287,6 +305,10 @@ pub fn write_elements_csv_placed<W: Write>(
                 q.clothoid_a
                     .map_or(String::new(), |a| num(unit.from_m(a), 3)),
             );
+            r.push(num(unit.from_m(q.length), 3));
+            for rad in [q.start_radius, q.end_radius] {
+                r.push(rad.map_or(String::new(), |v| num(unit.from_m(v), 3)));
+            }
         }
         w.write_record(r).map_err(io::Error::other)?;
     }
