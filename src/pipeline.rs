@@ -353,6 +353,8 @@ pub fn run(
         date: Some((created, created_basis.to_string())),
     };
     let mut results = process(survey, opts)?;
+    // The stages word their figures in SI; the reader already in the file's units.
+    crate::report::localise_diagnostics(&mut results.diagnostics, results.survey.chainage_unit);
     diags.extend(dir.notes().iter().map(Diagnostic::note));
     diags.append(&mut results.diagnostics);
     results.diagnostics = diags;
