@@ -16,8 +16,7 @@ fn metric_figures(text: &str) -> Vec<String> {
         while let Some(k) = text[from..].find(unit) {
             let at = from + k;
             from = at + unit.len();
-            let before_is_digit =
-                at > 0 && b[at - 1].is_ascii_digit() || at > 0 && b[at - 1] == b')';
+            let before_is_digit = at > 0 && (b[at - 1].is_ascii_digit() || b[at - 1] == b')');
             let after_ok = text[at + unit.len()..]
                 .chars()
                 .next()
@@ -25,9 +24,7 @@ fn metric_figures(text: &str) -> Vec<String> {
             if before_is_digit && after_ok {
                 let s = at.saturating_sub(40);
                 let e = (at + unit.len() + 10).min(text.len());
-                found.push(
-                    text[text.floor_char_boundary(s)..text.floor_char_boundary(e)].to_string(),
-                );
+                found.push(String::from_utf8_lossy(&b[s..e]).into_owned());
             }
         }
     }
