@@ -341,7 +341,7 @@ const CASES: &[(&str, &str, Option<Rail>, &str)] = &[
         "bad/versine_in_holding_mm.csv",
         "62ft",
         L,
-        "bad/versine_in_holding_mm.csv, column versine_in (field 2): a tenth of the versines are 240 in or more, which on a chord of 18.8976 m (62 ft) would mean curves of radius 7 m or less; no railway has such curves; the values look like millimetres (radius about 186 m): rename the column versine_mm",
+        "bad/versine_in_holding_mm.csv, column versine_in (field 2): a tenth of the versines are 240 in or more, which on a chord of 62 ft would mean curves of radius 24 ft or less; no railway has such curves; the values look like millimetres (radius about 610 ft): rename the column versine_mm",
     ),
     (
         "bad/versine_m_holding_mm.csv",
@@ -391,7 +391,7 @@ const CASES: &[(&str, &str, Option<Rail>, &str)] = &[
         "ok/inch_column_maybe_mm.csv",
         "62ft",
         L,
-        "ok/inch_column_maybe_mm.csv:2, column versine_in: warning: a tenth of the versines are 40 in or more, which on a chord of 18.8976 m (62 ft) means curves of radius 44 m or less, sharper than almost any railway; as millimetres they would mean radius about 1116 m (if the values are millimetres, rename the column versine_mm; check --chord too)",
+        "ok/inch_column_maybe_mm.csv:2, column versine_in: warning: a tenth of the versines are 40 in or more, which on a chord of 62 ft means curves of radius 144 ft or less, sharper than almost any railway; as millimetres they would mean radius about 3661 ft (if the values are millimetres, rename the column versine_mm; check --chord too)",
     ),
     (
         "ok/irregular_spacing.csv",
