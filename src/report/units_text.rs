@@ -102,7 +102,10 @@ pub fn in_feet(text: &str) -> String {
                 && text[after + c.metric.len()..]
                     .chars()
                     .next()
-                    .is_none_or(|n| !n.is_alphanumeric())
+                    .is_none_or(|n| {
+                        // "km/h" and "m/s" are speeds, not lengths.
+                        !n.is_alphanumeric() && !(n == '/' && matches!(c.metric, " km" | " m"))
+                    })
         }) {
             // Rewrite the waiting figures from the last one back.
             for (s, e, n) in pending.drain(..).rev() {
@@ -224,6 +227,7 @@ mod tests {
             ),
             ("(sd, at chainage 3.048 m)", "(sd, at chainage 10.00 ft)"),
             ("from 9.4 m to 28.3 m", "from 31 ft to 93 ft"),
+            ("at 100 km/h, 3 m/s", "at 100 km/h, 3 m/s"),
             ("straights under 100 m", "straights under 328 ft"),
             ("a step of 1.000 mm/√12", "a step of 0.0394 in/√12"),
             ("-0.0001 mm", "0.00000 in"),
