@@ -104,7 +104,8 @@ pub fn in_feet(text: &str) -> String {
                     .next()
                     .is_none_or(|n| {
                         // "km/h" and "m/s" are speeds, not lengths.
-                        !n.is_alphanumeric() && !(n == '/' && matches!(c.metric, " km" | " m"))
+                        let speed = n == '/' && matches!(c.metric, " km" | " m");
+                        !(n.is_alphanumeric() || speed)
                     })
         }) {
             // Rewrite the waiting figures from the last one back.
