@@ -167,3 +167,27 @@ fn a_design_in_feet_runs_in_feet_and_inches_throughout() {
             .ends_with(",curvature_deg_per_100ft")
     );
 }
+
+#[test]
+fn stage_errors_of_a_survey_in_feet_are_worded_in_feet() {
+    use chordline::integrate::IntegrateError;
+    use chordline::pipeline::RunError;
+    use chordline::units::LengthUnit;
+    let e = || {
+        RunError::Integrate(IntegrateError::VersineTooLarge {
+            file: "s.csv".into(),
+            line: 12,
+            chainage: 304.8,
+            versine_mm: 2540.0,
+            chord: 18.8976,
+        })
+    };
+    assert_eq!(
+        e().in_survey_units(LengthUnit::Foot).to_string(),
+        "s.csv:12: versine 100.00 in at chainage 1000 ft is too large for a 62.000 ft chord; check the versine unit (mm/in) and the chord length"
+    );
+    assert_eq!(
+        e().in_survey_units(LengthUnit::Metre).to_string(),
+        "s.csv:12: versine 2540.0 mm at chainage 304.8 m is too large for a 18.8976 m chord; check the versine unit (mm/in) and the chord length"
+    );
+}
