@@ -1010,3 +1010,39 @@ fn a_track_across_the_180th_meridian_is_named() {
     );
     assert_eq!(cli_cases::listing(dir.path()), before);
 }
+
+/// An all-zero survey (straight track read to the millimetre): the noise
+/// floor of a 1 mm reading step applies, with a warning, so the position
+/// after 800 m is not claimed to a tenth of a millimetre.
+#[test]
+fn an_all_zero_survey_takes_the_rounding_floor() {
+    use chordline::pipeline::{Options, process};
+    let (survey, _) = read_survey_file(
+        &fixture("ok/all_zero.csv"),
+        &ReadOptions {
+            rail: L,
+            ..ReadOptions::new(20.0)
+        },
+    )
+    .unwrap();
+    let mut opts = Options::new(20.0, Rail::Left);
+    opts.fit = None;
+    let r = process(survey, &opts).unwrap();
+    let w = "warning: every versine is zero, so neither the rounding of the readings nor their noise shows; the reading standard deviation is taken as a reading step of 1.000 mm over √12 (state the reading standard deviation with --reading-sd (e.g. 1mm for a hand survey))";
+    assert!(
+        r.diagnostics.iter().any(|d| d.to_string() == w),
+        "{:?}",
+        r.diagnostics
+    );
+    assert!((r.plan.reading_sd - 1e-3 / 12f64.sqrt()).abs() < 1e-9);
+    let first = r.plan.stations.first().unwrap();
+    let last = r.plan.stations.last().unwrap();
+    // The sd grows like the 1.5th power of the length; a 0.29 mm reading sd
+    // over the survey gives millimetres at least, never a tenth of one.
+    assert!(
+        last.position_sd > 1e-3,
+        "{} m over {} m",
+        last.position_sd,
+        last.chainage - first.chainage
+    );
+}
