@@ -92,6 +92,10 @@ pub enum RunError {
     /// An option does not fit the survey (e.g. a fixed point outside it).
     #[error("{0}")]
     Options(String),
+    /// An error of the integration or the realignment, worded in feet and
+    /// inches for a survey in feet (the stages word their figures in SI).
+    #[error("{0}")]
+    InSurveyUnits(String),
 }
 
 impl RunError {
@@ -104,7 +108,23 @@ impl RunError {
             RunError::Survey(_)
             | RunError::Integrate(_)
             | RunError::Georef(_)
-            | RunError::Options(_) => false,
+            | RunError::Options(_)
+            | RunError::InSurveyUnits(_) => false,
+        }
+    }
+
+    /// This error as a survey in `unit` should show it: an input error of
+    /// the integration or the realignment in feet and inches for a survey in
+    /// feet; any other error as it is (the reader and the control-file
+    /// reader already word theirs in their file's units).
+    pub fn in_survey_units(self, unit: crate::units::LengthUnit) -> RunError {
+        match self {
+            RunError::Integrate(_) | RunError::Slews(_)
+                if unit == crate::units::LengthUnit::Foot && !self.is_internal() =>
+            {
+                RunError::InSurveyUnits(crate::report::in_feet(&self.to_string()))
+            }
+            other => other,
         }
     }
 }
@@ -343,7 +363,10 @@ pub fn run(
         header_comments: crate::report::header_comments(&String::from_utf8_lossy(&bytes)),
         date: Some((created, created_basis.to_string())),
     };
-    let mut results = process(survey, opts)?;
+    let unit = survey.chainage_unit;
+    let mut results = process(survey, opts).map_err(|e| e.in_survey_units(unit))?;
+    // The stages word their figures in SI; the reader already in the file's units.
+    crate::report::localise_diagnostics(&mut results.diagnostics, results.survey.chainage_unit);
     diags.extend(dir.notes().iter().map(Diagnostic::note));
     diags.append(&mut results.diagnostics);
     results.diagnostics = diags;

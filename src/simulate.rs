@@ -31,7 +31,9 @@ use rand_distr::{Distribution, Normal};
 use std::io::{self, Write};
 
 mod design;
+mod error;
 pub use design::{Design, DesignError};
+pub use error::{SimLength, SimulateError};
 
 /// How the simulated survey is taken.
 #[derive(Debug, Clone, PartialEq)]
@@ -92,103 +94,6 @@ impl SimSetup {
         let r = m.round();
         (r >= 1.0 && (m - r).abs() < 1e-9).then_some(r as usize)
     }
-}
-
-/// Why a simulation could not be set up.
-#[derive(Debug, Clone, PartialEq, thiserror::Error)]
-pub enum SimulateError {
-    /// Chord, spacing or gauge not positive and finite.
-    #[error("{what} must be a positive, finite number of metres (got {value})")]
-    NotPositive {
-        /// Which quantity.
-        what: &'static str,
-        /// The value given.
-        value: f64,
-    },
-    /// The spacing does not divide the half chord.
-    #[error(
-        "the mark spacing {spacing} m does not divide the half chord {half} m; use e.g. {half} m, {quarter} m or {tenth} m"
-    )]
-    SpacingDoesNotFit {
-        /// Spacing given, metres.
-        spacing: f64,
-        /// Half chord, metres.
-        half: f64,
-        /// Half of the half chord, for the message.
-        quarter: f64,
-        /// A tenth of the half chord, for the message.
-        tenth: f64,
-    },
-    /// The design is too short for a single chord.
-    #[error(
-        "the design is {length:.3} m long along the rail, shorter than one chord ({chord} m): add elements or shorten the chord"
-    )]
-    TooShort {
-        /// Rail length of the design, metres.
-        length: f64,
-        /// Chord, metres.
-        chord: f64,
-    },
-    /// Noise, bias, resolution or irregularity not finite or negative.
-    #[error("{what} must be a finite number not below zero (got {value})")]
-    BadImperfection {
-        /// Which quantity.
-        what: &'static str,
-        /// The value given.
-        value: f64,
-    },
-    /// The design and spacing would give more marks than simulate writes.
-    #[error(
-        "the design is {length:.0} m long along the rail with a mark every {spacing} m, {marks} marks: more than the {max} that simulate writes; shorten the design or widen --spacing"
-    )]
-    TooManyMarks {
-        /// Rail length, metres.
-        length: f64,
-        /// Mark spacing, metres.
-        spacing: f64,
-        /// Marks it would take.
-        marks: f64,
-        /// The most allowed.
-        max: usize,
-    },
-    /// A curve sharper than the chord and the rail offset can be laid on.
-    #[error(
-        "element {element} has a radius of {radius} m, too sharp for a chord of {chord} m read {offset} m from the centreline: the chord would not fit on the rail; give radii of at least {min} m"
-    )]
-    TooSharp {
-        /// 1-based element number.
-        element: usize,
-        /// The sharpest radius in it, metres.
-        radius: f64,
-        /// Chord, metres.
-        chord: f64,
-        /// Rail offset from the centreline, metres.
-        offset: f64,
-        /// The smallest radius allowed, metres.
-        min: f64,
-    },
-    /// A start chainage so large that marks a spacing apart would share a chainage.
-    #[error(
-        "start_chainage_m {value} is too large: at that size marks {spacing} m apart cannot be told apart in a chainage; give a start chainage of at most {max} m"
-    )]
-    HugeChainage {
-        /// The value given.
-        value: f64,
-        /// Mark spacing, metres.
-        spacing: f64,
-        /// The largest allowed.
-        max: f64,
-    },
-    /// A fixed-length wire could not be placed (curve too sharp for the chord).
-    #[error(
-        "a {chord} m wire cannot rest on the rail at chainage {chainage:.3} m: the curve is too sharp for this chord"
-    )]
-    WireDoesNotFit {
-        /// Chord, metres.
-        chord: f64,
-        /// Chainage of the mark, metres.
-        chainage: f64,
-    },
 }
 
 /// The exact state of the track at one mark.
@@ -278,21 +183,22 @@ impl SimSetup {
 pub fn simulate(design: &Alignment, setup: &SimSetup) -> Result<Simulated, SimulateError> {
     check_setup(setup)?;
     check_limits(design, setup)?;
+    let long = |m: f64| SimLength::long(m, setup.chainage_unit);
     let m = setup.steps_per_half_chord().ok_or_else(|| {
         let half = 0.5 * setup.chord;
         SimulateError::SpacingDoesNotFit {
-            spacing: setup.spacing,
-            half,
-            quarter: 0.5 * half,
-            tenth: 0.1 * half,
+            spacing: long(setup.spacing),
+            half: long(half),
+            quarter: long(0.5 * half),
+            tenth: long(0.1 * half),
         }
     })?;
     let d = setup.rail.offset_left(setup.gauge);
     let rail_len = design.offset_length(design.length(), d);
     if rail_len < setup.chord {
         return Err(SimulateError::TooShort {
-            length: rail_len,
-            chord: setup.chord,
+            length: long(rail_len),
+            chord: long(setup.chord),
         });
     }
     let n = (rail_len / setup.spacing + 1e-9).floor() as usize + 1;
@@ -346,7 +252,7 @@ pub fn simulate(design: &Alignment, setup: &SimSetup) -> Result<Simulated, Simul
     let normal =
         Normal::new(0.0, setup.noise_sd.max(0.0)).map_err(|_| SimulateError::BadImperfection {
             what: "noise",
-            value: setup.noise_sd,
+            value: SimLength::small(setup.noise_sd, setup.chainage_unit),
         })?;
     let readings = truth
         .iter()
@@ -381,12 +287,18 @@ pub fn simulate(design: &Alignment, setup: &SimSetup) -> Result<Simulated, Simul
 }
 
 fn check_setup(s: &SimSetup) -> Result<(), SimulateError> {
-    for (what, value) in [
-        ("the chord", s.chord),
-        ("the mark spacing", s.spacing),
-        ("the gauge", s.gauge),
+    let u = s.chainage_unit;
+    for (what, value, small) in [
+        ("the chord", s.chord, false),
+        ("the mark spacing", s.spacing, false),
+        ("the gauge", s.gauge, true),
     ] {
         if !(value.is_finite() && value > 0.0) {
+            let value = SimLength {
+                metres: value,
+                unit: u,
+                small,
+            };
             return Err(SimulateError::NotPositive { what, value });
         }
     }
@@ -396,13 +308,14 @@ fn check_setup(s: &SimSetup) -> Result<(), SimulateError> {
         ("the irregularity", s.irregularity_rms),
     ] {
         if !(value.is_finite() && value >= 0.0) {
+            let value = SimLength::small(value, u);
             return Err(SimulateError::BadImperfection { what, value });
         }
     }
     if !s.bias.is_finite() {
         return Err(SimulateError::BadImperfection {
             what: "the bias",
-            value: s.bias,
+            value: SimLength::small(s.bias, u),
         });
     }
     Ok(())
@@ -420,12 +333,13 @@ pub const MAX_START_CHAINAGE: f64 = 1e9;
 /// curves too sharp for the chord on the offset rail, chainages too large to
 /// keep marks apart.
 fn check_limits(design: &Alignment, s: &SimSetup) -> Result<(), SimulateError> {
+    let long = |m: f64| SimLength::long(m, s.chainage_unit);
     let length = design.length();
     let marks = length / s.spacing + 1.0;
     if marks.is_nan() || marks > MAX_MARKS as f64 {
         return Err(SimulateError::TooManyMarks {
-            length,
-            spacing: s.spacing,
+            length: long(length),
+            spacing: long(s.spacing),
             marks: marks.round(),
             max: MAX_MARKS,
         });
@@ -439,10 +353,10 @@ fn check_limits(design: &Alignment, s: &SimSetup) -> Result<(), SimulateError> {
         if k > 0.0 && 1.0 / k < min {
             return Err(SimulateError::TooSharp {
                 element: i + 1,
-                radius: 1.0 / k,
-                chord: s.chord,
-                offset,
-                min,
+                radius: long(1.0 / k),
+                chord: long(s.chord),
+                offset: long(offset),
+                min: long(min),
             });
         }
     }
@@ -452,9 +366,13 @@ fn check_limits(design: &Alignment, s: &SimSetup) -> Result<(), SimulateError> {
     let ulp = far * f64::EPSILON;
     if far.is_nan() || far > MAX_START_CHAINAGE || ulp > 1e-6 * s.spacing {
         return Err(SimulateError::HugeChainage {
-            value: s.start_chainage,
-            spacing: s.spacing,
-            max: MAX_START_CHAINAGE,
+            key: match s.chainage_unit {
+                LengthUnit::Metre => "start_chainage_m",
+                LengthUnit::Foot => "start_chainage_ft",
+            },
+            value: s.chainage_unit.from_m(s.start_chainage),
+            spacing: long(s.spacing),
+            max: long(MAX_START_CHAINAGE),
         });
     }
     Ok(())
@@ -496,8 +414,8 @@ fn wire_versine(
 ) -> Result<Option<f64>, SimulateError> {
     let c = setup.chord;
     let fail = || SimulateError::WireDoesNotFit {
-        chord: c,
-        chainage: setup.start_chainage + r,
+        chord: SimLength::long(c, setup.chainage_unit),
+        chainage: SimLength::long(setup.start_chainage + r, setup.chainage_unit),
     };
     // Unknowns: arc lengths of the two ends. Equations: |AB| = c, and the
     // perpendicular to AB through its middle passes through p.
@@ -694,11 +612,24 @@ pub fn write_survey_csv(
     for r in &survey.readings[first..=last] {
         let c = cu.from_m(r.chainage);
         match r.versine {
-            Some(v) => writeln!(w, "{c:.3},{:.*}", vdec, vu.from_m(v))?,
+            Some(v) => writeln!(
+                w,
+                "{c:.3},{}",
+                no_minus_zero(format!("{:.*}", vdec, vu.from_m(v)))
+            )?,
             None => writeln!(w, "{c:.3},")?,
         }
     }
     Ok(())
+}
+
+/// A formatted number without the sign of a zero ("-0.0000" → "0.0000"):
+/// a reading that rounds to zero is zero, whichever side it came from.
+fn no_minus_zero(t: String) -> String {
+    match t.strip_prefix('-') {
+        Some(rest) if rest.bytes().all(|b| b == b'0' || b == b'.') => rest.to_string(),
+        _ => t,
+    }
 }
 
 /// Smallest number of decimals that writes multiples of `step` exactly

@@ -341,7 +341,7 @@ const CASES: &[(&str, &str, Option<Rail>, &str)] = &[
         "bad/versine_in_holding_mm.csv",
         "62ft",
         L,
-        "bad/versine_in_holding_mm.csv, column versine_in (field 2): a tenth of the versines are 240 in or more, which on a chord of 18.8976 m (62 ft) would mean curves of radius 7 m or less; no railway has such curves; the values look like millimetres (radius about 186 m): rename the column versine_mm",
+        "bad/versine_in_holding_mm.csv, column versine_in (field 2): a tenth of the versines are 240 in or more, which on a chord of 62 ft would mean curves of radius 24 ft or less; no railway has such curves; the values look like millimetres (radius about 610 ft): rename the column versine_mm",
     ),
     (
         "bad/versine_m_holding_mm.csv",
@@ -391,7 +391,7 @@ const CASES: &[(&str, &str, Option<Rail>, &str)] = &[
         "ok/inch_column_maybe_mm.csv",
         "62ft",
         L,
-        "ok/inch_column_maybe_mm.csv:2, column versine_in: warning: a tenth of the versines are 40 in or more, which on a chord of 18.8976 m (62 ft) means curves of radius 44 m or less, sharper than almost any railway; as millimetres they would mean radius about 1116 m (if the values are millimetres, rename the column versine_mm; check --chord too)",
+        "ok/inch_column_maybe_mm.csv:2, column versine_in: warning: a tenth of the versines are 40 in or more, which on a chord of 62 ft means curves of radius 144 ft or less, sharper than almost any railway; as millimetres they would mean radius about 3661 ft (if the values are millimetres, rename the column versine_mm; check --chord too)",
     ),
     (
         "ok/irregular_spacing.csv",
@@ -817,4 +817,232 @@ fn cli_catalogue() {
         }
     }
     assert!(failures.is_empty(), "{}", failures.join("\n"));
+}
+
+/// A process id that is surely not running: that of a child that has ended.
+fn dead_pid() -> u32 {
+    let mut c = std::process::Command::new("true")
+        .spawn()
+        .expect("run true");
+    let pid = c.id();
+    c.wait().expect("wait");
+    pid
+}
+
+/// Leftovers of runs killed outright (`kill -9`): the next run into the
+/// same folder removes a half-written folder, puts moved-aside results
+/// back, and says so in a note.
+#[test]
+fn leftovers_of_killed_runs_are_tidied_and_named() {
+    let dir = cli_cases::scratch();
+    let run = [
+        "run",
+        "survey.csv",
+        "--chord",
+        "20m",
+        "--rail",
+        "left",
+        "--out",
+        "o",
+    ];
+    let pid = dead_pid();
+    let partial = format!(".o.chordline-partial-{pid}-0");
+    std::fs::create_dir(dir.path().join(&partial)).unwrap();
+    std::fs::write(dir.path().join(&partial).join("stations.csv"), "half").unwrap();
+    let (code, _, err) = cli_cases::run_in(dir.path(), &run);
+    assert_eq!(code, Some(0), "{err}");
+    let note = format!(
+        "note: removed './{partial}', a half-written folder left by an earlier run that was stopped"
+    );
+    assert!(err.lines().any(|l| l == note), "{err}");
+    // Killed between the two renames of a forced commit: results moved aside.
+    let old = format!(".o.chordline-old-{pid}-1");
+    std::fs::rename(dir.path().join("o"), dir.path().join(&old)).unwrap();
+    let mut forced = run.to_vec();
+    forced.push("--force");
+    let (code, _, err) = cli_cases::run_in(dir.path(), &forced);
+    assert_eq!(code, Some(0), "{err}");
+    let note = "note: an earlier run was stopped while replacing 'o'; the results it had moved aside were put back";
+    assert!(err.lines().any(|l| l == note), "{err}");
+    let hidden: Vec<String> = std::fs::read_dir(dir.path())
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .filter(|n| n.starts_with(".o."))
+        .collect();
+    assert!(hidden.is_empty(), "left behind: {hidden:?}");
+}
+
+/// Three forced runs into one folder at the same time: each succeeds, the
+/// folder is whole, and no hidden folder is left.
+#[test]
+fn concurrent_forced_runs_each_succeed_and_leave_nothing_hidden() {
+    let dir = cli_cases::scratch();
+    let args = [
+        "run",
+        "survey.csv",
+        "--chord",
+        "20m",
+        "--rail",
+        "left",
+        "--out",
+        "o",
+        "--force",
+    ];
+    let (code, _, err) = cli_cases::run_in(dir.path(), &args);
+    assert_eq!(code, Some(0), "{err}");
+    let children: Vec<_> = (0..3)
+        .map(|_| {
+            std::process::Command::new(env!("CARGO_BIN_EXE_chordline"))
+                .args(args)
+                .current_dir(dir.path())
+                .stdout(std::process::Stdio::null())
+                .stderr(std::process::Stdio::piped())
+                .spawn()
+                .unwrap()
+        })
+        .collect();
+    for c in children {
+        let o = c.wait_with_output().unwrap();
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    }
+    let names: Vec<String> = std::fs::read_dir(dir.path())
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .filter(|n| n.starts_with(".o."))
+        .collect();
+    assert!(names.is_empty(), "left behind: {names:?}");
+    for f in [
+        "stations.csv",
+        "elements.csv",
+        "report.html",
+        ".chordline-output",
+    ] {
+        assert!(dir.path().join("o").join(f).exists(), "{f}");
+    }
+}
+
+/// `--out` through a symbolic link with `--force`: the link stays a link and
+/// the folder it points to holds the new results only.
+#[cfg(unix)]
+#[test]
+fn a_forced_run_through_a_symlink_keeps_the_link() {
+    let dir = cli_cases::scratch();
+    let run = |out: &str, force: bool| {
+        let mut a = vec![
+            "run",
+            "survey.csv",
+            "--chord",
+            "20m",
+            "--rail",
+            "left",
+            "--out",
+            out,
+        ];
+        if force {
+            a.push("--force");
+        }
+        cli_cases::run_in(dir.path(), &a)
+    };
+    assert_eq!(run("real", false).0, Some(0));
+    std::fs::write(dir.path().join("real/stale.txt"), "from before").unwrap();
+    std::os::unix::fs::symlink("real", dir.path().join("link")).unwrap();
+    let (code, _, err) = run("link", true);
+    assert_eq!(code, Some(0), "{err}");
+    let meta = std::fs::symlink_metadata(dir.path().join("link")).unwrap();
+    assert!(meta.file_type().is_symlink(), "the link was replaced");
+    assert!(dir.path().join("real/stations.csv").exists());
+    assert!(
+        !dir.path().join("real/stale.txt").exists(),
+        "stale results left"
+    );
+}
+
+/// A chord ten times what the spacing implies gives a warning that names
+/// the chord that fits.
+#[test]
+fn a_chord_that_contradicts_the_spacing_is_warned() {
+    let dir = cli_cases::scratch();
+    let (code, _, err) = cli_cases::run_in(
+        dir.path(),
+        &[
+            "run",
+            "survey.csv",
+            "--chord",
+            "200m",
+            "--rail",
+            "left",
+            "--out",
+            "o",
+        ],
+    );
+    assert_eq!(code, Some(0), "{err}");
+    let w = "warning: the readings are 10 m apart, 10 to the half chord of 200 m: a hand survey with taped marks reads every half chord or a few times more often (check --chord (a chord of 20 m reads every half chord at this spacing); for a trolley or vehicle give --marking wire)";
+    assert!(err.lines().any(|l| l == w), "{err}");
+}
+
+/// A track placed across the 180th meridian: refused by name (not "check the
+/// free disk space"), nothing written.
+#[test]
+fn a_track_across_the_180th_meridian_is_named() {
+    let dir = cli_cases::scratch();
+    let before = cli_cases::listing(dir.path());
+    let (code, _, err) = cli_cases::run_in(
+        dir.path(),
+        &[
+            "run",
+            "survey.csv",
+            "--chord",
+            "20m",
+            "--rail",
+            "left",
+            "--out",
+            "o",
+            "--start-lonlat",
+            "179.9995,10",
+            "--start-bearing",
+            "90",
+        ],
+    );
+    assert_eq!(code, Some(1), "{err}");
+    assert_eq!(
+        err.lines().last().unwrap(),
+        "error: cannot write the GeoJSON layers: the track crosses the 180th meridian, which this writer does not split (nothing was written); no output folder was written (earlier results were left as they were)"
+    );
+    assert_eq!(cli_cases::listing(dir.path()), before);
+}
+
+/// An all-zero survey (straight track read to the millimetre): the noise
+/// floor of a 1 mm reading step applies, with a warning, so the position
+/// after 800 m is not claimed to a tenth of a millimetre.
+#[test]
+fn an_all_zero_survey_takes_the_rounding_floor() {
+    use chordline::pipeline::{Options, process};
+    let (survey, _) = read_survey_file(
+        &fixture("ok/all_zero.csv"),
+        &ReadOptions {
+            rail: L,
+            ..ReadOptions::new(20.0)
+        },
+    )
+    .unwrap();
+    let mut opts = Options::new(20.0, Rail::Left);
+    opts.fit = None;
+    let r = process(survey, &opts).unwrap();
+    let w = "warning: every versine is zero, so neither the rounding of the readings nor their noise shows; the reading standard deviation is taken as a reading step of 1.000 mm over √12 (state the reading standard deviation with --reading-sd (e.g. 1mm for a hand survey))";
+    assert!(
+        r.diagnostics.iter().any(|d| d.to_string() == w),
+        "{:?}",
+        r.diagnostics
+    );
+    assert!((r.plan.reading_sd - 1e-3 / 12f64.sqrt()).abs() < 1e-9);
+    let first = r.plan.stations.first().unwrap();
+    let last = r.plan.stations.last().unwrap();
+    // The sd grows like the 1.5th power of the length; a 0.29 mm reading sd
+    // over the survey gives millimetres at least, never a tenth of one.
+    assert!(
+        last.position_sd > 1e-3,
+        "{} m over {} m",
+        last.position_sd,
+        last.chainage - first.chainage
+    );
 }

@@ -130,10 +130,27 @@ fn design_text() -> impl Strategy<Value = String> {
             "spacing_m",
             "start_chainage_m",
             "noise_mm",
+            "chord_ft",
+            "spacing_ft",
+            "start_chainage_ft",
+            "gauge_in",
+            "noise_in",
         ]),
         prop_oneof![0.001..100.0f64, any::<f64>(), Just(1e15)],
+        prop::sample::select(vec![
+            "",
+            "\"units\": \"metric\", ",
+            "\"units\": \"imperial\", ",
+            "\"units\": \"feet\", ",
+            "\"units\": 3, ",
+        ]),
     )
-        .prop_map(|(els, key, v)| format!("{{\"{key}\": {v}, \"elements\": [{}]}}", els.join(", ")))
+        .prop_map(|(els, key, v, units)| {
+            format!(
+                "{{{units}\"{key}\": {v}, \"elements\": [{}]}}",
+                els.join(", ")
+            )
+        })
         .prop_map(|s| s.replace("NaN", "null").replace("inf", "1e999"))
 }
 
@@ -159,6 +176,11 @@ proptest! {
     fn design_files_never_panic_and_are_checked(text in design_text()) {
         match Design::from_json("d.json", &text) {
             Ok(d) => {
+                // One unit system per file: feet exactly when it says imperial.
+                let imperial = text.contains("\"units\": \"imperial\"");
+                prop_assert_eq!(d.setup.chainage_unit == chordline::units::LengthUnit::Foot, imperial, "{}", text);
+                let foreign = if imperial { "_m\"" } else { "_ft\"" };
+                prop_assert!(!text.contains(foreign), "{}", text);
                 // Whatever the design, simulate refuses or measures finite readings.
                 if let Ok(sim) = simulate(&d.alignment(), &d.setup) {
                     prop_assert!(sim.survey.readings.iter().all(|r| r.chainage.is_finite() && r.versine.is_none_or(f64::is_finite)));

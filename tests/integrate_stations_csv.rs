@@ -76,7 +76,7 @@ fn imperial_columns_and_degree_of_curve() {
     let head = t.lines().next().unwrap();
     assert_eq!(
         head,
-        "chainage_ft,versine_in,curvature_1_per_km,bearing_deg,easting_ft,northing_ft,position_sd_ft,heading_sd_deg,side,rail_easting_ft,rail_northing_ft,degree_of_curve"
+        "chainage_ft,versine_in,curvature_1_per_km,bearing_deg,easting_ft,northing_ft,position_sd_ft,heading_sd_deg,side,rail_easting_ft,rail_northing_ft,degree_of_curve,curvature_deg_per_100ft"
     );
     let last: Vec<&str> = t.lines().last().unwrap().split(',').collect();
     // On the 500 m arc: D = 2 asin(50 ft / R) = 1.7466° (chord definition, CHECKS.md 1.16 formula).
@@ -87,8 +87,23 @@ fn imperial_columns_and_degree_of_curve() {
     assert!((d - expect).abs() < 1e-4, "{d} vs {expect}");
     let design = 2.0 * (50.0 * FOOT / 500.0_f64).asin().to_degrees();
     assert!((d - design).abs() < 0.02 * design, "{d} vs {design}");
+    // The turn per 100 ft (arc definition): 100 ft × k in degrees, a little
+    // below the chord definition 2 asin(50 ft × k) (asin x > x).
+    let per_100ft: f64 = last[12].parse().unwrap();
+    assert!(
+        (per_100ft - (100.0 * FOOT * k).to_degrees()).abs() < 1e-6,
+        "{per_100ft}"
+    );
+    assert!(
+        per_100ft.abs() < d.abs(),
+        "arc definition below chord definition"
+    );
+    assert!((per_100ft - d).abs() < 1e-3 * d.abs());
+    let kkm: f64 = last[2].parse().unwrap();
+    assert!((per_100ft - (100.0 * FOOT * kkm * 1e-3).to_degrees()).abs() < 1e-5);
     let mid: Vec<&str> = t.lines().nth(10).unwrap().split(',').collect();
     assert_eq!(mid[1].split('.').nth(1).unwrap().len(), 3); // inches: 3 dp
+    assert_eq!(mid.len(), 13);
     let _ = VersineUnit::Inch;
 }
 

@@ -51,17 +51,60 @@ fn read_pairs(path: &Path) -> Vec<(f64, f64)> {
         .collect()
 }
 
+/// A design file in the reference generator's form: an imperial design
+/// (every length in feet, small ones in inches) with its lengths in metres
+/// under the metric keys; a metric design unchanged.
+fn in_metres(text: &str) -> String {
+    const FT: f64 = 0.3048;
+    const IN: f64 = 0.0254;
+    let mut v: serde_json::Value = serde_json::from_str(text).unwrap();
+    if v["units"] != "imperial" {
+        return text.to_string();
+    }
+    let o = v.as_object_mut().unwrap();
+    for (ft, m, f) in [
+        ("chord_ft", "chord_m", FT),
+        ("spacing_ft", "spacing_m", FT),
+        ("start_chainage_ft", "start_chainage_m", FT),
+        ("gauge_in", "gauge_m", IN),
+        ("noise_in", "noise_mm", IN * 1e3),
+        ("bias_in", "bias_mm", IN * 1e3),
+        ("resolution_in", "resolution_mm", IN * 1e3),
+        ("irregularity_in", "irregularity_mm", IN * 1e3),
+    ] {
+        if let Some(x) = o.remove(ft) {
+            o.insert(m.into(), (x.as_f64().unwrap() * f).into());
+        }
+    }
+    for e in o["elements"].as_array_mut().unwrap() {
+        for k in ["length", "radius", "r_start", "r_end"] {
+            if let Some(x) = e.get(k).and_then(|x| x.as_f64()) {
+                e[k] = (x * FT).into();
+            }
+        }
+    }
+    v.to_string()
+}
+
 fn compare(design: &str, tol: f64) {
     let Some(tool) = reference_tool() else { return };
     let dir = tempfile::tempdir().unwrap();
     let design = Path::new(env!("CARGO_MANIFEST_DIR"))
         .join("tests/designs")
         .join(design);
+    // The reference generator reads lengths in metres only ("units" there
+    // sets the survey's units alone): give it the design converted.
+    let reference_design = dir.path().join("reference-design.json");
+    std::fs::write(
+        &reference_design,
+        in_metres(&std::fs::read_to_string(&design).unwrap()),
+    )
+    .unwrap();
     let theirs = dir.path().join("reference.csv");
     let ours = dir.path().join("ours.csv");
     let st = Command::new("python3")
         .arg(&tool)
-        .arg(&design)
+        .arg(&reference_design)
         .arg(&theirs)
         .status()
         .unwrap();

@@ -269,31 +269,49 @@ fn round6(v: f64) -> String {
     if t == "-0" { "0".into() } else { t.into() }
 }
 
-/// The exact geometry at every mark, in the survey's chainage unit.
+/// The exact geometry at every mark, in the survey's units (feet and inches
+/// for an imperial survey, which also gets the turn per 100 ft).
 fn write_truth_csv(
     w: &mut dyn Write,
     truth: &[chordline::simulate::Truth],
     cu: LengthUnit,
 ) -> std::io::Result<()> {
+    let vu = cu.versine_unit();
+    let imperial = cu == LengthUnit::Foot;
     writeln!(
         w,
-        "chainage_{u},centre_distance_{u},easting_{u},northing_{u},bearing_deg,curvature_1_per_km,irregularity_mm,exact_versine_mm",
-        u = cu.suffix()
+        "chainage_{u},centre_distance_{u},easting_{u},northing_{u},bearing_deg,curvature_1_per_km,irregularity_{v},exact_versine_{v}{}",
+        if imperial {
+            ",curvature_deg_per_100ft"
+        } else {
+            ""
+        },
+        u = cu.suffix(),
+        v = vu.suffix(),
     )?;
+    let dp = if imperial { 5 } else { 4 };
     for t in truth {
-        writeln!(
+        write!(
             w,
-            "{:.4},{:.4},{:.4},{:.4},{:.8},{:.6},{:.4},{}",
+            "{:.4},{:.4},{:.4},{:.4},{:.8},{:.6},{:.dp$},{}",
             cu.from_m(t.chainage),
             cu.from_m(t.centre_s),
             cu.from_m(t.centre.x),
             cu.from_m(t.centre.y),
             chordline::geometry::heading_to_bearing(t.centre.heading),
             t.centre_curvature * 1e3,
-            t.irregularity * 1e3,
+            vu.from_m(t.irregularity),
             t.versine
-                .map_or(String::new(), |v| format!("{:.4}", v * 1e3))
+                .map_or(String::new(), |v| format!("{:.dp$}", vu.from_m(v)))
         )?;
+        if imperial {
+            write!(
+                w,
+                ",{:.6}",
+                (t.centre_curvature * cu.to_m(100.0)).to_degrees()
+            )?;
+        }
+        writeln!(w)?;
     }
     Ok(())
 }

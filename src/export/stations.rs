@@ -14,12 +14,13 @@
 //! | `heading_sd_deg` | ° | 6 | standard deviation of the bearing |
 //! | `side` | | | `left` or `right`: the rail measured |
 //! | `rail_easting_m`, `rail_northing_m` | m | 4 | running edge of the measured rail |
-//! | `degree_of_curve` | ° | 4 | imperial surveys only: chord definition (100 ft), signed like the curvature |
+//! | `degree_of_curve` | ° | 4 | imperial surveys only: **chord definition**, the angle a 100 ft chord subtends, `2 asin(50 ft/R)` (North American railway usage, AREMA Manual for Railway Engineering ch. 5, from memory), signed like the curvature; empty under R 50 ft |
 //! | `design_versine_mm`, `residual_mm` | mm | 2 (in: 3) | with a design: its versine and measured − design |
 //! | `design_easting_m`, `design_northing_m` | m | 4 | with a design: its centreline position |
 //! | `slew_mm`, `slew_sd_mm` | mm | 2 (in: 3) | with slews: lateral move onto the design, positive to the left, and its sd |
 //! | `longitude_deg`, `latitude_deg` | ° | 8 | placed surveys (WGS 84); `bearing_deg` is then from true north |
 //! | `local_easting_m`, `local_northing_m` | m | 4 | with `--crs` only: the centreline in the local ground frame |
+//! | `curvature_deg_per_100ft` | °/100 ft | 6 | imperial surveys only, last: centreline curvature as the turn in degrees per 100 ft along the track (equal to the **arc-definition** degree of curve `5729.58/R[ft]`, and linear in the curvature, so defined on transitions and straights too); `curvature_1_per_km` stays for the contract |
 //!
 //! With `--crs`, every `easting`/`northing` column (centreline, rail,
 //! design) holds **grid coordinates** of that system, and its suffix is the
@@ -287,6 +288,11 @@ pub fn write_stations_with(
                 num(&mut row, val, 4, col, c)?;
             }
         }
+        if imperial {
+            row.push(',');
+            let per_100ft = (s.curvature * unit.to_m(100.0)).to_degrees();
+            num(&mut row, per_100ft, 6, "curvature_deg_per_100ft", c)?;
+        }
         row.push('\n');
         w.write_all(row.as_bytes())?;
     }
@@ -317,6 +323,9 @@ fn header(unit: LengthUnit, extras: &StationExtras) -> String {
     }
     if extras.grid.is_some() {
         head.push_str(&format!(",local_easting_{l},local_northing_{l}"));
+    }
+    if unit == LengthUnit::Foot {
+        head.push_str(",curvature_deg_per_100ft");
     }
     head.push('\n');
     head

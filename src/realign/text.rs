@@ -22,9 +22,12 @@ pub(super) fn diagnostics(survey: &Survey, s: &Slews) -> Vec<Diagnostic> {
     let mut out = Vec::new();
     if let Some((i, v)) = s.max_abs() {
         out.push(Diagnostic::note(format!(
-            "largest slew {:.1} mm ({}) at chainage {:.3} m (sd {:.1} mm); the design versines were changed by at most {:.2} mm so that the section ends and fixed points stay put and the limits hold. Slews are {CAUTION}",
+            "largest slew {:.1} mm{} at chainage {:.3} m (sd {:.1} mm); the design versines were changed by at most {:.2} mm so that the section ends and fixed points stay put and the limits hold. Slews are {CAUTION}",
             mm(v.abs()),
-            direction_words(s, i),
+            match direction_words(s, i) {
+                "" => String::new(),
+                w => format!(" ({w})"),
+            },
             s.chainage[i],
             mm(s.sd[i]),
             mm(s.max_design_change())

@@ -9,9 +9,11 @@ mod sections;
 mod strip;
 mod svg;
 mod tables;
+mod units_text;
 
 pub use advice_text::advice_text;
 pub use html::html_report;
+pub use units_text::{in_feet, localise_diagnostics};
 
 use crate::diag::Severity;
 use crate::geometry::heading_to_bearing;
@@ -53,13 +55,16 @@ pub fn summary(r: &Results) -> String {
     );
     let _ = writeln!(
         s,
-        "set-up   {} {lu} chord, {} marking, gauge {:.0} mm",
+        "set-up   {} {lu} chord, {} marking, gauge {}",
         fmt_len(u, r.setup.chord),
         match r.setup.marking {
             crate::survey::Marking::Taped => "taped",
             crate::survey::Marking::Wire => "fixed-wire",
         },
-        r.setup.gauge * 1e3
+        match u {
+            LengthUnit::Metre => format!("{:.0} mm", r.setup.gauge * 1e3),
+            LengthUnit::Foot => format!("{:.2} {}", vu.from_m(r.setup.gauge), vu.suffix()),
+        }
     );
     let src = match r.plan.noise_source {
         NoiseSource::Stated => "as stated",

@@ -4,7 +4,7 @@
 use super::SimSetup;
 use crate::geometry::{Alignment, Element, Pose};
 use crate::survey::{Marking, Rail};
-use crate::units::{LengthUnit, VersineUnit};
+use crate::units::{FOOT, INCH, LengthUnit};
 use serde::de::IgnoredAny;
 
 /// Why a design file could not be read.
@@ -49,7 +49,7 @@ pub enum DesignError {
 }
 
 /// A design read from a JSON file: the elements and, optionally, the survey
-/// set-up. All lengths in metres.
+/// set-up. Metres inside, whatever the file's units.
 ///
 /// The file is an object with an `elements` array; each element has `kind`
 /// (`straight`, `transition`, `arc`) and `length`; an arc has a signed
@@ -59,7 +59,14 @@ pub enum DesignError {
 /// `gauge_m`, `noise_mm`, `bias_mm`, `resolution_mm`, `irregularity_mm`,
 /// `seed`, `units` (`metric`/`imperial`), `marking` (`taped`/`wire`),
 /// `start_chainage_m`. These are the keys of the team's reference generator,
-/// so one design file drives both.
+/// so one metric design file drives both.
+///
+/// With `"units": "imperial"` the survey is written in feet and inches and
+/// every length of the file is in feet: element lengths and radii,
+/// `chord_ft`, `spacing_ft`, `start_chainage_ft`; the small ones in inches:
+/// `gauge_in`, `noise_in`, `bias_in`, `resolution_in`, `irregularity_in`.
+/// A key of the other system (`chord_m` in an imperial file, `chord_ft` in a
+/// metric one) is refused.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Design {
     /// The centreline elements.
@@ -90,6 +97,14 @@ struct DesignKeys {
     units: Option<IgnoredAny>,
     marking: Option<IgnoredAny>,
     start_chainage_m: Option<IgnoredAny>,
+    chord_ft: Option<IgnoredAny>,
+    spacing_ft: Option<IgnoredAny>,
+    gauge_in: Option<IgnoredAny>,
+    noise_in: Option<IgnoredAny>,
+    bias_in: Option<IgnoredAny>,
+    resolution_in: Option<IgnoredAny>,
+    irregularity_in: Option<IgnoredAny>,
+    start_chainage_ft: Option<IgnoredAny>,
     /// Free text for the reader of the file.
     description: Option<IgnoredAny>,
 }
@@ -160,6 +175,11 @@ impl Design {
 
     /// Parse a design from JSON text; `file` names it in messages.
     ///
+    /// With `"units": "imperial"` every length is in feet (element lengths and
+    /// radii, `chord_ft`, `spacing_ft`, `start_chainage_ft`) and the small
+    /// ones in inches (`gauge_in`, `noise_in`, ...); a key of the other
+    /// system is refused, so that a file never mixes them.
+    ///
     /// # Errors
     /// [`DesignError`] naming the line and column of a JSON error, or the
     /// element and key that is missing or wrong.
@@ -171,178 +191,364 @@ impl Design {
             column: e.column(),
             msg: e.to_string(),
         })?;
-        let bad = |place: &str, msg: String| DesignError::Bad {
-            file: file.to_string(),
-            place: place.to_string(),
-            msg,
-        };
+        let r = Reader { file };
         let obj = v.as_object().ok_or_else(|| {
-            bad(
+            r.bad(
                 "top level",
                 "expected an object with an \"elements\" array".into(),
             )
         })?;
-        let num = |key: &str, default: f64| -> Result<f64, DesignError> {
-            match obj.get(key) {
-                None | Some(serde_json::Value::Null) => Ok(default),
-                Some(x) => x
-                    .as_f64()
-                    .filter(|f| f.is_finite())
-                    .ok_or_else(|| bad(key, format!("expected a number, found {x}"))),
-            }
-        };
-        let chord = num("chord_m", 20.0)?;
-        let imperial = match obj.get("units").and_then(|u| u.as_str()) {
-            None | Some("metric") => false,
-            Some("imperial") => true,
+        let units = r.units(obj)?;
+        let setup = r.setup(obj, units)?;
+        let raw = r.elements(obj, units)?;
+        Ok(Design {
+            elements: join_transitions(&raw),
+            setup,
+        })
+    }
+}
+
+/// The unit system of a design file.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Units {
+    /// Metres, small lengths in millimetres.
+    Metric,
+    /// Feet, small lengths in inches.
+    Imperial,
+}
+
+impl Units {
+    /// The unit of lengths (element lengths, radii, chord, chainages).
+    fn long(self) -> LengthUnit {
+        match self {
+            Units::Metric => LengthUnit::Metre,
+            Units::Imperial => LengthUnit::Foot,
+        }
+    }
+    /// Its name in a sentence.
+    fn word(self) -> &'static str {
+        match self {
+            Units::Metric => "metres",
+            Units::Imperial => "feet",
+        }
+    }
+    /// The value of `"units"` that selects this system.
+    fn name(self) -> &'static str {
+        match self {
+            Units::Metric => "metric",
+            Units::Imperial => "imperial",
+        }
+    }
+}
+
+/// A set-up length: its key in a metric and in an imperial file, and the
+/// metres in one unit of each.
+struct LengthKey {
+    metric: &'static str,
+    imperial: &'static str,
+    metric_m: f64,
+    imperial_m: f64,
+}
+
+const fn key(
+    metric: &'static str,
+    imperial: &'static str,
+    metric_m: f64,
+    imperial_m: f64,
+) -> LengthKey {
+    LengthKey {
+        metric,
+        imperial,
+        metric_m,
+        imperial_m,
+    }
+}
+
+/// Every set-up length of a design file, in the order [`Reader::setup`]
+/// reads them: long ones in metres or feet, small ones in millimetres or
+/// inches (the gauge in metres, or in inches as the trade writes 4 ft 8½ in).
+const LENGTH_KEYS: [LengthKey; 8] = [
+    key("chord_m", "chord_ft", 1.0, FOOT),
+    key("spacing_m", "spacing_ft", 1.0, FOOT),
+    key("gauge_m", "gauge_in", 1.0, INCH),
+    key("noise_mm", "noise_in", 1e-3, INCH),
+    key("bias_mm", "bias_in", 1e-3, INCH),
+    key("resolution_mm", "resolution_in", 1e-3, INCH),
+    key("irregularity_mm", "irregularity_in", 1e-3, INCH),
+    key("start_chainage_m", "start_chainage_ft", 1.0, FOOT),
+];
+
+impl LengthKey {
+    /// The key in a file of `units`.
+    fn name(&self, units: Units) -> &'static str {
+        match units {
+            Units::Metric => self.metric,
+            Units::Imperial => self.imperial,
+        }
+    }
+    /// Metres per unit of the key's value.
+    fn metres(&self, units: Units) -> f64 {
+        match units {
+            Units::Metric => self.metric_m,
+            Units::Imperial => self.imperial_m,
+        }
+    }
+}
+
+/// One element as read, before transitions take their neighbours' curvatures.
+struct Raw {
+    kind: String,
+    length: f64,
+    k: Option<(f64, f64)>,
+    k_start: Option<f64>,
+    k_end: Option<f64>,
+}
+
+/// Reads the parts of one design file, naming it in messages.
+struct Reader<'a> {
+    file: &'a str,
+}
+
+type Obj = serde_json::Map<String, serde_json::Value>;
+
+impl Reader<'_> {
+    fn bad(&self, place: &str, msg: String) -> DesignError {
+        DesignError::Bad {
+            file: self.file.to_string(),
+            place: place.to_string(),
+            msg,
+        }
+    }
+
+    /// The unit system, refusing an unknown one and keys of the other system.
+    fn units(&self, obj: &Obj) -> Result<Units, DesignError> {
+        let units = match obj.get("units") {
+            None | Some(serde_json::Value::Null) => Units::Metric,
+            Some(serde_json::Value::String(s)) if s == "metric" => Units::Metric,
+            Some(serde_json::Value::String(s)) if s == "imperial" => Units::Imperial,
             Some(other) => {
-                return Err(bad(
+                let shown = match other.as_str() {
+                    Some(s) => format!("'{}'", crate::diag::quote_capped(s)),
+                    None => crate::diag::quote_capped(&other.to_string()),
+                };
+                return Err(self.bad(
                     "units",
-                    format!("'{other}' is not a unit system; use \"metric\" or \"imperial\""),
+                    format!("{shown} is not a unit system; use \"metric\" (metres and millimetres) or \"imperial\" (feet and inches)"),
                 ));
             }
         };
-        let rail = match obj.get("rail").and_then(|u| u.as_str()) {
-            None | Some("left") => Rail::Left,
-            Some("right") => Rail::Right,
+        let other = match units {
+            Units::Metric => Units::Imperial,
+            Units::Imperial => Units::Metric,
+        };
+        for k in &LENGTH_KEYS {
+            let (wrong, right) = (k.name(other), k.name(units));
+            if obj.contains_key(wrong) {
+                let stated = match units {
+                    Units::Metric if obj.contains_key("units") => "says \"units\": \"metric\"",
+                    Units::Metric => "gives no \"units\", so it is metric",
+                    Units::Imperial => "says \"units\": \"imperial\"",
+                };
+                return Err(self.bad(
+                    wrong,
+                    format!(
+                        "\"{wrong}\" is in {}, but the file {stated}: every length of a design is in the units it states (element lengths and radii in {}); write \"{right}\", or set \"units\": \"{}\" and give every length in {}",
+                        other.word(),
+                        units.word(),
+                        other.name(),
+                        other.word(),
+                    ) + match units {
+                        Units::Imperial => "; a design in metres can still give a survey in feet: leave out \"units\" and pass --chord in feet (e.g. --chord 62ft)",
+                        Units::Metric => "",
+                    },
+                ));
+            }
+        }
+        Ok(units)
+    }
+
+    /// A finite number under `key`, or `default` when absent or null.
+    fn num(&self, obj: &Obj, key: &str, default: f64) -> Result<f64, DesignError> {
+        match obj.get(key) {
+            None | Some(serde_json::Value::Null) => Ok(default),
+            Some(x) => x.as_f64().filter(|f| f.is_finite()).ok_or_else(|| {
+                self.bad(
+                    key,
+                    format!(
+                        "expected a number, found {}",
+                        crate::diag::quote_capped(&x.to_string())
+                    ),
+                )
+            }),
+        }
+    }
+
+    /// One of the words `allowed` (the first is the default) under `key`.
+    fn word<'o>(
+        &self,
+        obj: &'o Obj,
+        key: &str,
+        allowed: [&'o str; 2],
+        what: &str,
+    ) -> Result<&'o str, DesignError> {
+        match obj.get(key) {
+            None | Some(serde_json::Value::Null) => Ok(allowed[0]),
+            Some(serde_json::Value::String(s)) if allowed.contains(&s.as_str()) => Ok(s),
             Some(other) => {
-                return Err(bad(
-                    "rail",
-                    format!("'{other}' is not a rail; use \"left\" or \"right\""),
-                ));
+                let shown = match other.as_str() {
+                    Some(s) => format!("'{}'", crate::diag::quote_capped(s)),
+                    None => crate::diag::quote_capped(&other.to_string()),
+                };
+                Err(self.bad(
+                    key,
+                    format!(
+                        "{shown} is not a {what}; use \"{}\" or \"{}\"",
+                        allowed[0], allowed[1]
+                    ),
+                ))
             }
+        }
+    }
+
+    /// The survey set-up, metres inside, with the defaults of [`SimSetup`].
+    fn setup(&self, obj: &Obj, units: Units) -> Result<SimSetup, DesignError> {
+        let len = |i: usize, default_m: f64| -> Result<f64, DesignError> {
+            let k = &LENGTH_KEYS[i];
+            let f = k.metres(units);
+            Ok(self.num(obj, k.name(units), default_m / f)? * f)
         };
-        let marking = match obj.get("marking").and_then(|u| u.as_str()) {
-            None | Some("taped") => Marking::Taped,
-            Some("wire") => Marking::Wire,
-            Some(other) => {
-                return Err(bad(
-                    "marking",
-                    format!("'{other}' is not a marking; use \"taped\" or \"wire\""),
-                ));
-            }
+        let chord = len(0, 20.0)?;
+        let rail = match self.word(obj, "rail", ["left", "right"], "rail")? {
+            "left" => Rail::Left,
+            _ => Rail::Right,
         };
-        let setup = SimSetup {
+        let marking = match self.word(obj, "marking", ["taped", "wire"], "marking")? {
+            "taped" => Marking::Taped,
+            _ => Marking::Wire,
+        };
+        Ok(SimSetup {
             chord,
-            spacing: num("spacing_m", 0.5 * chord)?,
+            spacing: len(1, 0.5 * chord)?,
             rail,
-            gauge: num("gauge_m", crate::survey::Setup::STANDARD_GAUGE)?,
+            gauge: len(2, crate::survey::Setup::STANDARD_GAUGE)?,
             marking,
-            noise_sd: num("noise_mm", 0.0)? * 1e-3,
-            bias: num("bias_mm", 0.0)? * 1e-3,
-            resolution: num("resolution_mm", 0.0)? * 1e-3,
-            irregularity_rms: num("irregularity_mm", 0.0)? * 1e-3,
-            seed: num("seed", 1.0)?.max(0.0) as u64,
-            start_chainage: num("start_chainage_m", 0.0)?,
-            chainage_unit: if imperial {
-                LengthUnit::Foot
-            } else {
-                LengthUnit::Metre
-            },
-            versine_unit: if imperial {
-                VersineUnit::Inch
-            } else {
-                VersineUnit::Millimetre
-            },
-        };
+            noise_sd: len(3, 0.0)?,
+            bias: len(4, 0.0)?,
+            resolution: len(5, 0.0)?,
+            irregularity_rms: len(6, 0.0)?,
+            seed: self.num(obj, "seed", 1.0)?.max(0.0) as u64,
+            start_chainage: len(7, 0.0)?,
+            chainage_unit: units.long(),
+            versine_unit: units.long().versine_unit(),
+        })
+    }
+
+    /// The elements as read: kinds, lengths and arc curvatures (1/m).
+    fn elements(&self, obj: &Obj, units: Units) -> Result<Vec<Raw>, DesignError> {
         let els = obj
             .get("elements")
             .and_then(|e| e.as_array())
             .ok_or_else(|| {
-                bad(
+                self.bad(
                     "top level",
                     "no \"elements\" array; list the straights, transitions and arcs in order"
                         .into(),
                 )
             })?;
         if els.is_empty() {
-            return Err(bad(
+            return Err(self.bad(
                 "elements",
                 "the list is empty; give at least one element".into(),
             ));
         }
-        // First pass: kinds, lengths, arc curvatures.
-        struct Raw {
-            kind: String,
-            length: f64,
-            k: Option<(f64, f64)>,
-            k_start: Option<f64>,
-            k_end: Option<f64>,
-        }
-        let mut raw = Vec::with_capacity(els.len());
-        for (i, e) in els.iter().enumerate() {
-            let place = format!("element {}", i + 1);
-            let kind = e.get("kind").and_then(|k| k.as_str()).ok_or_else(|| {
-                bad(
-                    &place,
-                    "no \"kind\"; use \"straight\", \"transition\" or \"arc\"".into(),
+        els.iter()
+            .enumerate()
+            .map(|(i, e)| self.element(&format!("element {}", i + 1), e, units))
+            .collect()
+    }
+
+    /// One element: its kind, its length and the radii it gives.
+    fn element(
+        &self,
+        place: &str,
+        e: &serde_json::Value,
+        units: Units,
+    ) -> Result<Raw, DesignError> {
+        let kind = e.get("kind").and_then(|k| k.as_str()).ok_or_else(|| {
+            self.bad(
+                place,
+                "no \"kind\"; use \"straight\", \"transition\" or \"arc\"".into(),
+            )
+        })?;
+        let to_m = units.long().metres();
+        let length = e
+            .get("length")
+            .and_then(|l| l.as_f64())
+            .filter(|l| l.is_finite() && *l > 0.0)
+            .ok_or_else(|| {
+                self.bad(
+                    place,
+                    format!("\"length\" must be a positive number of {}", units.word()),
                 )
-            })?;
-            let length = e
-                .get("length")
-                .and_then(|l| l.as_f64())
-                .filter(|l| l.is_finite() && *l > 0.0)
-                .ok_or_else(|| {
-                    bad(
-                        &place,
-                        "\"length\" must be a positive number of metres".into(),
+            })?
+            * to_m;
+        // The curvature (1/m) a radius key gives: absent, null (straight end) or a radius.
+        let radius_key = |key: &str| -> Result<Option<f64>, DesignError> {
+            match e.get(key) {
+                None => Ok(None),
+                Some(serde_json::Value::Null) => Ok(Some(0.0)),
+                Some(x) => {
+                    let r = x.as_f64().filter(|r| r.is_finite() && *r != 0.0).ok_or_else(|| {
+                        self.bad(place, format!("\"{key}\" must be a non-zero signed radius in {} (positive curving left), or null for a straight end", units.word()))
+                    })?;
+                    Ok(Some(1.0 / (r * to_m)))
+                }
+            }
+        };
+        let (k, k_start, k_end) = match kind {
+            "straight" => (Some((0.0, 0.0)), None, None),
+            "arc" => {
+                let k = radius_key("radius")?.filter(|k| *k != 0.0).ok_or_else(|| {
+                    self.bad(
+                        place,
+                        format!(
+                            "an arc needs a signed \"radius\" in {} (positive curving left)",
+                            units.word()
+                        ),
                     )
                 })?;
-            let radius_key = |key: &str| -> Result<Option<Option<f64>>, DesignError> {
-                match e.get(key) {
-                    None => Ok(None),
-                    Some(serde_json::Value::Null) => Ok(Some(None)),
-                    Some(x) => {
-                        let r = x.as_f64().filter(|r| r.is_finite() && *r != 0.0).ok_or_else(|| {
-                            bad(&place, format!("\"{key}\" must be a non-zero signed radius in metres (positive curving left), or null for a straight end"))
-                        })?;
-                        Ok(Some(Some(r)))
-                    }
-                }
-            };
-            let (k, ks, ke) = match kind {
-                "straight" => (Some((0.0, 0.0)), None, None),
-                "arc" => {
-                    let r = radius_key("radius")?.flatten().ok_or_else(|| {
-                        bad(
-                            &place,
-                            "an arc needs a signed \"radius\" in metres (positive curving left)"
-                                .into(),
-                        )
-                    })?;
-                    (Some((1.0 / r, 1.0 / r)), None, None)
-                }
-                "transition" => (
-                    None,
-                    radius_key("r_start")?.map(|r| r.map_or(0.0, |r| 1.0 / r)),
-                    radius_key("r_end")?.map(|r| r.map_or(0.0, |r| 1.0 / r)),
-                ),
-                other => {
-                    return Err(bad(
-                        &place,
-                        format!(
-                            "kind '{other}' is not known; use \"straight\", \"transition\" or \"arc\""
-                        ),
-                    ));
-                }
-            };
-            raw.push(Raw {
-                kind: kind.to_string(),
-                length,
-                k,
-                k_start: ks,
-                k_end: ke,
-            });
-        }
-        let mut elements = Vec::with_capacity(raw.len());
-        for i in 0..raw.len() {
+                (Some((k, k)), None, None)
+            }
+            "transition" => (None, radius_key("r_start")?, radius_key("r_end")?),
+            other => {
+                return Err(self.bad(
+                    place,
+                    format!(
+                        "kind '{}' is not known; use \"straight\", \"transition\" or \"arc\"",
+                        crate::diag::quote_capped(other)
+                    ),
+                ));
+            }
+        };
+        Ok(Raw {
+            kind: kind.to_string(),
+            length,
+            k,
+            k_start,
+            k_end,
+        })
+    }
+}
+
+/// The elements, each transition taking the curvature of its neighbours at
+/// the ends it does not give (a straight at either end of the design).
+fn join_transitions(raw: &[Raw]) -> Vec<Element> {
+    (0..raw.len())
+        .map(|i| {
             let r = &raw[i];
-            let e = match r.kind.as_str() {
+            match r.kind.as_str() {
                 "straight" => Element::straight(r.length),
-                "arc" => {
-                    let (k, _) = r.k.unwrap_or((0.0, 0.0));
-                    Element::arc(r.length, 1.0 / k)
-                }
+                "arc" => Element::arc(r.length, 1.0 / r.k.map_or(0.0, |k| k.0)),
                 _ => {
                     let prev = if i > 0 {
                         raw[i - 1].k.map(|k| k.1)
@@ -354,9 +560,7 @@ impl Design {
                     let k1 = r.k_end.or(next).unwrap_or(0.0);
                     Element::transition(r.length, k0, k1)
                 }
-            };
-            elements.push(e);
-        }
-        Ok(Design { elements, setup })
-    }
+            }
+        })
+        .collect()
 }

@@ -180,3 +180,112 @@ fn decimals_cover_common_resolutions() {
     assert_eq!(decimals_for(0.125), 3);
     assert_eq!(decimals_for(0.1), 1);
 }
+
+#[test]
+fn an_imperial_design_reads_every_length_in_feet_and_inches() {
+    // The same design written in feet/inches and in metres/millimetres
+    // (1 ft = 0.3048 m, 1 in = 25.4 mm exactly, by the 1959 definition).
+    let feet = r#"{"units": "imperial", "chord_ft": 62, "spacing_ft": 15.5, "gauge_in": 56.5,
+        "noise_in": 0.04, "bias_in": 0.01, "resolution_in": 0.125, "irregularity_in": 0.06,
+        "start_chainage_ft": 1000,
+        "elements": [{"kind": "straight", "length": 100},
+                     {"kind": "transition", "length": 50, "r_end": -1000},
+                     {"kind": "arc", "length": 200, "radius": -1000},
+                     {"kind": "transition", "length": 50}, {"kind": "straight", "length": 100}]}"#;
+    let metres = r#"{"chord_m": 18.8976, "spacing_m": 4.7244, "gauge_m": 1.4351,
+        "noise_mm": 1.016, "bias_mm": 0.254, "resolution_mm": 3.175, "irregularity_mm": 1.524,
+        "start_chainage_m": 304.8,
+        "elements": [{"kind": "straight", "length": 30.48},
+                     {"kind": "transition", "length": 15.24, "r_end": -304.8},
+                     {"kind": "arc", "length": 60.96, "radius": -304.8},
+                     {"kind": "transition", "length": 15.24}, {"kind": "straight", "length": 30.48}]}"#;
+    let a = Design::from_json("feet.json", feet).unwrap();
+    let b = Design::from_json("metres.json", metres).unwrap();
+    assert_eq!(a.setup.chainage_unit, LengthUnit::Foot);
+    assert_eq!(a.setup.versine_unit, VersineUnit::Inch);
+    assert_eq!(b.setup.chainage_unit, LengthUnit::Metre);
+    for (x, y, what) in [
+        (a.setup.chord, b.setup.chord, "chord"),
+        (a.setup.spacing, b.setup.spacing, "spacing"),
+        (a.setup.gauge, b.setup.gauge, "gauge"),
+        (a.setup.noise_sd, b.setup.noise_sd, "noise"),
+        (a.setup.bias, b.setup.bias, "bias"),
+        (a.setup.resolution, b.setup.resolution, "resolution"),
+        (
+            a.setup.irregularity_rms,
+            b.setup.irregularity_rms,
+            "irregularity",
+        ),
+        (
+            a.setup.start_chainage,
+            b.setup.start_chainage,
+            "start chainage",
+        ),
+    ] {
+        assert_relative_eq!(x, y, max_relative = 1e-12);
+        assert!(x > 0.0, "{what}");
+    }
+    assert_eq!(a.elements.len(), b.elements.len());
+    for (x, y) in a.elements.iter().zip(&b.elements) {
+        assert_eq!(x.kind, y.kind);
+        assert_relative_eq!(x.length, y.length, max_relative = 1e-12);
+        assert_relative_eq!(x.k_start, y.k_start, max_relative = 1e-12);
+        assert_relative_eq!(x.k_end, y.k_end, max_relative = 1e-12);
+    }
+    assert_relative_eq!(a.elements[2].k_start, -1.0 / 304.8, max_relative = 1e-12);
+}
+
+#[test]
+fn a_design_never_mixes_its_units() {
+    let els = r#""elements": [{"kind": "straight", "length": 100}]"#;
+    for (text, key) in [
+        (
+            format!(r#"{{"units": "imperial", "chord_m": 20, {els}}}"#),
+            "chord_m",
+        ),
+        (
+            format!(r#"{{"units": "imperial", "noise_mm": 1, {els}}}"#),
+            "noise_mm",
+        ),
+        (format!(r#"{{"chord_ft": 62, {els}}}"#), "chord_ft"),
+        (
+            format!(r#"{{"units": "metric", "gauge_in": 56.5, {els}}}"#),
+            "gauge_in",
+        ),
+        (format!(r#"{{"units": "feet", {els}}}"#), "units"),
+        (format!(r#"{{"units": 1, {els}}}"#), "units"),
+    ] {
+        match Design::from_json("d.json", &text) {
+            Err(DesignError::Bad { place, .. }) => assert_eq!(place, key, "{text}"),
+            other => panic!("{text}: {other:?}"),
+        }
+    }
+    // Feet in the element messages of an imperial file.
+    let e = Design::from_json(
+        "d.json",
+        r#"{"units": "imperial", "elements": [{"kind": "arc", "length": 10}]}"#,
+    )
+    .unwrap_err();
+    assert!(e.to_string().contains("\"radius\" in feet"), "{e}");
+}
+
+#[test]
+fn simulate_errors_of_an_imperial_set_up_are_in_feet() {
+    let mut s = SimSetup::classic(62.0 * crate::units::FOOT, Rail::Left);
+    s.chainage_unit = LengthUnit::Foot;
+    s.versine_unit = VersineUnit::Inch;
+    s.spacing = 20.0 * crate::units::FOOT;
+    let design = Alignment::new(Pose::default(), 0.0, vec![Element::straight(300.0)]);
+    let e = simulate(&design, &s).unwrap_err().to_string();
+    assert_eq!(
+        e,
+        "the mark spacing 20 ft does not divide the half chord 31 ft; use e.g. 31 ft, 15.5 ft or 3.1 ft"
+    );
+    s.spacing = 31.0 * crate::units::FOOT;
+    s.noise_sd = -0.0254;
+    let e = simulate(&design, &s).unwrap_err().to_string();
+    assert_eq!(
+        e,
+        "the reading noise must be a finite length not below zero (got -1 in)"
+    );
+}

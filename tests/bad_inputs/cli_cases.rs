@@ -360,7 +360,7 @@ pub const CLI_CASES: &[(&str, &[&str], i32, &str)] = &[
         "design: unknown top-level key",
         &["simulate", "design_unknown_key.json", "--out", "s.csv"],
         1,
-        "error: design_unknown_key.json: line 51, column 8: unknown field \"chord\", expected one of \"elements\", \"chord_m\", \"spacing_m\", \"rail\", \"gauge_m\", \"noise_mm\", \"bias_mm\", \"resolution_mm\", \"irregularity_mm\", \"seed\", \"units\", \"marking\", \"start_chainage_m\", \"description\"; check the spelling, or remove the key (the keys are listed in the README, section Design files)",
+        "error: design_unknown_key.json: line 51, column 8: unknown field \"chord\", expected one of \"elements\", \"chord_m\", \"spacing_m\", \"rail\", \"gauge_m\", \"noise_mm\", \"bias_mm\", \"resolution_mm\", \"irregularity_mm\", \"seed\", \"units\", \"marking\", \"start_chainage_m\", \"chord_ft\", \"spacing_ft\", \"gauge_in\", \"noise_in\", \"bias_in\", \"resolution_in\", \"irregularity_in\", \"start_chainage_ft\", \"description\"; check the spelling, or remove the key (the keys are listed in the README, section Design files)",
     ),
     (
         "design: 10^9 m straight",
@@ -394,6 +394,41 @@ pub const CLI_CASES: &[(&str, &[&str], i32, &str)] = &[
         &["simulate", "design_huge_chainage.json", "--out", "s.csv"],
         1,
         "error: start_chainage_m 1000000000000000 is too large: at that size marks 10 m apart cannot be told apart in a chainage; give a start chainage of at most 1000000000 m",
+    ),
+    (
+        "design: metres in an imperial file",
+        &[
+            "simulate",
+            "design_imperial_with_metres.json",
+            "--out",
+            "s.csv",
+        ],
+        1,
+        "error: design_imperial_with_metres.json: chord_m: \"chord_m\" is in metres, but the file says \"units\": \"imperial\": every length of a design is in the units it states (element lengths and radii in feet); write \"chord_ft\", or set \"units\": \"metric\" and give every length in metres; a design in metres can still give a survey in feet: leave out \"units\" and pass --chord in feet (e.g. --chord 62ft)",
+    ),
+    (
+        "design: feet in a metric file",
+        &["simulate", "design_metric_with_feet.json", "--out", "s.csv"],
+        1,
+        "error: design_metric_with_feet.json: chord_ft: \"chord_ft\" is in feet, but the file gives no \"units\", so it is metric: every length of a design is in the units it states (element lengths and radii in metres); write \"chord_m\", or set \"units\": \"imperial\" and give every length in feet",
+    ),
+    (
+        "design: unknown units",
+        &["simulate", "design_unknown_units.json", "--out", "s.csv"],
+        1,
+        "error: design_unknown_units.json: units: 'feet' is not a unit system; use \"metric\" (metres and millimetres) or \"imperial\" (feet and inches)",
+    ),
+    (
+        "design: imperial radius too sharp (in feet)",
+        &["simulate", "design_imperial_tight.json", "--out", "s.csv"],
+        1,
+        "error: element 2 has a radius of 25 ft, too sharp for a chord of 62 ft read 2.354 ft from the centreline: the chord would not fit on the rail; give radii of at least 33.354 ft",
+    ),
+    (
+        "design: imperial spacing that does not divide the half chord",
+        &["simulate", "design_imperial_spacing.json", "--out", "s.csv"],
+        1,
+        "error: the mark spacing 20 ft does not divide the half chord 31 ft; use e.g. 31 ft, 15.5 ft or 3.1 ft",
     ),
     (
         "refused run into new folders",

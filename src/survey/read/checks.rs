@@ -91,12 +91,33 @@ impl Context<'_> {
         }
     }
 
+    /// The chord as the user most likely gave it: metres for a metric file;
+    /// for a feet file, feet when the chord is a whole number of thousandths
+    /// of a foot (62 ft), else metres with the feet beside ("20 m (65.617 ft)").
     fn chord_text(&self) -> String {
         let m = format!("{} m", fmt_num((self.chord * 1e4).round() / 1e4));
-        match self.cols.chainage_unit {
+        let u = self.cols.chainage_unit;
+        match u {
             crate::units::LengthUnit::Metre => m,
-            crate::units::LengthUnit::Foot => format!("{m} ({})", self.len(self.chord)),
+            crate::units::LengthUnit::Foot => {
+                let ft = u.from_m(self.chord);
+                if (ft * 1e3 - (ft * 1e3).round()).abs() < 1e-6 {
+                    self.len(self.chord)
+                } else {
+                    format!("{m} ({})", self.len(self.chord))
+                }
+            }
         }
+    }
+    /// A radius in the file's chainage unit, rounded to `decimals`.
+    fn radius(&self, metres: f64, decimals: i32) -> String {
+        let u = self.cols.chainage_unit;
+        let p = 10f64.powi(decimals);
+        format!(
+            "{} {}",
+            fmt_num((u.from_m(metres) * p).round() / p),
+            u.suffix()
+        )
     }
 }
 
@@ -504,16 +525,16 @@ fn column_implausible(ctx: &Context<'_>, p90: f64) -> SurveyError {
         (radius >= MIN_RADIUS).then_some((a, radius))
     });
     let what = format!(
-        "a tenth of the versines are {} or more, which on a chord of {} would mean curves of radius {} m or less; no railway has such curves",
+        "a tenth of the versines are {} or more, which on a chord of {} would mean curves of radius {} or less; no railway has such curves",
         in_file(ctx, p90),
         ctx.chord_text(),
-        fmt_num(implied_radius(c, p90).round().max(0.0))
+        ctx.radius(implied_radius(c, p90).max(0.0), 0)
     );
     let todo = match alt {
         Some((a, radius)) => format!(
-            "the values look like {} (radius about {} m): rename the column versine_{}",
+            "the values look like {} (radius about {}): rename the column versine_{}",
             versine_word(a),
-            fmt_num(radius.round()),
+            ctx.radius(radius, 0),
             a.suffix()
         ),
         None => "check the unit in the column name and the chord length (--chord)".to_string(),
@@ -548,12 +569,12 @@ fn warn_column_sharp(
     };
     diags.push(
         Diagnostic::warning(format!(
-            "a tenth of the versines are {} or more, which on a chord of {} means curves of radius {} m or less, sharper than almost any railway; as {} they would mean radius about {} m",
+            "a tenth of the versines are {} or more, which on a chord of {} means curves of radius {} or less, sharper than almost any railway; as {} they would mean radius about {}",
             in_file(ctx, p90),
             ctx.chord_text(),
-            fmt_num(implied_radius(c, p90).round()),
+            ctx.radius(implied_radius(c, p90), 0),
             versine_word(a),
-            fmt_num(radius.round())
+            ctx.radius(radius, 0)
         ))
         .at(versine_loc(ctx, r[0].line))
         .hint(format!(
@@ -573,9 +594,9 @@ fn single_reading_impossible(ctx: &Context<'_>, r: &[Reading]) -> Option<SurveyE
         .filter_map(|x| x.versine.map(|v| (x, v)))
         .find(|&(_, v)| v != 0.0 && implied_radius(c, v) < MIN_RADIUS)?;
     let what = format!(
-        "the versine {} would mean a curve of radius {} m on a chord of {}, which no railway has",
+        "the versine {} would mean a curve of radius {} on a chord of {}, which no railway has",
         in_file(ctx, v),
-        fmt_num((implied_radius(c, v) * 10.0).round() / 10.0),
+        ctx.radius(implied_radius(c, v), 1),
         ctx.chord_text()
     );
     let todo =
@@ -603,11 +624,11 @@ fn warn_sharpest(ctx: &Context<'_>, r: &[Reading], diags: &mut Vec<Diagnostic>) 
     };
     diags.push(
         Diagnostic::warning(format!(
-            "the versine {} means a curve of radius {} m on a chord of {}, sharper than almost any railway (only tramways and some sidings go below {} m)",
+            "the versine {} means a curve of radius {} on a chord of {}, sharper than almost any railway (only tramways and some sidings go below {})",
             in_file(ctx, v),
-            fmt_num((implied_radius(c, v) * 10.0).round() / 10.0),
+            ctx.radius(implied_radius(c, v), 1),
             ctx.chord_text(),
-            fmt_num(SHARP_RADIUS)
+            ctx.radius(SHARP_RADIUS, 0)
         ))
         .at(versine_loc(ctx, line))
         .hint("check the value for a typing error, the unit in the column name and --chord"),
