@@ -4,10 +4,11 @@
 mod common;
 use common::plan_of;
 
-use chordline::export::elements::{header, summary_table, write_elements_csv};
+use chordline::export::elements::{header, write_elements_csv};
 use chordline::fit::{FitError, FitOptions, fit};
 use chordline::geometry::{Alignment, Element, Pose};
 use chordline::integrate::{IntegrateOptions, integrate};
+use chordline::report::summary_table;
 use chordline::simulate::{SimSetup, simulate};
 use chordline::survey::{Rail, Setup};
 use chordline::units::{FOOT, LengthUnit, VersineUnit};

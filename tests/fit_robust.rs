@@ -67,7 +67,7 @@ proptest! {
                 .expect("csv");
             let text = String::from_utf8(out).expect("utf8");
             prop_assert!(!text.contains("NaN") && !text.contains("inf"));
-            let _ = chordline::export::elements::summary_table(&res, LengthUnit::Foot);
+            let _ = chordline::report::summary_table(&res, LengthUnit::Foot);
         }
     }
 }

@@ -29,7 +29,7 @@
 //! points and follow the measured centreline), the values the coordinates,
 //! `alignment.xml` and `alignment.ifc` are drawn with.
 
-use crate::fit::{ElementStatus, Estimate, FitResult, FittedElement};
+use crate::fit::{Estimate, FitResult, FittedElement};
 use crate::geometry::{Alignment, ElementKind, Pose, heading_to_bearing};
 use crate::georef::{CrsError, Georef};
 use crate::units::LengthUnit;
@@ -313,115 +313,4 @@ pub fn write_elements_csv_placed<W: Write>(
         w.write_record(r).map_err(io::Error::other)?;
     }
     w.flush()
-}
-
-/// A plain-text element table an engineer reads at a glance, with the
-/// whole-fit statistics underneath. The library returns it; the command line
-/// prints it.
-pub fn summary_table(fit: &FitResult, unit: LengthUnit) -> String {
-    let u = unit.suffix();
-    let vu = unit.versine_unit();
-    let vs = vu.suffix();
-    let vdec = if unit == LengthUnit::Foot { 3 } else { 2 };
-    let mut s = String::new();
-    s.push_str(&format!(
-        "{:>3}  {:<10} {:>12} {:>12} {:>10}  {:>22}  {}\n",
-        "#",
-        "element",
-        format!("start ({u})"),
-        format!("end ({u})"),
-        format!("length ({u})"),
-        format!("radius ({u}), ±95 %"),
-        "note"
-    ));
-    for (i, e) in fit.elements.iter().enumerate() {
-        let f = |x: f64| num(unit.from_m(x), 1);
-        let start = if e.starts_at_survey_end {
-            format!("[{}]", f(e.start_chainage.value))
-        } else {
-            format!(
-                "{}±{}",
-                f(e.start_chainage.value),
-                num(
-                    unit.from_m(e.start_chainage.hi95 - e.start_chainage.value),
-                    1
-                )
-            )
-        };
-        let end = if e.ends_at_survey_end {
-            format!("[{}]", f(e.end_chainage.value))
-        } else {
-            format!(
-                "{}±{}",
-                f(e.end_chainage.value),
-                num(unit.from_m(e.end_chainage.hi95 - e.end_chainage.value), 1)
-            )
-        };
-        let rad = |r: Option<Estimate>| match r {
-            None => "straight".to_string(),
-            Some(r) => format!("{:.0}", unit.from_m(r.value)),
-        };
-        let radius = match e.kind {
-            crate::geometry::ElementKind::Straight => "—".to_string(),
-            crate::geometry::ElementKind::Arc => match e.start_radius {
-                Some(r) => format!(
-                    "{} ± {}",
-                    num(unit.from_m(r.value), 1),
-                    num(unit.from_m(r.hi95 - r.value), 1)
-                ),
-                None => "—".into(),
-            },
-            crate::geometry::ElementKind::Transition => {
-                format!("{} → {}", rad(e.start_radius), rad(e.end_radius))
-            }
-        };
-        let mut note = e.note.clone();
-        if e.status == ElementStatus::Indeterminate && !note.starts_with("indeterminate") {
-            note = format!("INDETERMINATE: {note}");
-        }
-        s.push_str(&format!(
-            "{:>3}  {:<10} {:>12} {:>12} {:>10}  {:>22}  {}\n",
-            i + 1,
-            e.kind.name(),
-            start,
-            end,
-            num(unit.from_m(e.length.value), 1),
-            radius,
-            note
-        ));
-    }
-    let st = &fit.stats;
-    s.push_str(&format!(
-        "residuals: RMS {} {vs}, max {} {vs} at {} {u}; {} readings, {} parameters\n",
-        num(vu.from_m(st.residual_rms), vdec),
-        num(vu.from_m(st.residual_max.0), vdec),
-        num(unit.from_m(st.residual_max.1), 1),
-        st.n,
-        st.p
-    ));
-    s.push_str(&format!(
-        "noise: readings {} {vs}, about the design {} {vs}, penalties at element scale {} {vs}; chi-square {:.1} on {:.0} degrees of freedom against {} {vs} ({}), p = {:.3}\n",
-        num(vu.from_m(st.sigma_white), vdec + 1),
-        num(vu.from_m(st.sigma_residual), vdec + 1),
-        num(vu.from_m(st.sigma_penalty), vdec + 1),
-        st.chi2.0,
-        st.chi2.1,
-        num(vu.from_m(st.chi2_sd), vdec + 1),
-        if st.reading_sd_stated { "stated" } else { "estimated" },
-        st.chi2.2
-    ));
-    if let Some((b, se)) = st.bias {
-        s.push_str(&format!(
-            "reading bias on the straights: {} ± {} {vs} (standard error){}\n",
-            num(vu.from_m(b), vdec + 1),
-            num(vu.from_m(se), vdec + 1),
-            if st.bias_removed {
-                ", removed before the fit"
-            } else {
-                ""
-            }
-        ));
-    }
-    s.push_str("Chainages along the measured rail; lengths and radii of the track centreline, positive radius curving left. [x]: survey end, not a boundary.\n");
-    s
 }

@@ -191,7 +191,7 @@ pub(super) fn reading_sigma(
         sigma = SIGMA_FLOOR;
     }
     diags.push(Diagnostic::note(format!(
-        "reading standard deviation {:.3} mm ({}){}",
+        "reading standard deviation {:.2} mm ({}){}",
         sigma * 1e3,
         match source {
             NoiseSource::Stated => "stated",

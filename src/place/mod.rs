@@ -22,8 +22,8 @@
 //! Transitions take their end curvatures from the neighbouring arcs, so the
 //! chain stays continuous in position, heading and curvature.
 
-use crate::fit::StationDesign;
 use crate::fit::FitResult;
+use crate::fit::StationDesign;
 use crate::geometry::{Alignment, Element, ElementKind, Pose};
 use crate::integrate::{Plan, PositionObs};
 use nalgebra::{DMatrix, DVector};

@@ -4,6 +4,8 @@
 
 mod advice_text;
 mod diagrams;
+mod element_table;
+pub use element_table::summary_table;
 mod html;
 mod sections;
 mod strip;
@@ -126,7 +128,7 @@ pub fn summary(r: &Results) -> String {
         u.from_m(last.position_sd)
     );
     if let Some(f) = &r.fit {
-        let _ = writeln!(s, "\n{}", crate::export::elements::summary_table(f, u));
+        let _ = writeln!(s, "\n{}", element_table::summary_table(f, u));
     }
     let warnings = r
         .diagnostics

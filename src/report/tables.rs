@@ -117,7 +117,7 @@ pub(super) fn summary(r: &Results) -> String {
     let table = r
         .fit
         .as_ref()
-        .map(|f| crate::export::elements::summary_table(f, u));
+        .map(|f| super::element_table::summary_table(f, u));
     let rest = match &table {
         Some(t) => full.replacen(t.as_str(), "", 1),
         None => full,
