@@ -40,7 +40,7 @@ pub struct Options {
     /// Time stamp written into LandXML (its schema requires one). `None`:
     /// the survey file's modification time, so that the same input gives the
     /// same bytes.
-    pub created: Option<std::time::SystemTime>,
+    pub created: Option<(std::time::SystemTime, String)>,
     /// Slews onto the fitted design (`None`: not computed). The fixed
     /// chainages are in the survey's chainage unit (as written in the file).
     pub slew: Option<crate::realign::SlewOptions>,
@@ -354,14 +354,14 @@ pub fn run(
     };
     let (name, bytes) = read_survey_source(survey_path)?;
     let (survey, mut diags) = read_survey_bytes(&name, &bytes, &ropts)?;
-    let (created, created_basis) = match opts.created {
-        Some(t) => (t, "as given"),
+    let (created, created_basis) = match &opts.created {
+        Some((t, basis)) => (*t, basis.clone()),
         None => stamp(survey_path),
     };
     let record = crate::report::RunRecord {
         command_line: opts.command_line.clone(),
         header_comments: crate::report::header_comments(&String::from_utf8_lossy(&bytes)),
-        date: Some((created, created_basis.to_string())),
+        date: Some((created, created_basis)),
     };
     let unit = survey.chainage_unit;
     let mut results = process(survey, opts).map_err(|e| e.in_survey_units(unit))?;
@@ -533,19 +533,11 @@ fn write_design_exchange(
     Ok(())
 }
 
-/// A reproducible time stamp for a run and where it comes from:
-/// `SOURCE_DATE_EPOCH` if set (the reproducible-builds convention), else the
-/// survey file's modification time.
-fn stamp(survey_path: &Path) -> (std::time::SystemTime, &'static str) {
-    if let Some(secs) = std::env::var("SOURCE_DATE_EPOCH")
-        .ok()
-        .and_then(|s| s.trim().parse::<u64>().ok())
-    {
-        let t = std::time::UNIX_EPOCH + std::time::Duration::from_secs(secs);
-        return (t, "SOURCE_DATE_EPOCH");
-    }
+/// A reproducible time stamp for a run when the caller gives none: the
+/// survey file's modification time, and where it comes from.
+fn stamp(survey_path: &Path) -> (std::time::SystemTime, String) {
     let t = std::fs::metadata(survey_path)
         .and_then(|m| m.modified())
         .unwrap_or(std::time::UNIX_EPOCH);
-    (t, "the survey file's modification time")
+    (t, "the survey file's modification time".to_string())
 }

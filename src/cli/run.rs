@@ -240,7 +240,7 @@ impl RunArgs {
                 height: self.height,
                 allow_outside_area: self.allow_outside_area,
             },
-            created: None,
+            created: source_date_epoch(),
             slew: self.slew_options()?,
             advice: self.advice()?,
             command_line: recorded_command_line(),
@@ -549,4 +549,14 @@ pub fn print_short(o: &Outcome, quiet: bool) {
 
 fn fmt_diag(d: &Diagnostic) -> String {
     d.to_string()
+}
+
+/// `SOURCE_DATE_EPOCH` (the reproducible-builds convention) as the run's time
+/// stamp, when it is set to whole seconds.
+fn source_date_epoch() -> Option<(std::time::SystemTime, String)> {
+    let secs = std::env::var("SOURCE_DATE_EPOCH")
+        .ok()
+        .and_then(|s| s.trim().parse::<u64>().ok())?;
+    let t = std::time::UNIX_EPOCH + std::time::Duration::from_secs(secs);
+    Some((t, "SOURCE_DATE_EPOCH".to_string()))
 }
