@@ -285,6 +285,41 @@ pub fn run_class(c: &Class, seeds: u64) -> ClassAcc {
         };
         acc.runs += 1;
         let (e, x, m) = boundary_errors(&res, &joints);
+        if std::env::var("CLASS_DEBUG").is_ok_and(|v| c.name.contains(v.as_str())) {
+            let ek = boundary_errors(&known, &joints).0;
+            let big: Vec<String> = e
+                .iter()
+                .zip(&ek)
+                .zip(&joints)
+                .filter(|((a, _), _)| a.abs() > 0.5)
+                .map(|((a, b), j)| format!("{j:.1}: {a:+.2} (known {b:+.2})"))
+                .collect();
+            eprintln!(
+                "seed {seed}: extra {x} missing {m} p {:.3} sigma_pen {:.2} mm res {:.2} mm; {}",
+                res.stats.chi2.2,
+                res.stats.sigma_penalty * 1e3,
+                res.stats.sigma_residual * 1e3,
+                big.join(", ")
+            );
+            if std::env::var("CLASS_SEED").is_ok_and(|v| v == seed.to_string()) {
+                for (f, k) in [(&res, "search"), (&known, "known")] {
+                    let els: Vec<String> = f
+                        .elements
+                        .iter()
+                        .map(|e| {
+                            format!(
+                                "{:?}@{:.1}{}",
+                                e.kind,
+                                e.start_chainage.value,
+                                e.start_radius
+                                    .map_or(String::new(), |r| format!(" R{:.0}", r.value))
+                            )
+                        })
+                        .collect();
+                    eprintln!("  {k}: {}", els.join(" | "));
+                }
+            }
+        }
         acc.berr.extend(e);
         acc.extra += x;
         acc.missing += m;

@@ -41,6 +41,7 @@
 
 mod covariance;
 mod elements;
+mod grow;
 mod known;
 pub mod lm;
 pub mod model;

@@ -183,10 +183,19 @@ impl Settings<'_> {
         let runs = noise::runs_from_chain(chain, s, self.input.chord);
         let st = noise::on_straights(runs, v, self.input.chord, self.input.spacing);
         let sigma0 = self.stated.unwrap_or(sigma_res).max(sigma_res);
-        let eff = match (st.scales.is_empty(), coarse.scales.is_empty()) {
-            (false, false) => st.sigma_eff.min(coarse.sigma_eff),
+        // On the coarse straights the figure is taken from the residuals
+        // about the fitted design: a curve the coarse partition took for
+        // straight, and the fit found, no longer inflates it.
+        let coarse_res = noise::on_straights(
+            coarse.runs.clone(),
+            &resid,
+            self.input.chord,
+            self.input.spacing,
+        );
+        let eff = match (st.scales.is_empty(), coarse_res.scales.is_empty()) {
+            (false, false) => st.sigma_eff.min(coarse_res.sigma_eff),
             (false, true) => st.sigma_eff,
-            (true, _) => coarse.sigma_eff,
+            (true, _) => coarse_res.sigma_eff,
         };
         (sigma0.max(eff), sigma_res, st)
     }
@@ -241,6 +250,13 @@ impl Settings<'_> {
                 break;
             }
             sigma_pen = next;
+            if std::env::var("GROW_DEBUG").is_ok() {
+                eprintln!(
+                    "fixed point: pen {:.2} mm res {:.2} mm",
+                    sigma_pen * 1e3,
+                    sigma_res * 1e3
+                );
+            }
             (chain, fits) = self.search_at(s, v, sigma_pen, base);
             (next, sigma_res, straights) = self.noise_of(s, v, &chain, &fits, coarse);
         }
@@ -280,6 +296,16 @@ impl Settings<'_> {
         // quiet part of the differences and keep what explains the
         // readings much better.
         let low = noise::quiet_sigma(&v).max(self.floor).max(NOISE_FLOOR);
+        if std::env::var("GROW_DEBUG").is_ok() {
+            eprintln!(
+                "start {:.2} mm coarse eff {:.2} -> pen {:.2} res {:.2} low {:.2}",
+                start * 1e3,
+                coarse.sigma_eff * 1e3,
+                sigma_pen * 1e3,
+                sigma_res * 1e3,
+                low * 1e3
+            );
+        }
         if s.len() <= RESTART_MAX_READINGS
             && sigma_res > RESTART_RATIO * low.max(self.stated.unwrap_or(0.0))
         {
