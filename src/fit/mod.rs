@@ -561,10 +561,17 @@ fn fit_stats(
             rmax_s = x;
         }
     }
-    let chi2_sd = test_sd(st, sr);
+    // Against a stated figure, a chi-square test; against the noise of the
+    // design-free third differences, the same allowing for that estimate's
+    // own scatter (a variance ratio).
+    let clean = noise::clean_sigma(s, &sr.v, &sr.chain, st.input.a).filter(|_| st.stated.is_none());
+    let chi2_sd = clean.map_or_else(|| test_sd(st, sr), |c| c.0.max(NOISE_FLOOR));
     let reading_sd = st.stated.unwrap_or(chi2_sd.max(sr.sigma_res));
     let chi2_stat = rss / (chi2_sd * chi2_sd);
-    let chi2_p = stats::chi2_upper(chi2_stat, dof);
+    let chi2_p = match clean {
+        Some((_, nu)) => stats::f_upper(chi2_stat / dof, dof, nu),
+        None => stats::chi2_upper(chi2_stat, dof),
+    };
     if chi2_p < CHI2_ALARM {
         let w = (st.input.chord / st.input.spacing).round().max(3.0) as usize;
         let (lo, hi, rms) = worst_window(s, resid, w);

@@ -192,6 +192,60 @@ pub(super) fn quiet_sigma(v: &[f64]) -> f64 {
     *q / QUIET_QUANTILE / 20f64.sqrt()
 }
 
+/// Third differences of white noise have variance `20σ²`; their squares
+/// are correlated over three lags (`ρ = −0.75, 0.3, −0.05`), so the mean of
+/// `m` squares carries as much as `m/2.3` independent ones: `1 + 2Σρ²`
+/// = 2.305 (derived here).
+const THIRD_DIFF_DOF_FACTOR: f64 = 2.305;
+/// Third differences are clipped at this many standard deviations.
+const THIRD_CLIP_SIGMAS: f64 = 4.0;
+/// `E[min(z², 16)]` for a standard normal `z` (derived here:
+/// `1 − 2(4φ(4) + Q(4)) + 16·2Q(4)`).
+const THIRD_CLIP_MEAN_SQUARE: f64 = 0.999_88;
+/// Fewest design-free third differences for a noise figure.
+const MIN_CLEAN_STENCILS: usize = 12;
+
+/// The reading noise from the third differences the fitted design says are
+/// free of signal: a third difference of four consecutive, evenly spaced
+/// readings is zero on a straight, an arc or a clothoid, so one whose four
+/// chords (from `s_i − a` to `s_{i+3} + a`) touch no joint of the design
+/// reads only the noise (rounding included). Mean square clipped at 4σ,
+/// iterated. Returns (σ, degrees of freedom of σ²); `None` with fewer than
+/// [`MIN_CLEAN_STENCILS`] such differences.
+///
+/// Unlike the figure from all differences it is not inflated by the joints,
+/// and unlike the spread of the residuals it is not shrunk by the fit, so a
+/// chi-square test against it has the level it claims.
+pub(super) fn clean_sigma(s: &[f64], v: &[f64], c: &Chain, a: f64) -> Option<(f64, f64)> {
+    let knots: Vec<f64> = (0..c.ramps())
+        .flat_map(|j| [c.ramp_start(j), c.ramp_end(j)])
+        .collect();
+    let mut d = Vec::new();
+    for i in 0..s.len().saturating_sub(3) {
+        let h = s[i + 1] - s[i];
+        let even = (1..3).all(|k| ((s[i + k + 1] - s[i + k]) - h).abs() <= 1e-6 * h.abs().max(1.0));
+        let (lo, hi) = (s[i] - a, s[i + 3] + a);
+        if even && !knots.iter().any(|&k| lo < k && k < hi) {
+            d.push(v[i + 3] - 3.0 * v[i + 2] + 3.0 * v[i + 1] - v[i]);
+        }
+    }
+    if d.len() < MIN_CLEAN_STENCILS {
+        return None;
+    }
+    let m = d.len() as f64;
+    let mut s2 = d.iter().map(|x| x * x).sum::<f64>() / m;
+    for _ in 0..CLIP_ITERATIONS {
+        let lim = THIRD_CLIP_SIGMAS * THIRD_CLIP_SIGMAS * s2;
+        let next = d.iter().map(|x| (x * x).min(lim)).sum::<f64>() / m / THIRD_CLIP_MEAN_SQUARE;
+        let done = (next - s2).abs() <= 1e-9 * s2;
+        s2 = next;
+        if done {
+            break;
+        }
+    }
+    Some(((s2 / 20.0).sqrt(), m / THIRD_DIFF_DOF_FACTOR))
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
