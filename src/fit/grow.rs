@@ -66,13 +66,6 @@ pub(super) fn grow(sub: &mut Chain, out: &mut lm::Outcome, data: &lm::Data, p: &
                     o2 = lm::fit(&mut c2, data, p.max_iterations);
                 }
                 let b = p.bic(&o2, &c2);
-                if std::env::var("GROW_DEBUG").is_ok() {
-                    eprintln!(
-                        "trial {} ramps: bic {b:.2} vs {bic0:.2}; mids {:?}",
-                        c2.ramps(),
-                        c2.mids
-                    );
-                }
                 if b < bic0 && best.as_ref().is_none_or(|x| b < x.0) {
                     best = Some((b, c2, o2));
                 }
@@ -330,5 +323,98 @@ fn set_level(t: &mut Chain, k: usize, old: &Chain, d: &lm::Data) {
     }
     if den > 0.0 {
         t.levels[k] = Level::Free(t.levels[k].value() + num / den);
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use rand::SeedableRng;
+    use rand_distr::{Distribution, Normal};
+
+    /// Straight; arc R 300 over 100–130 m; 15 m straight; arc R −250 over
+    /// 145–170 m; straight: all meeting directly, as in a yard.
+    fn yard() -> Chain {
+        let mut c = Chain::new(
+            vec![
+                Level::Zero,
+                Level::Free(1.0 / 300.0),
+                Level::Zero,
+                Level::Free(-1.0 / 250.0),
+                Level::Zero,
+            ],
+            vec![100.0, 130.0, 145.0, 170.0],
+            vec![0.0; 4],
+        );
+        c.held = vec![true; 4];
+        c
+    }
+
+    #[test]
+    fn a_missed_short_arc_is_found_again() {
+        let truth = yard();
+        let s: Vec<f64> = (0..31).map(|i| 10.0 * i as f64).collect();
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(11);
+        let noise = Normal::new(0.0, 1e-3).unwrap();
+        let v: Vec<f64> = s
+            .iter()
+            .map(|&x| truth.versine(x, 10.0, -1.0 / 3.0) + noise.sample(&mut rng))
+            .collect();
+        let p = Problem {
+            s: &s,
+            v: &v,
+            a: 10.0,
+            eps: -1.0 / 3.0,
+            chord: 20.0,
+            rss_tol: 1e-9,
+            s2pen: 1e-6,
+            ln_n: (s.len() as f64).ln(),
+            max_iterations: 60,
+        };
+        let data = p.data(0, s.len(), -10.0, 310.0);
+        // Start without the second arc: the first arc, then straight.
+        let mut c = truth.sub(0, 2);
+        let mut out = lm::fit(&mut c, &data, 60);
+        simplify(&mut c, &mut out, &data, &p);
+        assert_eq!(c.ramps(), 2, "the start misses the arc: {c:?}");
+        grow(&mut c, &mut out, &data, &p);
+        assert_eq!(c.ramps(), 4, "{c:?}");
+        let k = c.levels[3].value();
+        assert!((1.0 / k + 250.0).abs() < 25.0, "R {}", 1.0 / k);
+        for (j, want) in [(2, 145.0), (3, 170.0)] {
+            assert!((c.mids[j] - want).abs() < 1.0, "joint {j}: {}", c.mids[j]);
+        }
+        // Nothing is left for a second growth: the readings are explained.
+        let before = c.clone();
+        grow(&mut c, &mut out, &data, &p);
+        assert_eq!(c.ramps(), before.ramps());
+    }
+
+    #[test]
+    fn a_lone_large_residual_starts_no_trial() {
+        let c = Chain::new(vec![Level::Zero], vec![], vec![]);
+        let s: Vec<f64> = (0..40).map(|i| 5.0 * i as f64).collect();
+        let runs = |v: &[f64]| {
+            let p = Problem {
+                s: &s,
+                v,
+                a: 10.0,
+                eps: 0.0,
+                chord: 20.0,
+                rss_tol: 1e-9,
+                s2pen: 1e-6,
+                ln_n: (s.len() as f64).ln(),
+                max_iterations: 60,
+            };
+            candidates(&c, &p.data(0, s.len(), -10.0, 205.0), &p)
+        };
+        let mut v = vec![0.0; 40];
+        v[20] = 0.05; // a blunder of 50 σ
+        assert!(runs(&v).is_empty());
+        // Two large residuals side by side are a run.
+        v[21] = 0.03;
+        let x = runs(&v);
+        assert_eq!(x.len(), 1);
+        assert!((x[0] - 102.0).abs() < 5.0, "{x:?}");
     }
 }

@@ -299,4 +299,35 @@ mod tests {
         assert_eq!(s[i0], 30.0);
         assert_eq!(s[i1 - 1], 70.0);
     }
+
+    #[test]
+    fn design_free_third_differences_read_the_noise_between_joints() {
+        // A 300 m arc of R 200 with steps at both ends, read every 5 m with
+        // a 20 m chord and 1 mm noise: the steps put third differences of
+        // tens of mm into every stencil whose chords reach them.
+        let mut c = Chain::new(
+            vec![Level::Zero, Level::Free(1.0 / 200.0), Level::Zero],
+            vec![300.0, 600.0],
+            vec![0.0, 0.0],
+        );
+        c.held = vec![true, true];
+        let s: Vec<f64> = (0..200).map(|i| 5.0 * i as f64).collect();
+        let e = normal(200, 1e-3, 9);
+        let v: Vec<f64> = s
+            .iter()
+            .zip(&e)
+            .map(|(&x, n)| c.versine(x, 10.0, 0.0) + n)
+            .collect();
+        let (sg, dof) = clean_sigma(&s, &v, &c, 10.0).unwrap();
+        assert!((sg - 1e-3).abs() < 0.12e-3, "{sg}");
+        // 197 stencils less those within 25 m of either joint, over 2.3.
+        assert!(dof > 70.0 && dof < 85.0, "{dof}");
+        // Every stencil: inflated by the joints.
+        let all: f64 = v
+            .windows(4)
+            .map(|w| (w[3] - 3.0 * w[2] + 3.0 * w[1] - w[0]).powi(2))
+            .sum::<f64>()
+            / 197.0;
+        assert!((all / 20.0).sqrt() > 2e-3, "{}", (all / 20.0).sqrt());
+    }
 }

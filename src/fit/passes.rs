@@ -250,13 +250,6 @@ impl Settings<'_> {
                 break;
             }
             sigma_pen = next;
-            if std::env::var("GROW_DEBUG").is_ok() {
-                eprintln!(
-                    "fixed point: pen {:.2} mm res {:.2} mm",
-                    sigma_pen * 1e3,
-                    sigma_res * 1e3
-                );
-            }
             (chain, fits) = self.search_at(s, v, sigma_pen, base);
             (next, sigma_res, straights) = self.noise_of(s, v, &chain, &fits, coarse);
         }
@@ -296,16 +289,6 @@ impl Settings<'_> {
         // quiet part of the differences and keep what explains the
         // readings much better.
         let low = noise::quiet_sigma(&v).max(self.floor).max(NOISE_FLOOR);
-        if std::env::var("GROW_DEBUG").is_ok() {
-            eprintln!(
-                "start {:.2} mm coarse eff {:.2} -> pen {:.2} res {:.2} low {:.2}",
-                start * 1e3,
-                coarse.sigma_eff * 1e3,
-                sigma_pen * 1e3,
-                sigma_res * 1e3,
-                low * 1e3
-            );
-        }
         if s.len() <= RESTART_MAX_READINGS
             && sigma_res > RESTART_RATIO * low.max(self.stated.unwrap_or(0.0))
         {
