@@ -2,11 +2,14 @@
 //!
 //! Run: `cargo run --release --example fit_accuracy` (about a minute once
 //! built; the two 20 km cases run 3 seeds, the others 20, the design classes
-//! 50 designs each). Add `-- --speed` for the 20 km, 0.25 m-spacing timing
+//! 50 designs each, eight classes). Add `-- --speed` for the 20 km, 0.25 m-spacing timing
 //! only, `-- --seeds N` to change the number of noise seeds per fixed case,
 //! `-- --class-seeds N` the number of designs per class, `-- --only TEXT` to
 //! run only the fixed cases whose name contains TEXT, `-- --textbook` or
-//! `-- --classes` for one of the two tables.
+//! `-- --classes` for one of the two tables. With `CLASS_DEBUG=TEXT` in the
+//! environment the class table also prints, for classes whose name contains
+//! TEXT, every design's boundary errors over 0.5 m (with `CLASS_SEED=N`, the
+//! element lists of design N, search and reference).
 //!
 //! The second table ([`fit_classes`]) draws invented designs of the kinds
 //! real track has (yard ladders, flat arcs, compound and reverse arcs without
