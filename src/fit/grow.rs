@@ -56,19 +56,18 @@ pub(super) fn grow(sub: &mut Chain, out: &mut lm::Outcome, data: &lm::Data, p: &
         }
         let bic0 = p.bic(out, sub);
         let mut best: Option<(f64, Chain, lm::Outcome)> = None;
-        {
-            for mut c2 in tried {
-                let mut o2 = lm::fit(&mut c2, data, SCREEN_ITERATIONS);
-                if p.bic(&o2, &c2) > bic0 + margin {
-                    continue;
-                }
-                if o2.termination == lm::Termination::IterationLimit {
-                    o2 = lm::fit(&mut c2, data, p.max_iterations);
-                }
-                let b = p.bic(&o2, &c2);
-                if b < bic0 && best.as_ref().is_none_or(|x| b < x.0) {
-                    best = Some((b, c2, o2));
-                }
+        for mut c2 in tried {
+            // A short fit first; only promising trials get a full one.
+            let mut o2 = lm::fit(&mut c2, data, SCREEN_ITERATIONS);
+            if p.bic(&o2, &c2) > bic0 + margin {
+                continue;
+            }
+            if o2.termination == lm::Termination::IterationLimit {
+                o2 = lm::fit(&mut c2, data, p.max_iterations);
+            }
+            let b = p.bic(&o2, &c2);
+            if b < bic0 && best.as_ref().is_none_or(|x| b < x.0) {
+                best = Some((b, c2, o2));
             }
         }
         let Some((_, c, o)) = best else {
