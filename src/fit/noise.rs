@@ -221,11 +221,16 @@ pub(super) fn clean_sigma(s: &[f64], v: &[f64], c: &Chain, a: f64) -> Option<(f6
         .flat_map(|j| [c.ramp_start(j), c.ramp_end(j)])
         .collect();
     let mut d = Vec::new();
+    // Knots are in order, and so are the stencils: one pass over both.
+    let mut next = 0;
     for i in 0..s.len().saturating_sub(3) {
         let h = s[i + 1] - s[i];
         let even = (1..3).all(|k| ((s[i + k + 1] - s[i + k]) - h).abs() <= 1e-6 * h.abs().max(1.0));
         let (lo, hi) = (s[i] - a, s[i + 3] + a);
-        if even && !knots.iter().any(|&k| lo < k && k < hi) {
+        while next < knots.len() && knots[next] <= lo {
+            next += 1;
+        }
+        if even && knots.get(next).is_none_or(|&k| k >= hi) {
             d.push(v[i + 3] - 3.0 * v[i + 2] + 3.0 * v[i + 1] - v[i]);
         }
     }
