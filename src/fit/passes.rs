@@ -157,9 +157,10 @@ impl Settings<'_> {
     /// The penalty noise a fitted chain implies: robust residual spread and
     /// element-scale noise, with the straights it was measured on. The
     /// element-scale noise is the smaller of the figures on the coarse
-    /// partition's straights (`coarse`) and on the fitted design's: a
-    /// curve the coarse partition missed, or a joint too close, can only
-    /// inflate either.
+    /// partition's straights (`coarse`, measured on the residuals about the
+    /// fitted design) and on the fitted design's straights: a curve the
+    /// coarse partition missed, or a joint too close, can only inflate
+    /// either.
     fn noise_of(
         &self,
         s: &[f64],
