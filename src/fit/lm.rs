@@ -118,7 +118,6 @@ pub fn reduce_map(chain: &Chain) -> DMatrix<f64> {
 }
 
 /// Model versines (chord side) at every reading.
-#[cfg(test)]
 pub fn predict(chain: &Chain, d: &Data) -> Vec<f64> {
     d.s.iter().map(|&s| chain.versine(s, d.a, d.eps)).collect()
 }

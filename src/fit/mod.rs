@@ -23,9 +23,13 @@
 //!    the chord measures them (`model.rs`); Levenberg–Marquardt refines every
 //!    boundary and arc curvature, curve by curve (curves separated by straights
 //!    longer than two chords are independent).
-//! 5. **Element count** (`search.rs`). Bottom-up moves (drop a short plateau, hold an arc at
+//! 5. **Element count** (`search.rs`, `grow.rs`). Bottom-up moves (drop a short plateau, hold an arc at
 //!    zero, merge two equal plateaus) are accepted while the Bayesian
-//!    information criterion `RSS/σ² + p ln n` falls.
+//!    information criterion `RSS/σ² + p ln n` falls; then growth moves
+//!    (an arc, a straight, a break or a plateau inserted where a one-chord
+//!    scan of the residuals finds a run the noise does not explain; a short
+//!    transition or a step exchanged for a short straight or arc) alternate
+//!    with the simplification until neither lowers the criterion.
 //! 6. **Uncertainty** (`covariance.rs`, `stats.rs`, `elements.rs`): covariance `(JᵀJ)⁻¹JᵀΓJ(JᵀJ)⁻¹` with the
 //!    pooled residual autocovariance `Γ`, Student-t 95 % intervals, a profile
 //!    bound for transitions the chord cannot resolve.
@@ -41,6 +45,7 @@
 
 mod covariance;
 mod elements;
+mod grow;
 mod known;
 pub(crate) mod lm;
 pub(crate) mod model;
@@ -373,8 +378,11 @@ fn finish(
         t: stats::t95(dof),
     };
     let ex = elements::extract(&cx, diags);
-    noise_diags(st, &sr, diags);
-    let stats_out = fit_stats(st, &sr, &resid, rss, dof, cov.p_free, lag1, diags);
+    // The reading noise of the design-free third differences (not used
+    // against a stated figure).
+    let clean = noise::clean_sigma(s, v, chain, inp.a).filter(|_| st.stated.is_none());
+    noise_diags(st, &sr, clean, diags);
+    let stats_out = fit_stats(st, &sr, &resid, rss, (dof, cov.p_free), lag1, clean, diags);
     let (chainages, design_versine, residual) = per_reading(plan, st, &sr);
     FitResult {
         elements: ex.elements,
@@ -393,7 +401,12 @@ fn finish(
 
 /// Notes on the noise: no straights, irregular track, a reading bias,
 /// reading noise from differences inflated by close joints.
-fn noise_diags(st: &Settings, sr: &Searched, diags: &mut Vec<Diagnostic>) {
+fn noise_diags(
+    st: &Settings,
+    sr: &Searched,
+    clean: Option<(f64, f64)>,
+    diags: &mut Vec<Diagnostic>,
+) {
     let sigma0 = st.stated.unwrap_or(st.sigma_read).max(st.sigma_read);
     if sr.straights.scales.is_empty() {
         diags.push(Diagnostic::note(
@@ -408,10 +421,17 @@ fn noise_diags(st: &Settings, sr: &Searched, diags: &mut Vec<Diagnostic>) {
     }
     if st.stated.is_none() && sr.sigma_res * DIFF_INFLATION < st.sigma_read {
         diags.push(Diagnostic::note(format!(
-            "the readings scatter about the fitted design by {:.2} mm, less than the reading noise of {:.2} mm estimated from differences: joints close together inflate that estimate; the fit and its chi-square test use {:.2} mm",
+            "the readings scatter about the fitted design by {:.2} mm, less than the reading noise of {:.2} mm estimated from differences: joints close together inflate that estimate; the fit uses {:.2} mm{}",
             sr.sigma_res * 1e3,
             st.sigma_read * 1e3,
-            sr.sigma_res * 1e3
+            sr.sigma_res * 1e3,
+            match clean {
+                Some((c, _)) => format!(
+                    ", its chi-square test {:.2} mm from the differences clear of the fitted joints",
+                    c * 1e3
+                ),
+                None => ", and so does its chi-square test".to_string(),
+            }
         )));
     }
     if let Some((b, se)) = sr.bias
@@ -464,9 +484,9 @@ fn fit_stats(
     sr: &Searched,
     resid: &[f64],
     rss: f64,
-    dof: f64,
-    p_free: usize,
+    (dof, p_free): (f64, usize),
     lag1: f64,
+    clean: Option<(f64, f64)>,
     diags: &mut Vec<Diagnostic>,
 ) -> FitStats {
     let s = &sr.s;
@@ -478,10 +498,16 @@ fn fit_stats(
             rmax_s = x;
         }
     }
-    let chi2_sd = test_sd(st, sr);
+    // Against a stated figure, a chi-square test; against the noise of the
+    // design-free third differences, the same allowing for that estimate's
+    // own scatter (a variance ratio).
+    let chi2_sd = clean.map_or_else(|| test_sd(st, sr), |c| c.0.max(NOISE_FLOOR));
     let reading_sd = st.stated.unwrap_or(chi2_sd.max(sr.sigma_res));
     let chi2_stat = rss / (chi2_sd * chi2_sd);
-    let chi2_p = stats::chi2_upper(chi2_stat, dof);
+    let chi2_p = match clean {
+        Some((_, nu)) => stats::f_upper(chi2_stat / dof, dof, nu),
+        None => stats::chi2_upper(chi2_stat, dof),
+    };
     if chi2_p < CHI2_ALARM {
         let w = (st.input.chord / st.input.spacing).round().max(3.0) as usize;
         let (lo, hi, rms) = worst_window(s, resid, w);

@@ -192,6 +192,65 @@ pub(super) fn quiet_sigma(v: &[f64]) -> f64 {
     *q / QUIET_QUANTILE / 20f64.sqrt()
 }
 
+/// Third differences of white noise have variance `20σ²`; their squares
+/// are correlated over three lags (`ρ = −0.75, 0.3, −0.05`), so the mean of
+/// `m` squares carries as much as `m/2.3` independent ones: `1 + 2Σρ²`
+/// = 2.305 (derived here).
+const THIRD_DIFF_DOF_FACTOR: f64 = 2.305;
+/// Third differences are clipped at this many standard deviations.
+const THIRD_CLIP_SIGMAS: f64 = 4.0;
+/// `E[min(z², 16)]` for a standard normal `z` (derived here:
+/// `1 − 2(4φ(4) + Q(4)) + 16·2Q(4)`).
+const THIRD_CLIP_MEAN_SQUARE: f64 = 0.999_88;
+/// Fewest design-free third differences for a noise figure.
+const MIN_CLEAN_STENCILS: usize = 12;
+
+/// The reading noise from the third differences the fitted design says are
+/// free of signal: a third difference of four consecutive, evenly spaced
+/// readings is zero on a straight, an arc or a clothoid, so one whose four
+/// chords (from `s_i − a` to `s_{i+3} + a`) touch no joint of the design
+/// reads only the noise (rounding included). Mean square clipped at 4σ,
+/// iterated. Returns (σ, degrees of freedom of σ²); `None` with fewer than
+/// [`MIN_CLEAN_STENCILS`] such differences.
+///
+/// Unlike the figure from all differences it is not inflated by the joints,
+/// and unlike the spread of the residuals it is not shrunk by the fit, so a
+/// chi-square test against it has the level it claims.
+pub(super) fn clean_sigma(s: &[f64], v: &[f64], c: &Chain, a: f64) -> Option<(f64, f64)> {
+    let knots: Vec<f64> = (0..c.ramps())
+        .flat_map(|j| [c.ramp_start(j), c.ramp_end(j)])
+        .collect();
+    let mut d = Vec::new();
+    // Knots are in order, and so are the stencils: one pass over both.
+    let mut next = 0;
+    for i in 0..s.len().saturating_sub(3) {
+        let h = s[i + 1] - s[i];
+        let even = (1..3).all(|k| ((s[i + k + 1] - s[i + k]) - h).abs() <= 1e-6 * h.abs().max(1.0));
+        let (lo, hi) = (s[i] - a, s[i + 3] + a);
+        while next < knots.len() && knots[next] <= lo {
+            next += 1;
+        }
+        if even && knots.get(next).is_none_or(|&k| k >= hi) {
+            d.push(v[i + 3] - 3.0 * v[i + 2] + 3.0 * v[i + 1] - v[i]);
+        }
+    }
+    if d.len() < MIN_CLEAN_STENCILS {
+        return None;
+    }
+    let m = d.len() as f64;
+    let mut s2 = d.iter().map(|x| x * x).sum::<f64>() / m;
+    for _ in 0..CLIP_ITERATIONS {
+        let lim = THIRD_CLIP_SIGMAS * THIRD_CLIP_SIGMAS * s2;
+        let next = d.iter().map(|x| (x * x).min(lim)).sum::<f64>() / m / THIRD_CLIP_MEAN_SQUARE;
+        let done = (next - s2).abs() <= 1e-9 * s2;
+        s2 = next;
+        if done {
+            break;
+        }
+    }
+    Some(((s2 / 20.0).sqrt(), m / THIRD_DIFF_DOF_FACTOR))
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -244,5 +303,36 @@ mod tests {
         let (i0, i1) = runs[0];
         assert_eq!(s[i0], 30.0);
         assert_eq!(s[i1 - 1], 70.0);
+    }
+
+    #[test]
+    fn design_free_third_differences_read_the_noise_between_joints() {
+        // A 300 m arc of R 200 with steps at both ends, read every 5 m with
+        // a 20 m chord and 1 mm noise: the steps put third differences of
+        // tens of mm into every stencil whose chords reach them.
+        let mut c = Chain::new(
+            vec![Level::Zero, Level::Free(1.0 / 200.0), Level::Zero],
+            vec![300.0, 600.0],
+            vec![0.0, 0.0],
+        );
+        c.held = vec![true, true];
+        let s: Vec<f64> = (0..200).map(|i| 5.0 * i as f64).collect();
+        let e = normal(200, 1e-3, 9);
+        let v: Vec<f64> = s
+            .iter()
+            .zip(&e)
+            .map(|(&x, n)| c.versine(x, 10.0, 0.0) + n)
+            .collect();
+        let (sg, dof) = clean_sigma(&s, &v, &c, 10.0).unwrap();
+        assert!((sg - 1e-3).abs() < 0.12e-3, "{sg}");
+        // 197 stencils less those within 25 m of either joint, over 2.3.
+        assert!(dof > 70.0 && dof < 85.0, "{dof}");
+        // Every stencil: inflated by the joints.
+        let all: f64 = v
+            .windows(4)
+            .map(|w| (w[3] - 3.0 * w[2] + 3.0 * w[1] - w[0]).powi(2))
+            .sum::<f64>()
+            / 197.0;
+        assert!((all / 20.0).sqrt() > 2e-3, "{}", (all / 20.0).sqrt());
     }
 }

@@ -157,9 +157,10 @@ impl Settings<'_> {
     /// The penalty noise a fitted chain implies: robust residual spread and
     /// element-scale noise, with the straights it was measured on. The
     /// element-scale noise is the smaller of the figures on the coarse
-    /// partition's straights (`coarse`) and on the fitted design's: a
-    /// curve the coarse partition missed, or a joint too close, can only
-    /// inflate either.
+    /// partition's straights (`coarse`, measured on the residuals about the
+    /// fitted design) and on the fitted design's straights: a curve the
+    /// coarse partition missed, or a joint too close, can only inflate
+    /// either.
     fn noise_of(
         &self,
         s: &[f64],
@@ -183,10 +184,19 @@ impl Settings<'_> {
         let runs = noise::runs_from_chain(chain, s, self.input.chord);
         let st = noise::on_straights(runs, v, self.input.chord, self.input.spacing);
         let sigma0 = self.stated.unwrap_or(sigma_res).max(sigma_res);
-        let eff = match (st.scales.is_empty(), coarse.scales.is_empty()) {
-            (false, false) => st.sigma_eff.min(coarse.sigma_eff),
+        // On the coarse straights the figure is taken from the residuals
+        // about the fitted design: a curve the coarse partition took for
+        // straight, and the fit found, no longer inflates it.
+        let coarse_res = noise::on_straights(
+            coarse.runs.clone(),
+            &resid,
+            self.input.chord,
+            self.input.spacing,
+        );
+        let eff = match (st.scales.is_empty(), coarse_res.scales.is_empty()) {
+            (false, false) => st.sigma_eff.min(coarse_res.sigma_eff),
             (false, true) => st.sigma_eff,
-            (true, _) => coarse.sigma_eff,
+            (true, _) => coarse_res.sigma_eff,
         };
         (sigma0.max(eff), sigma_res, st)
     }

@@ -128,12 +128,17 @@ pub struct FitStats {
     /// smooths over).
     pub reading_sd: f64,
     /// Reading standard deviation the chi-square test uses (m): stated, else
-    /// the reading noise (or the spread about the design when joints close
+    /// the noise of the third differences whose chords touch no fitted joint
+    /// (zero on straights, arcs and transitions); with too few of those, the
+    /// reading noise (or the spread about the design when joints close
     /// together inflate the noise estimate).
     pub chi2_sd: f64,
     /// Whether `reading_sd` was stated (true) or estimated (false).
     pub reading_sd_stated: bool,
-    /// Chi-square statistic `RSS/σ²`, its degrees of freedom and upper-tail probability.
+    /// Chi-square statistic `RSS/σ²`, its degrees of freedom and upper-tail
+    /// probability. Against an estimated `σ` the probability is that of the
+    /// variance ratio (F distribution), allowing for the estimate's own
+    /// degrees of freedom.
     pub chi2: (f64, f64, f64),
     /// Reading bias estimated on the straights (m), its standard error, and
     /// whether it was removed.

@@ -212,17 +212,30 @@ impl Problem<'_> {
             rss_tol: self.rss_tol,
         }
     }
-    fn bic(&self, o: &lm::Outcome, c: &Chain) -> f64 {
-        o.rss / self.s2pen + n_params(c) as f64 * self.ln_n
+    /// The criterion `RSS/σ² + p ln n`, plus [`SHORT_RAMP_COST`] for every
+    /// free transition shorter than the chord.
+    pub(super) fn bic(&self, o: &lm::Outcome, c: &Chain) -> f64 {
+        let short = (0..c.ramps())
+            .filter(|&j| !c.held[j] && c.lens[j] < self.chord)
+            .count();
+        o.rss / self.s2pen + n_params(c) as f64 * self.ln_n + SHORT_RAMP_COST * short as f64
     }
 }
 
+/// Tie-break against transitions shorter than the chord, in units of the
+/// criterion (one reading variance of RSS, far below one parameter's
+/// `ln n`). The chord cannot resolve such a transition (it reads about a
+/// chord long whatever its length, SEGMENTATION §1), so between a design
+/// with one and a design without (a short straight between two arcs and one
+/// transition through zero read alike) that the readings cannot tell apart,
+/// the one without is kept.
+const SHORT_RAMP_COST: f64 = 1.0;
 /// Iterations of the trial fit that screens a move before its full fit.
-const SCREEN_ITERATIONS: usize = 8;
+pub(super) const SCREEN_ITERATIONS: usize = 8;
 /// A move whose screening fit is worse than the current model by more than
 /// this many penalty units (of `ln n`, at least 1) gets no full fit: a full
 /// fit rarely recovers that much.
-const SCREEN_MARGIN: f64 = 2.0;
+pub(super) const SCREEN_MARGIN: f64 = 2.0;
 /// Readings farther out than this many chords on a group's outer straights
 /// read zero under every model of the group and are left out of its fit.
 const OUTER_STRAIGHT_CHORDS: f64 = 3.0;
@@ -259,6 +272,7 @@ pub(super) fn fit_group(chain: &Chain, (j0, j1): (usize, usize), p: &Problem) ->
     let mut sub = sub;
     let mut out = lm::fit(&mut sub, &data, p.max_iterations);
     simplify(&mut sub, &mut out, &data, p);
+    super::grow::grow(&mut sub, &mut out, &data, p);
     GroupFit {
         chain: sub,
         lo_idx,
@@ -273,7 +287,7 @@ pub(super) fn fit_group(chain: &Chain, (j0, j1): (usize, usize), p: &Problem) ->
 /// accepts the best, then tries the other improving moves in order of gain on
 /// the updated chain (found again by chainage), so a curve with several
 /// spurious pieces needs few rounds.
-fn simplify(sub: &mut Chain, out: &mut lm::Outcome, data: &lm::Data, p: &Problem) {
+pub(super) fn simplify(sub: &mut Chain, out: &mut lm::Outcome, data: &lm::Data, p: &Problem) {
     let margin = SCREEN_MARGIN * p.ln_n.max(1.0);
     loop {
         let bic0 = p.bic(out, sub);

@@ -8,7 +8,7 @@
 //! products).
 
 use nalgebra::DMatrix;
-use statrs::distribution::{ChiSquared, ContinuousCDF, StudentsT};
+use statrs::distribution::{ChiSquared, ContinuousCDF, FisherSnedecor, StudentsT};
 
 /// Autocovariance of a residual series at index lags `0..=h_max`, pooled
 /// over `runs` (each a contiguous stretch of readings).
@@ -106,6 +106,16 @@ pub fn chi2_upper(stat: f64, dof: f64) -> f64 {
         .unwrap_or(f64::NAN)
 }
 
+/// Upper-tail probability of a variance ratio with `d1` and `d2` degrees of
+/// freedom: the chi-square test when the reading variance is itself an
+/// estimate on `d2` degrees of freedom (it tends to [`chi2_upper`] of
+/// `d1·x` as `d2` grows).
+pub fn f_upper(x: f64, d1: f64, d2: f64) -> f64 {
+    FisherSnedecor::new(d1.max(1.0), d2.max(1.0))
+        .map(|f| 1.0 - f.cdf(x.max(0.0)))
+        .unwrap_or(f64::NAN)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -116,6 +126,19 @@ mod tests {
         let c = sandwich(&j, &[4.0]).unwrap();
         let o = invert_spd(&(j.transpose() * &j)).unwrap() * 4.0;
         assert!((c - o).abs().max() < 1e-12);
+    }
+
+    #[test]
+    fn f_tail_matches_scipy() {
+        // scipy 1.17.1 on this machine: scipy.stats.f.sf(1.5, 20, 30) =
+        // 0.15372812747955322, f.sf(0.8, 60, 25) = 0.7625739689724145.
+        let p = f_upper(1.5, 20.0, 30.0);
+        assert!((p - 0.153_728_127_479_553_2).abs() < 1e-9, "{p}");
+        let p = f_upper(0.8, 60.0, 25.0);
+        assert!((p - 0.762_573_968_972_414_5).abs() < 1e-9, "{p}");
+        // Large d2: the chi-square tail of d1·x.
+        let q = f_upper(1.2, 40.0, 1e7);
+        assert!((q - chi2_upper(48.0, 40.0)).abs() < 1e-4, "{q}");
     }
 
     #[test]

@@ -129,14 +129,28 @@ fn noise_line(st: &FitStats, vu: VersineUnit, vdec: usize) -> String {
     } else {
         "the design does NOT explain the readings (a misfit this large almost never arises by chance): see the warning".to_string()
     };
+    let against = if (st.chi2_sd - st.sigma_white).abs() < 0.5e-5 || st.reading_sd_stated {
+        String::new()
+    } else {
+        format!(
+            ", tested against {} {vs}, the scatter of the readings' third differences clear of the fitted joints",
+            num(vu.from_m(st.chi2_sd), vdec)
+        )
+    };
     format!(
-        "noise: reading sd {} {vs} ({how}); the readings scatter {} {vs} about the fitted design; track on the straights scatters {} {vs} at element scale (what the fit's penalties use)\ntest: {verdict} (chi-square {:.1} on {:.0} degrees of freedom against {} {vs}, p = {:.3})\n",
-        num(vu.from_m(st.chi2_sd), vdec),
+        "noise: reading sd {} {vs} ({how}); the readings scatter {} {vs} about the fitted design; track on the straights scatters {} {vs} at element scale (what the fit's penalties use)\ntest: {verdict} (chi-square {:.1} on {:.0} degrees of freedom{against}, p = {:.3})\n",
+        num(
+            vu.from_m(if st.reading_sd_stated {
+                st.chi2_sd
+            } else {
+                st.sigma_white
+            }),
+            vdec
+        ),
         num(vu.from_m(st.sigma_residual), vdec),
         num(vu.from_m(st.sigma_penalty), vdec),
         st.chi2.0,
         st.chi2.1,
-        num(vu.from_m(st.chi2_sd), vdec),
         p
     )
 }
