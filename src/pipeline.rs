@@ -392,9 +392,17 @@ pub fn run(
         geo: geo.as_deref(),
         slews: slew_cols.as_deref(),
     };
-    dir.write_file("stations.csv", |w| {
-        write_stations_with(w, &results.plan, unit, &extras)
-    })?;
+    // The report is built on another thread while stations.csv is written
+    // (the two longest outputs of a long survey; one thread does them in turn).
+    let (report, stations) = rayon::join(
+        || crate::report::html_report(&results, &record),
+        || {
+            dir.write_file("stations.csv", |w| {
+                write_stations_with(w, &results.plan, unit, &extras)
+            })
+        },
+    );
+    stations?;
     if let Some(f) = &results.fit {
         let placed = match &results.design {
             Some((al, _)) => Some(
@@ -421,9 +429,8 @@ pub fn run(
             crate::export::advice::write_advice_csv(w, a, unit)
         })?;
     }
-    dir.write_file("report.html", |w| {
-        w.write_all(crate::report::html_report(&results, &record).as_bytes())
-    })?;
+    dir.write_file("report.html", |w| w.write_all(report.as_bytes()))?;
+    drop(report);
     let props: Vec<ElementProps> = results
         .fit
         .iter()

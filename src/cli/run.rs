@@ -68,7 +68,7 @@ pub struct RunArgs {
     /// Replace the output folder if it exists.
     #[arg(long)]
     pub force: bool,
-    /// Threads for the element fit of long surveys (default: one per processor; results do not depend on it).
+    /// Threads for a long survey's fit and writing, and in a batch in all (default: one per processor; results do not depend on it).
     #[arg(long)]
     pub threads: Option<usize>,
     /// Skip the element fit (stations.csv only).
@@ -435,6 +435,10 @@ pub fn run(c: RunCommand) -> Result<(), Failure> {
         if let Some(s) = &mut opts.slew {
             s.fixed = fixed_in_unit(&a.fixed, unit);
         }
+    }
+    let threads = super::util::thread_pool(a.threads);
+    if let Some(f) = &mut opts.fit {
+        f.threads = Some(threads);
     }
     let outcome = execute(&c.survey, &opts, &a.out, a.force)?;
     match a.summary {

@@ -11,7 +11,7 @@
 //! SEGMENTATION.md §7 (this project's design study).
 
 use super::lm;
-use super::search::{GroupFit, Problem};
+use super::search::{self, GroupFit, Problem};
 use super::stats;
 use nalgebra::DMatrix;
 
@@ -48,32 +48,38 @@ struct Slot {
 impl Covariance {
     /// Covariance of the groups `fits`; `gamma` is the noise autocovariance
     /// at lags `0..`, `s2_ols` the residual variance of the ordinary one.
-    pub fn of_groups(fits: &[GroupFit], p: &Problem, gamma: &[f64], s2_ols: f64) -> Self {
-        let mut blocks: Vec<(Vec<lm::Param>, DMatrix<f64>)> = Vec::with_capacity(fits.len());
-        let mut ramp_off = 0usize;
-        let mut p_free = 0usize;
-        for g in fits {
-            let par = lm::full_params(&g.chain);
-            let tm = lm::reduce_map(&g.chain);
-            p_free += tm.ncols();
-            let data = p.data(g.lo_idx, g.hi_idx, g.lo, g.hi);
-            let (_, jf) = lm::jacobian(&g.chain, &par, &data);
-            let jr = &jf * &tm;
-            let cov = match (stats::sandwich(&jr, gamma), stats::sandwich(&jr, &[s2_ols])) {
-                (Some(sw), Some(ols)) => &tm * choose(sw, ols) * tm.transpose(),
-                _ => DMatrix::from_diagonal_element(par.len(), par.len(), f64::INFINITY),
+    /// The groups are done on the current rayon pool for long surveys unless
+    /// `threads` is 1 (the same numbers either way).
+    pub fn of_groups(
+        fits: &[GroupFit],
+        p: &Problem,
+        gamma: &[f64],
+        s2_ols: f64,
+        threads: usize,
+    ) -> Self {
+        use rayon::prelude::*;
+        // Each group's first global ramp index.
+        let offsets: Vec<usize> = fits
+            .iter()
+            .scan(0, |off, g| {
+                let o = *off;
+                *off += g.chain.ramps();
+                Some(o)
+            })
+            .collect();
+        let one = |(g, &ramp_off): (&GroupFit, &usize)| group_block(g, ramp_off, p, gamma, s2_ols);
+        let blocks: Vec<(Vec<lm::Param>, DMatrix<f64>, usize)> =
+            if threads > 1 && fits.len() > 1 && p.s.len() >= search::PARALLEL_MIN_READINGS {
+                fits.par_iter()
+                    .zip(&offsets)
+                    .with_max_len(1)
+                    .map(one)
+                    .collect()
+            } else {
+                fits.iter().zip(&offsets).map(one).collect()
             };
-            let global = par
-                .iter()
-                .map(|q| match *q {
-                    lm::Param::Mid(j) => lm::Param::Mid(j + ramp_off),
-                    lm::Param::Len(j) => lm::Param::Len(j + ramp_off),
-                    lm::Param::Level(i) => lm::Param::Level(i + ramp_off),
-                })
-                .collect();
-            blocks.push((global, cov));
-            ramp_off += g.chain.ramps();
-        }
+        let p_free = blocks.iter().map(|b| b.2).sum();
+        let blocks = blocks.into_iter().map(|(q, c, _)| (q, c)).collect();
         Self::from_blocks(blocks, p_free)
     }
 
@@ -140,6 +146,35 @@ impl Covariance {
         }
         var.max(0.0)
     }
+}
+
+/// One group's parameters (global indices, its ramps counted from
+/// `ramp_off`), their covariance and the number of free ones.
+fn group_block(
+    g: &GroupFit,
+    ramp_off: usize,
+    p: &Problem,
+    gamma: &[f64],
+    s2_ols: f64,
+) -> (Vec<lm::Param>, DMatrix<f64>, usize) {
+    let par = lm::full_params(&g.chain);
+    let tm = lm::reduce_map(&g.chain);
+    let data = p.data(g.lo_idx, g.hi_idx, g.lo, g.hi);
+    let (_, jf) = lm::jacobian(&g.chain, &par, &data);
+    let jr = &jf * &tm;
+    let cov = match (stats::sandwich(&jr, gamma), stats::sandwich(&jr, &[s2_ols])) {
+        (Some(sw), Some(ols)) => &tm * choose(sw, ols) * tm.transpose(),
+        _ => DMatrix::from_diagonal_element(par.len(), par.len(), f64::INFINITY),
+    };
+    let global = par
+        .iter()
+        .map(|q| match *q {
+            lm::Param::Mid(j) => lm::Param::Mid(j + ramp_off),
+            lm::Param::Len(j) => lm::Param::Len(j + ramp_off),
+            lm::Param::Level(i) => lm::Param::Level(i + ramp_off),
+        })
+        .collect();
+    (global, cov, tm.ncols())
 }
 
 /// The sandwich when it is at least the ordinary covariance on average and
