@@ -392,17 +392,9 @@ pub fn run(
         geo: geo.as_deref(),
         slews: slew_cols.as_deref(),
     };
-    // The report is built on another thread while stations.csv is written
-    // (the two longest outputs of a long survey; one thread does them in turn).
-    let (report, stations) = rayon::join(
-        || crate::report::html_report(&results, &record),
-        || {
-            dir.write_file("stations.csv", |w| {
-                write_stations_with(w, &results.plan, unit, &extras)
-            })
-        },
-    );
-    stations?;
+    dir.write_file("stations.csv", |w| {
+        write_stations_with(w, &results.plan, unit, &extras)
+    })?;
     if let Some(f) = &results.fit {
         let placed = match &results.design {
             Some((al, _)) => Some(
@@ -429,8 +421,10 @@ pub fn run(
             crate::export::advice::write_advice_csv(w, a, unit)
         })?;
     }
-    dir.write_file("report.html", |w| w.write_all(report.as_bytes()))?;
-    drop(report);
+    // Written as it is drawn (a long survey's report is hundreds of MB).
+    dir.write_file("report.html", |w| {
+        crate::report::write_html_report(w, &results, &record)
+    })?;
     let props: Vec<ElementProps> = results
         .fit
         .iter()

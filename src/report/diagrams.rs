@@ -18,29 +18,55 @@ const LIMIT: Style = Style::new(BLACK, Pattern::DotDash, 1.2);
 /// A chainage range shown, chart units; `None`: the whole survey.
 pub(super) type Range = Option<(f64, f64)>;
 
-/// Builds the diagrams of one report; numbers them so that every SVG id is
-/// unique in the page.
-pub(super) struct Diagrams<'a> {
-    r: &'a Results,
+/// The element strips drawn above the chainage charts (with and without
+/// joint chainages), built once per report and shared by its diagrams.
+pub(super) struct Strips {
     strip: Option<Strip>,
     labelled: Option<Strip>,
-    next: Cell<usize>,
 }
 
-impl<'a> Diagrams<'a> {
-    pub(super) fn new(r: &'a Results) -> Self {
+impl Strips {
+    pub(super) fn new(r: &Results) -> Self {
         let u = r.survey.chainage_unit;
         let strip = r.fit.as_ref().map(|f| Strip::from_fit(f, u));
         let labelled = strip.clone().map(|mut s| {
             s.label_joints = true;
             s
         });
+        Strips { strip, labelled }
+    }
+}
+
+/// Builds diagrams of one report; numbers them from a given first id so
+/// that every SVG id is unique in the page, also when the sections of a long
+/// survey are drawn at the same time (each from its own first id).
+pub(super) struct Diagrams<'a> {
+    r: &'a Results,
+    strip: Option<&'a Strip>,
+    labelled: Option<&'a Strip>,
+    next: Cell<usize>,
+}
+
+impl<'a> Diagrams<'a> {
+    /// Diagrams numbered from `first + 1`.
+    pub(super) fn new(r: &'a Results, strips: &'a Strips, first: usize) -> Self {
         Diagrams {
             r,
-            strip,
-            labelled,
-            next: Cell::new(0),
+            strip: strips.strip.as_ref(),
+            labelled: strips.labelled.as_ref(),
+            next: Cell::new(first),
         }
+    }
+
+    /// The number of the last diagram made (the first id of what follows).
+    pub(super) fn last_id(&self) -> usize {
+        self.next.get()
+    }
+
+    /// Diagrams one chainage range has: versines, curvature, and the
+    /// residuals and slews when there are a design and slews.
+    pub(super) fn per_range(&self) -> usize {
+        2 + usize::from(self.r.design.is_some()) + usize::from(self.r.slews.is_some())
     }
 
     fn ch(&self, metres: f64) -> f64 {
@@ -72,9 +98,9 @@ impl<'a> Diagrams<'a> {
             x_label: format!("chainage ({})", self.r.survey.chainage_unit.suffix()),
             y_label,
             strip: if label_joints {
-                self.labelled.as_ref()
+                self.labelled
             } else {
-                self.strip.as_ref()
+                self.strip
             },
             x_range: range,
             ..Default::default()

@@ -11,7 +11,7 @@ mod svg;
 mod tables;
 
 pub use advice_text::advice_text;
-pub use html::html_report;
+pub use html::{html_report, write_html_report};
 
 use crate::diag::Severity;
 use crate::geometry::heading_to_bearing;
