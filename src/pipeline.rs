@@ -352,6 +352,8 @@ pub fn run(
         header_comments: crate::report::header_comments(&String::from_utf8_lossy(&bytes)),
         date: Some((created, created_basis.to_string())),
     };
+    // The file's text is not needed again: free it before the stages.
+    drop(bytes);
     let mut results = process(survey, opts)?;
     diags.extend(dir.notes().iter().map(Diagnostic::note));
     diags.append(&mut results.diagnostics);
