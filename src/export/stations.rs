@@ -30,7 +30,7 @@
 //! Numbers have fixed decimals, so the same plan always gives the same bytes.
 //! A value that is not finite is refused (an error), never written as NaN.
 
-use crate::integrate::Plan;
+use crate::integrate::{Plan, Station};
 use crate::units::{LengthUnit, VersineUnit};
 use rayon::prelude::*;
 use std::io::{self, Write};
@@ -215,121 +215,18 @@ pub fn write_stations_with(
             ));
         }
     }
-    let design = extras.design;
     let mut w = io::BufWriter::new(w);
     let vu = unit.versine_unit();
     let v_dp = if vu == VersineUnit::Inch { 3 } else { 2 };
     let imperial = unit == LengthUnit::Foot;
     w.write_all(header(unit, extras).as_bytes())?;
-    let g_unit = extras.grid.map(|g| g.unit);
-    // Coordinates in the output unit: the grid's (already in it) or the survey's.
-    let xy = |local: f64, grid: Option<f64>| grid.unwrap_or_else(|| unit.from_m(local));
-    // The rows of one block of stations, as text.
-    let rows = |lo: usize, hi: usize| -> io::Result<String> {
-        let mut out = String::with_capacity((hi - lo) * 160);
-        let mut row = String::with_capacity(256);
-        for (i, s) in plan.stations.iter().enumerate().take(hi).skip(lo) {
-            row.clear();
-            let c = s.chainage;
-            num(&mut row, unit.from_m(c), 3, "chainage", c)?;
-            row.push(',');
-            if let Some(v) = s.versine {
-                num(&mut row, vu.from_m(v), v_dp, "versine", c)?;
-            }
-            row.push(',');
-            num(&mut row, s.curvature * 1e3, 6, "curvature", c)?;
-            row.push(',');
-            let b = match extras.geo {
-                Some(g) => g[i].true_bearing.rem_euclid(360.0),
-                None => crate::geometry::heading_to_bearing(s.heading),
-            };
-            // 359.9999996 would print as 360.000000: keep bearings in [0, 360).
-            let b = if b > 359.999_99 && format!("{b:.6}") == "360.000000" {
-                0.0
-            } else {
-                b
-            };
-            num(&mut row, b, 6, "bearing", c)?;
-            let gc = extras.grid.map(|g| g.centre[i]);
-            for (val, col, dp) in [
-                (xy(s.x, gc.map(|g| g.0)), "easting", 4),
-                (xy(s.y, gc.map(|g| g.1)), "northing", 4),
-                (unit.from_m(s.position_sd), "position_sd", 4),
-                (s.heading_sd.to_degrees(), "heading_sd", 6),
-            ] {
-                row.push(',');
-                num(&mut row, val, dp, col, c)?;
-            }
-            row.push(',');
-            row.push_str(s.rail.name());
-            let gr = extras.grid.map(|g| g.rail[i]);
-            for (val, col) in [
-                (xy(s.rail_x, gr.map(|g| g.0)), "rail_easting"),
-                (xy(s.rail_y, gr.map(|g| g.1)), "rail_northing"),
-            ] {
-                row.push(',');
-                num(&mut row, val, 4, col, c)?;
-            }
-            if imperial {
-                row.push(',');
-                let d = if s.curvature == 0.0 {
-                    Some(0.0)
-                } else {
-                    crate::integrate::degree_of_curve(1.0 / s.curvature)
-                        .map(|d| d * s.curvature.signum())
-                };
-                if let Some(d) = d {
-                    num(&mut row, d, 4, "degree_of_curve", c)?;
-                }
-            }
-            if let Some(d) = design {
-                let d = d[i];
-                row.push(',');
-                num(
-                    &mut row,
-                    vu.from_m(d.design_versine),
-                    v_dp,
-                    "design_versine",
-                    c,
-                )?;
-                row.push(',');
-                if let Some(r) = d.residual {
-                    num(&mut row, vu.from_m(r), v_dp, "residual", c)?;
-                }
-                let gd = extras.grid.and_then(|g| g.design).map(|g| g[i]);
-                for (val, col) in [
-                    (xy(d.x, gd.map(|g| g.0)), "design_easting"),
-                    (xy(d.y, gd.map(|g| g.1)), "design_northing"),
-                ] {
-                    row.push(',');
-                    num(&mut row, val, 4, col, c)?;
-                }
-            }
-            if let Some(sl) = extras.slews {
-                for (val, col) in [(sl[i].slew, "slew"), (sl[i].sd, "slew_sd")] {
-                    row.push(',');
-                    num(&mut row, vu.from_m(val), v_dp, col, c)?;
-                }
-            }
-            if let Some(g) = extras.geo {
-                for (val, col) in [(g[i].lon, "longitude"), (g[i].lat, "latitude")] {
-                    row.push(',');
-                    num(&mut row, val, 8, col, c)?;
-                }
-            }
-            if g_unit.is_some() {
-                for (val, col) in [
-                    (unit.from_m(s.x), "local_easting"),
-                    (unit.from_m(s.y), "local_northing"),
-                ] {
-                    row.push(',');
-                    num(&mut row, val, 4, col, c)?;
-                }
-            }
-            row.push('\n');
-            out.push_str(&row);
-        }
-        Ok(out)
+    let rows = Rows {
+        plan,
+        unit,
+        extras,
+        vu,
+        v_dp,
+        imperial,
     };
     // Blocks formatted on the pool's threads a batch at a time, written in
     // order (the first error in row order is the one reported).
@@ -337,7 +234,7 @@ pub fn write_stations_with(
     for batch in starts.chunks(ROW_BATCH) {
         let texts: Vec<io::Result<String>> = batch
             .par_iter()
-            .map(|&lo| rows(lo, (lo + ROW_BLOCK).min(n)))
+            .map(|&lo| rows.block(lo, (lo + ROW_BLOCK).min(n)))
             .collect();
         for t in texts {
             w.write_all(t?.as_bytes())?;
@@ -349,6 +246,132 @@ pub fn write_stations_with(
 /// Stations per block of `stations.csv` formatted at once, and blocks per batch.
 const ROW_BLOCK: usize = 4096;
 const ROW_BATCH: usize = 8;
+
+/// What every row of one `stations.csv` needs.
+struct Rows<'a> {
+    plan: &'a Plan,
+    unit: LengthUnit,
+    extras: &'a StationExtras<'a>,
+    vu: VersineUnit,
+    v_dp: usize,
+    imperial: bool,
+}
+
+impl Rows<'_> {
+    /// The rows of stations `lo..hi`, as text.
+    fn block(&self, lo: usize, hi: usize) -> io::Result<String> {
+        let mut out = String::with_capacity((hi - lo) * 160);
+        let mut row = String::with_capacity(256);
+        for (i, s) in self.plan.stations.iter().enumerate().take(hi).skip(lo) {
+            row.clear();
+            self.row(&mut row, i, s)?;
+            row.push('\n');
+            out.push_str(&row);
+        }
+        Ok(out)
+    }
+
+    /// Station `i`'s row (without its newline).
+    fn row(&self, row: &mut String, i: usize, s: &Station) -> io::Result<()> {
+        let (unit, vu, v_dp, imperial, extras) =
+            (self.unit, self.vu, self.v_dp, self.imperial, self.extras);
+        let design = extras.design;
+        let g_unit = extras.grid.map(|g| g.unit);
+        // Coordinates in the output unit: the grid's (already in it) or the survey's.
+        let xy = |local: f64, grid: Option<f64>| grid.unwrap_or_else(|| unit.from_m(local));
+        let c = s.chainage;
+        num(row, unit.from_m(c), 3, "chainage", c)?;
+        row.push(',');
+        if let Some(v) = s.versine {
+            num(row, vu.from_m(v), v_dp, "versine", c)?;
+        }
+        row.push(',');
+        num(row, s.curvature * 1e3, 6, "curvature", c)?;
+        row.push(',');
+        let b = match extras.geo {
+            Some(g) => g[i].true_bearing.rem_euclid(360.0),
+            None => crate::geometry::heading_to_bearing(s.heading),
+        };
+        // 359.9999996 would print as 360.000000: keep bearings in [0, 360).
+        let b = if b > 359.999_99 && format!("{b:.6}") == "360.000000" {
+            0.0
+        } else {
+            b
+        };
+        num(row, b, 6, "bearing", c)?;
+        let gc = extras.grid.map(|g| g.centre[i]);
+        for (val, col, dp) in [
+            (xy(s.x, gc.map(|g| g.0)), "easting", 4),
+            (xy(s.y, gc.map(|g| g.1)), "northing", 4),
+            (unit.from_m(s.position_sd), "position_sd", 4),
+            (s.heading_sd.to_degrees(), "heading_sd", 6),
+        ] {
+            row.push(',');
+            num(row, val, dp, col, c)?;
+        }
+        row.push(',');
+        row.push_str(s.rail.name());
+        let gr = extras.grid.map(|g| g.rail[i]);
+        for (val, col) in [
+            (xy(s.rail_x, gr.map(|g| g.0)), "rail_easting"),
+            (xy(s.rail_y, gr.map(|g| g.1)), "rail_northing"),
+        ] {
+            row.push(',');
+            num(row, val, 4, col, c)?;
+        }
+        if imperial {
+            row.push(',');
+            let d = if s.curvature == 0.0 {
+                Some(0.0)
+            } else {
+                crate::integrate::degree_of_curve(1.0 / s.curvature)
+                    .map(|d| d * s.curvature.signum())
+            };
+            if let Some(d) = d {
+                num(row, d, 4, "degree_of_curve", c)?;
+            }
+        }
+        if let Some(d) = design {
+            let d = d[i];
+            row.push(',');
+            num(row, vu.from_m(d.design_versine), v_dp, "design_versine", c)?;
+            row.push(',');
+            if let Some(r) = d.residual {
+                num(row, vu.from_m(r), v_dp, "residual", c)?;
+            }
+            let gd = extras.grid.and_then(|g| g.design).map(|g| g[i]);
+            for (val, col) in [
+                (xy(d.x, gd.map(|g| g.0)), "design_easting"),
+                (xy(d.y, gd.map(|g| g.1)), "design_northing"),
+            ] {
+                row.push(',');
+                num(row, val, 4, col, c)?;
+            }
+        }
+        if let Some(sl) = extras.slews {
+            for (val, col) in [(sl[i].slew, "slew"), (sl[i].sd, "slew_sd")] {
+                row.push(',');
+                num(row, vu.from_m(val), v_dp, col, c)?;
+            }
+        }
+        if let Some(g) = extras.geo {
+            for (val, col) in [(g[i].lon, "longitude"), (g[i].lat, "latitude")] {
+                row.push(',');
+                num(row, val, 8, col, c)?;
+            }
+        }
+        if g_unit.is_some() {
+            for (val, col) in [
+                (unit.from_m(s.x), "local_easting"),
+                (unit.from_m(s.y), "local_northing"),
+            ] {
+                row.push(',');
+                num(row, val, 4, col, c)?;
+            }
+        }
+        Ok(())
+    }
+}
 
 /// The header line (with its newline) for the column groups present.
 fn header(unit: LengthUnit, extras: &StationExtras) -> String {
