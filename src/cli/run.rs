@@ -440,7 +440,9 @@ pub fn run(c: RunCommand) -> Result<(), Failure> {
     if let Some(f) = &mut opts.fit {
         f.threads = Some(threads);
     }
-    let outcome = execute(&c.survey, &opts, &a.out, a.force)?;
+    // On a thread of the pool, so that the run and its parallel parts use
+    // exactly `threads` threads (the calling thread only waits).
+    let outcome = rayon::scope(|_| execute(&c.survey, &opts, &a.out, a.force))?;
     match a.summary {
         SummaryLength::Full => print_outcome(&outcome, a.quiet),
         SummaryLength::Short => print_short(&outcome, a.quiet),
