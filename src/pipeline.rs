@@ -363,6 +363,8 @@ pub fn run(
         header_comments: crate::report::header_comments(&String::from_utf8_lossy(&bytes)),
         date: Some((created, created_basis)),
     };
+    // The file's text is not needed again: free it before the stages.
+    drop(bytes);
     let unit = survey.chainage_unit;
     let mut results = process(survey, opts).map_err(|e| e.in_survey_units(unit))?;
     // The stages word their figures in SI; the reader already in the file's units.
@@ -371,8 +373,9 @@ pub fn run(
     diags.append(&mut results.diagnostics);
     results.diagnostics = diags;
     write_tables(&mut dir, &results)?;
+    // Written as it is drawn (a long survey's report is hundreds of MB).
     dir.write_file("report.html", |w| {
-        w.write_all(crate::report::html_report(&results, &record).as_bytes())
+        crate::report::write_html_report(w, &results, &record)
     })?;
     let props: Vec<ElementProps> = results
         .fit

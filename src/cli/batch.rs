@@ -16,7 +16,7 @@ pub struct BatchArgs {
     /// Survey files; each gets its own folder OUT/<file name without extension>.
     #[arg(required = true)]
     pub surveys: Vec<PathBuf>,
-    /// Number of surveys processed at once (default: the number of processors).
+    /// Number of surveys processed at once (default: the number of threads); they share the --threads pool.
     #[arg(long)]
     pub jobs: Option<usize>,
     /// Set-up shared by every survey (as for `run`; --out is the parent folder).
@@ -26,7 +26,7 @@ pub struct BatchArgs {
 
 /// Run `chordline batch`.
 pub fn run(a: BatchArgs) -> Result<(), Failure> {
-    let opts = a.run.options()?;
+    let mut opts = a.run.options()?;
     let mut seen = std::collections::HashSet::new();
     for s in &a.surveys {
         let stem = s.file_stem().map(|x| x.to_owned()).unwrap_or_default();
@@ -37,16 +37,20 @@ pub fn run(a: BatchArgs) -> Result<(), Failure> {
             )));
         }
     }
-    let jobs = a
-        .jobs
-        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()))
-        .clamp(1, a.surveys.len().max(1));
+    // One pool for everything: the surveys at once (lanes) and each one's
+    // fit share its threads, so --jobs times the fit's threads never
+    // oversubscribes the machine.
+    let threads = super::util::thread_pool(a.run.threads.or(a.jobs));
+    if let Some(f) = &mut opts.fit {
+        f.threads = None;
+    }
+    let jobs = a.jobs.unwrap_or(threads).clamp(1, a.surveys.len().max(1));
     let next = AtomicUsize::new(0);
     let lines: Mutex<Vec<(usize, String, bool)>> = Mutex::new(Vec::new());
     let progress = Progress::new(a.surveys.len(), a.run.quiet);
-    std::thread::scope(|scope| {
+    rayon::scope(|scope| {
         for _ in 0..jobs {
-            scope.spawn(|| {
+            scope.spawn(|_| {
                 loop {
                     let i = next.fetch_add(1, Ordering::Relaxed);
                     let Some(path) = a.surveys.get(i) else { break };

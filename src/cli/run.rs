@@ -68,7 +68,7 @@ pub struct RunArgs {
     /// Replace the output folder if it exists.
     #[arg(long)]
     pub force: bool,
-    /// Threads for the element fit of long surveys (default: one per processor; results do not depend on it).
+    /// Threads for a long survey's fit and writing, and in a batch in all (default: one per processor; results do not depend on it).
     #[arg(long)]
     pub threads: Option<usize>,
     /// Skip the element fit (stations.csv only).
@@ -436,7 +436,13 @@ pub fn run(c: RunCommand) -> Result<(), Failure> {
             s.fixed = fixed_in_unit(&a.fixed, unit);
         }
     }
-    let outcome = execute(&c.survey, &opts, &a.out, a.force)?;
+    let threads = super::util::thread_pool(a.threads);
+    if let Some(f) = &mut opts.fit {
+        f.threads = Some(threads);
+    }
+    // On a thread of the pool, so that the run and its parallel parts use
+    // exactly `threads` threads (the calling thread only waits).
+    let outcome = rayon::scope(|_| execute(&c.survey, &opts, &a.out, a.force))?;
     match a.summary {
         SummaryLength::Full => print_outcome(&outcome, a.quiet),
         SummaryLength::Short => print_short(&outcome, a.quiet),

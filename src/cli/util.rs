@@ -117,6 +117,21 @@ pub fn same_file(a: &Path, b: &Path) -> bool {
     }
 }
 
+/// Size the one thread pool of the process (rayon's global pool): `threads`,
+/// or one per processor. Every parallel part (curve groups, covariance
+/// blocks, writing, the surveys of a batch) shares it, so nesting never
+/// runs more threads than this. Returns the size.
+pub fn thread_pool(threads: Option<usize>) -> usize {
+    let n = threads
+        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()))
+        .max(1);
+    // Fails only if the pool was already built (then it is used as it is).
+    let _ = rayon::ThreadPoolBuilder::new()
+        .num_threads(n)
+        .build_global();
+    rayon::current_num_threads()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

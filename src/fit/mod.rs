@@ -91,8 +91,10 @@ pub struct FitOptions {
     pub bin: Option<f64>,
     /// Iteration cap of each Levenberg–Marquardt fit.
     pub max_iterations: usize,
-    /// Threads for fitting independent curves of long surveys (`None`: one
-    /// per processor). The result does not depend on it.
+    /// Threads for fitting independent curves of long surveys (`None`: the
+    /// current rayon pool, by default one thread per processor; `Some(n)`: a
+    /// pool of `n` for this fit unless the current one has `n`). The result
+    /// does not depend on it.
     pub threads: Option<usize>,
     /// Keep readings that look like blunders in the fit (they are still
     /// listed). Default: they are left out.
@@ -265,6 +267,25 @@ fn prepare(plan: &Plan, diags: &mut Vec<Diagnostic>) -> Result<Input, FitError> 
 /// assert!(res.outliers.is_empty());
 /// ```
 pub fn fit(plan: &Plan, opts: &FitOptions) -> Result<(FitResult, Vec<Diagnostic>), FitError> {
+    on_threads(opts.threads, || fit_here(plan, opts))
+}
+
+/// Run `f` on a rayon pool of `threads` threads: the current pool when it has
+/// that many, or when `threads` is `None` or 1 (one thread runs everything
+/// in order without a pool).
+fn on_threads<T: Send>(threads: Option<usize>, f: impl FnOnce() -> T + Send) -> T {
+    match threads {
+        Some(n) if n > 1 && n != rayon::current_num_threads() => {
+            match rayon::ThreadPoolBuilder::new().num_threads(n).build() {
+                Ok(pool) => pool.install(f),
+                Err(_) => f(),
+            }
+        }
+        _ => f(),
+    }
+}
+
+fn fit_here(plan: &Plan, opts: &FitOptions) -> Result<(FitResult, Vec<Diagnostic>), FitError> {
     let mut diags = Vec::new();
     let input = prepare(plan, &mut diags)?;
     let st = settings(plan, opts, &input);
@@ -290,7 +311,7 @@ fn settings<'a>(plan: &Plan, opts: &'a FitOptions, input: &'a Input) -> Settings
         step,
         threads: opts
             .threads
-            .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |x| x.get()))
+            .unwrap_or_else(rayon::current_num_threads)
             .max(1),
     }
 }
@@ -305,6 +326,14 @@ fn settings<'a>(plan: &Plan, opts: &'a FitOptions, input: &'a Input) -> Settings
 /// As [`fit`], and [`FitError::BadSetup`] for a sequence that does not fit
 /// together (see [`KnownSequence`]).
 pub fn fit_known(
+    plan: &Plan,
+    opts: &FitOptions,
+    seq: &KnownSequence,
+) -> Result<(FitResult, Vec<Diagnostic>), FitError> {
+    on_threads(opts.threads, || fit_known_here(plan, opts, seq))
+}
+
+fn fit_known_here(
     plan: &Plan,
     opts: &FitOptions,
     seq: &KnownSequence,
@@ -366,7 +395,7 @@ fn finish(
     let p_guess: usize = sr.fits.iter().map(|g| search::n_params(&g.chain)).sum();
     let s2_ols = rss / (n as f64 - p_guess as f64).max(1.0);
     let problem = st.problem(s, v, sr.sigma_pen);
-    let cov = covariance::Covariance::of_groups(&sr.fits, &problem, &gamma, s2_ols);
+    let cov = covariance::Covariance::of_groups(&sr.fits, &problem, &gamma, s2_ols, st.threads);
     let dof = (n as f64 - cov.p_free as f64).max(1.0);
     let cx = elements::Context {
         chain,

@@ -167,9 +167,18 @@ impl Chain {
     pub fn versine_linear(&self, s: f64, a: f64) -> f64 {
         // Ramps are ordered: those wholly behind the chord contribute
         // dk·a²/2 each, i.e. the level reached; those ahead contribute nothing.
-        let j_lo = (0..self.ramps())
-            .position(|j| self.ramp_end(j) + a > s)
-            .unwrap_or(self.ramps());
+        // The first ramp not wholly behind, by bisection (the fit keeps the
+        // knots ordered), so that a long route costs log(ramps) per reading.
+        let (mut lo, mut hi) = (0, self.ramps());
+        while lo < hi {
+            let mid = lo + (hi - lo) / 2;
+            if self.ramp_end(mid) + a > s {
+                hi = mid;
+            } else {
+                lo = mid + 1;
+            }
+        }
+        let j_lo = lo;
         let mut v = self.levels[j_lo].value() * 0.5 * a * a;
         for j in j_lo..self.ramps() {
             let b = self.ramp_start(j);

@@ -205,6 +205,56 @@ pub struct FitResult {
     pub(super) centre_knots: Vec<(f64, f64, f64)>,
 }
 
+/// [`Chain::curvature`] at increasing chainages, in time linear in the
+/// ramps and the chainages together (a route's knot table would otherwise
+/// cost the square of its ramps). The same sums in the same order: the ramps
+/// wholly behind (a prefix, the knots being ordered), then the one under way;
+/// the ramps ahead add exact zeros there.
+struct CurvatureSweep<'a> {
+    c: &'a Chain,
+    /// Ramps wholly behind the last chainage asked for.
+    behind: usize,
+    /// The curvature once they are all passed.
+    k_behind: f64,
+}
+
+impl<'a> CurvatureSweep<'a> {
+    fn new(c: &'a Chain) -> Self {
+        CurvatureSweep {
+            c,
+            behind: 0,
+            k_behind: c.levels[0].value(),
+        }
+    }
+    fn dk(&self, j: usize) -> f64 {
+        self.c.levels[j + 1].value() - self.c.levels[j].value()
+    }
+    /// Curvature at `s`, not below any chainage asked for before.
+    fn at(&mut self, s: f64) -> f64 {
+        let c = self.c;
+        // Wholly behind as `Chain::curvature` decides it: past the start, at
+        // or past the end.
+        while self.behind < c.ramps() && {
+            let b = c.ramp_start(self.behind);
+            s > b && s >= b + c.lens[self.behind]
+        } {
+            self.k_behind += self.dk(self.behind) * 1.0;
+            self.behind += 1;
+        }
+        let mut k = self.k_behind;
+        for j in self.behind..c.ramps() {
+            let b = c.ramp_start(j);
+            if s <= b {
+                break;
+            }
+            let l = c.lens[j];
+            let r = if s >= b + l { 1.0 } else { (s - b) / l };
+            k += self.dk(j) * r;
+        }
+        k
+    }
+}
+
 /// The knot table of [`FitResult::centre_distance`]: the centreline distance
 /// `∫(1 + d k(u)) du` from `s0` at every ramp end, with `k` piecewise linear
 /// between knots (exact).
@@ -219,8 +269,9 @@ pub(super) fn centre_knots(c: &Chain, s0: f64, d: f64) -> Vec<(f64, f64, f64)> {
     let mut out = Vec::with_capacity(xs.len());
     let mut acc = 0.0;
     let mut prev: Option<(f64, f64)> = None;
+    let mut sweep = CurvatureSweep::new(c);
     for x in xs {
-        let k = c.curvature(x);
+        let k = sweep.at(x);
         if let Some((x0, k0)) = prev {
             acc += (x - x0) * (1.0 + d * 0.5 * (k0 + k));
         }
@@ -337,6 +388,35 @@ impl FitResult {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn the_curvature_sweep_is_the_chain_curvature_exactly() {
+        use super::super::model::Level;
+        // Straight, transition, arc, transition, straight, a step to an arc
+        // (a held zero-length ramp), transition to straight.
+        let chain = Chain {
+            levels: vec![
+                Level::Zero,
+                Level::Free(1.0 / 480.0),
+                Level::Zero,
+                Level::Free(-1.0 / 620.0),
+                Level::Zero,
+            ],
+            mids: vec![130.0, 370.0, 500.0, 640.0],
+            lens: vec![60.0, 40.0, 0.0, 55.5],
+            held: vec![false, false, true, false],
+            joined: vec![false; 5],
+        };
+        let mut sweep = CurvatureSweep::new(&chain);
+        for i in 0..=8000 {
+            let s = -10.0 + 0.1 * f64::from(i);
+            assert_eq!(
+                sweep.at(s).to_bits(),
+                chain.curvature(s).to_bits(),
+                "at {s}"
+            );
+        }
+    }
 
     #[test]
     fn a_bound_never_panics_and_says_when_it_cut() {

@@ -335,43 +335,28 @@ pub(super) fn simplify(sub: &mut Chain, out: &mut lm::Outcome, data: &lm::Data, 
 
 /// Below this many readings the groups are fitted on one thread: threads
 /// cost more than they save on a hand survey.
-const PARALLEL_MIN_READINGS: usize = 20_000;
+pub(super) const PARALLEL_MIN_READINGS: usize = 20_000;
 
-/// Fit every group, on `threads` threads for long surveys (results in order
-/// and independent of the thread count).
+/// Fit every group, in parallel on the current rayon pool for long surveys
+/// unless `threads` is 1 (results in order and independent of the thread
+/// count: each group is fitted alone).
 pub(super) fn fit_groups(
     chain: &Chain,
     groups: &[(usize, usize)],
     p: &Problem,
     threads: usize,
 ) -> Vec<GroupFit> {
-    let threads = threads.max(1).min(groups.len());
-    if threads <= 1 || p.s.len() < PARALLEL_MIN_READINGS {
+    use rayon::prelude::*;
+    if threads <= 1 || groups.len() < 2 || p.s.len() < PARALLEL_MIN_READINGS {
         return groups.iter().map(|&g| fit_group(chain, g, p)).collect();
     }
-    // Interleave the curves over the threads (neighbouring curves are
-    // often alike in cost), then put the results back in order.
-    let mut done: Vec<(usize, GroupFit)> = std::thread::scope(|sc| {
-        let handles: Vec<_> = (0..threads)
-            .map(|k| {
-                sc.spawn(move || {
-                    (k..groups.len())
-                        .step_by(threads)
-                        .map(|i| (i, fit_group(chain, groups[i], p)))
-                        .collect::<Vec<_>>()
-                })
-            })
-            .collect();
-        handles
-            .into_iter()
-            .flat_map(|h| match h.join() {
-                Ok(v) => v,
-                Err(e) => std::panic::resume_unwind(e),
-            })
-            .collect()
-    });
-    done.sort_by_key(|x| x.0);
-    done.into_iter().map(|x| x.1).collect()
+    // One group per task: neighbouring curves differ in cost, and the pool
+    // balances them by stealing.
+    groups
+        .par_iter()
+        .with_max_len(1)
+        .map(|&g| fit_group(chain, g, p))
+        .collect()
 }
 
 /// A ramp the fit shrank below this (m) is a step: it is held at zero length.

@@ -20,6 +20,7 @@
 use super::banded::BandedLsq;
 use crate::chord::curvature_from_versine;
 use crate::survey::Marking;
+use rayon::prelude::*;
 
 /// A knot grid with curvature values.
 #[derive(Debug, Clone)]
@@ -194,8 +195,24 @@ fn solve_rows(rows: &Rows, rho: f64) -> Option<(Vec<f64>, f64)> {
     Some((k, chi2))
 }
 
-/// Solve the whole survey once, building each row as it is fed (no cache:
-/// O(n w) memory would be needless for a million readings).
+/// Readings per chunk of [`solve`]: the rows of one chunk are built while the
+/// previous chunk's are fed to the factorisation.
+const SOLVE_CHUNK: usize = 8192;
+
+/// The rows of a chunk of readings: first column, coefficients (over σ)
+/// and right-hand side, in reading order.
+#[derive(Default)]
+struct ChunkRows {
+    first: Vec<usize>,
+    len: Vec<usize>,
+    coef: Vec<f64>,
+    y: Vec<f64>,
+}
+
+/// Solve the whole survey once, in chunks of readings: the next chunk's
+/// rows are built (on another thread when the pool has one) while the
+/// factorisation takes the current one, so memory stays at two chunks and
+/// the result is the same as feeding the rows one by one.
 pub(crate) fn solve(
     s: &[f64],
     v: &[Option<f64>],
@@ -206,18 +223,41 @@ pub(crate) fn solve(
 ) -> Option<KnotCurve> {
     let (t0, nk, w) = grid(s, a, h)?;
     let mut lsq = BandedLsq::new(nk, w);
-    let mut row = Vec::with_capacity(w);
     let inv = 1.0 / sigma;
     let mut next = 0;
-    for (si, vi) in s.iter().zip(v) {
-        let Some(vi) = vi else { continue };
-        let jf = kernel_row(*si, a, t0, h, nk, &mut row);
-        add_penalty(&mut lsq, &mut next, nk, Some(jf), rho);
-        for c in row.iter_mut() {
-            *c *= inv;
+    let build = |lo: usize| {
+        let hi = (lo + SOLVE_CHUNK).min(s.len());
+        let mut c = ChunkRows::default();
+        let mut row = Vec::with_capacity(w);
+        for (si, vi) in s[lo..hi].iter().zip(&v[lo..hi]) {
+            let Some(vi) = vi else { continue };
+            let jf = kernel_row(*si, a, t0, h, nk, &mut row);
+            for x in row.iter_mut() {
+                *x *= inv;
+            }
+            c.first.push(jf);
+            c.len.push(row.len());
+            c.coef.extend_from_slice(&row);
+            c.y.push(vi * inv);
         }
-        lsq.add_row(jf, &row, vi * inv);
+        c
+    };
+    let mut feed = |c: &ChunkRows, lsq: &mut BandedLsq| {
+        let mut at = 0;
+        for ((&jf, &len), &y) in c.first.iter().zip(&c.len).zip(&c.y) {
+            add_penalty(lsq, &mut next, nk, Some(jf), rho);
+            lsq.add_row(jf, &c.coef[at..at + len], y);
+            at += len;
+        }
+    };
+    let mut cur = build(0);
+    let mut lo = SOLVE_CHUNK;
+    while lo < s.len() {
+        let (following, ()) = rayon::join(|| build(lo), || feed(&cur, &mut lsq));
+        cur = following;
+        lo += SOLVE_CHUNK;
     }
+    feed(&cur, &mut lsq);
     add_penalty(&mut lsq, &mut next, nk, None, rho);
     let k = lsq.solve()?;
     Some(KnotCurve { t0, h, k })
@@ -247,17 +287,22 @@ pub(crate) fn fit(
             })
             .collect()
     };
+    // The windows are independent: on the pool's threads, summed in order.
     let rows: Vec<Rows> = windows
-        .iter()
+        .par_iter()
         .map(|&(lo, hi)| build_rows(&s[lo..hi], &v[lo..hi], a, h, sigma))
         .collect::<Option<_>>()?;
     let nvalid: usize = rows.iter().map(|r| r.y.len()).sum();
     let scale = a * h / sigma;
     let chi2 = |p: f64| -> Option<f64> {
         let rho = 10f64.powf(p) * scale;
+        let each: Vec<f64> = rows
+            .par_iter()
+            .map(|r| solve_rows(r, rho).map(|x| x.1))
+            .collect::<Option<_>>()?;
         let mut tot = 0.0;
-        for r in &rows {
-            tot += solve_rows(r, rho)?.1;
+        for c in each {
+            tot += c;
         }
         Some(tot)
     };

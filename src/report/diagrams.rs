@@ -18,29 +18,55 @@ const LIMIT: Style = Style::new(BLACK, Pattern::DotDash, 1.2);
 /// A chainage range shown, chart units; `None`: the whole survey.
 pub(super) type Range = Option<(f64, f64)>;
 
-/// Builds the diagrams of one report; numbers them so that every SVG id is
-/// unique in the page.
-pub(super) struct Diagrams<'a> {
-    r: &'a Results,
+/// The element strips drawn above the chainage charts (with and without
+/// joint chainages), built once per report and shared by its diagrams.
+pub(super) struct Strips {
     strip: Option<Strip>,
     labelled: Option<Strip>,
-    next: Cell<usize>,
 }
 
-impl<'a> Diagrams<'a> {
-    pub(super) fn new(r: &'a Results) -> Self {
+impl Strips {
+    pub(super) fn new(r: &Results) -> Self {
         let u = r.survey.chainage_unit;
         let strip = r.fit.as_ref().map(|f| Strip::from_fit(f, u));
         let labelled = strip.clone().map(|mut s| {
             s.label_joints = true;
             s
         });
+        Strips { strip, labelled }
+    }
+}
+
+/// Builds diagrams of one report; numbers them from a given first id so
+/// that every SVG id is unique in the page, also when the sections of a long
+/// survey are drawn at the same time (each from its own first id).
+pub(super) struct Diagrams<'a> {
+    r: &'a Results,
+    strip: Option<&'a Strip>,
+    labelled: Option<&'a Strip>,
+    next: Cell<usize>,
+}
+
+impl<'a> Diagrams<'a> {
+    /// Diagrams numbered from `first + 1`.
+    pub(super) fn new(r: &'a Results, strips: &'a Strips, first: usize) -> Self {
         Diagrams {
             r,
-            strip,
-            labelled,
-            next: Cell::new(0),
+            strip: strips.strip.as_ref(),
+            labelled: strips.labelled.as_ref(),
+            next: Cell::new(first),
         }
+    }
+
+    /// The number of the last diagram made (the first id of what follows).
+    pub(super) fn last_id(&self) -> usize {
+        self.next.get()
+    }
+
+    /// Diagrams one chainage range has: versines, curvature, and the
+    /// residuals and slews when there are a design and slews.
+    pub(super) fn per_range(&self) -> usize {
+        2 + usize::from(self.r.design.is_some()) + usize::from(self.r.slews.is_some())
     }
 
     fn ch(&self, metres: f64) -> f64 {
@@ -55,6 +81,12 @@ impl<'a> Diagrams<'a> {
         self.r.survey.chainage_unit.versine_unit().suffix()
     }
 
+    /// The indices of the stations a chart of `range` draws (see [`window`]).
+    fn stations_in(&self, range: Range) -> std::ops::Range<usize> {
+        let st = &self.r.plan.stations;
+        window(st.len(), |i| self.ch(st[i].chainage), range)
+    }
+
     /// A chainage chart with the element strip; joint chainages written
     /// when `label_joints`.
     fn chart(&self, title: String, y_label: String, range: Range, label_joints: bool) -> Chart<'_> {
@@ -66,9 +98,9 @@ impl<'a> Diagrams<'a> {
             x_label: format!("chainage ({})", self.r.survey.chainage_unit.suffix()),
             y_label,
             strip: if label_joints {
-                self.labelled.as_ref()
+                self.labelled
             } else {
-                self.strip.as_ref()
+                self.strip
             },
             x_range: range,
             ..Default::default()
@@ -78,7 +110,8 @@ impl<'a> Diagrams<'a> {
     /// Measured and design versines; an `overview` (a long survey drawn
     /// whole) has the measured line only and no joint chainages.
     pub(super) fn versines(&self, range: Range, overview: bool) -> String {
-        let st = &self.r.plan.stations;
+        let w = self.stations_in(range);
+        let st = &self.r.plan.stations[w.clone()];
         let mut c = self.chart(
             "Versines".into(),
             format!("versine ({}), + = rail bows away from wire", self.vs()),
@@ -103,7 +136,7 @@ impl<'a> Diagrams<'a> {
                 name: "design (fitted elements)".into(),
                 points: st
                     .iter()
-                    .zip(d)
+                    .zip(&d[w.clone()])
                     .map(|(s, d)| (self.ch(s.chainage), self.v(d.design_versine)))
                     .collect(),
                 style: DESIGN,
@@ -118,7 +151,7 @@ impl<'a> Diagrams<'a> {
         let u = self.r.survey.chainage_unit;
         // 1/km or 1/(1000 ft): curvature per thousand chainage units.
         let per = 1000.0 * u.metres();
-        let st = &self.r.plan.stations;
+        let st = &self.r.plan.stations[self.stations_in(range)];
         let mut c = self.chart(
             "Curvature of the centreline".into(),
             match u {
@@ -163,7 +196,8 @@ impl<'a> Diagrams<'a> {
     /// Residuals (measured − design) with ± 2 reading sd.
     pub(super) fn residuals(&self, range: Range) -> Option<String> {
         let (_, d) = self.r.design.as_ref()?;
-        let st = &self.r.plan.stations;
+        let w = self.stations_in(range);
+        let st = &self.r.plan.stations[w.clone()];
         let mut c = self.chart(
             "Residuals: measured − design".into(),
             format!("residual ({})", self.vs()),
@@ -174,7 +208,7 @@ impl<'a> Diagrams<'a> {
             name: "residual".into(),
             points: st
                 .iter()
-                .zip(d)
+                .zip(&d[w])
                 .map(|(s, d)| {
                     (
                         self.ch(s.chainage),
@@ -201,9 +235,11 @@ impl<'a> Diagrams<'a> {
         let sl = self.r.slews.as_ref()?;
         let vs = self.vs();
         let in_range = |c: f64| range.is_none_or(|(a, b)| c >= a && c <= b);
+        let w = window(sl.chainage.len(), |i| self.ch(sl.chainage[i]), range);
+        let (chainage, slew, sd) = (&sl.chainage[w.clone()], &sl.slew[w.clone()], &sl.sd[w]);
         let mut biggest = 0.0_f64;
         let mut band_reach = 0.0_f64;
-        for ((&c, &s), &sd) in sl.chainage.iter().zip(&sl.slew).zip(&sl.sd) {
+        for ((&c, &s), &sd) in chainage.iter().zip(slew).zip(sd) {
             if in_range(self.ch(c)) {
                 biggest = biggest.max(self.v(s.abs()));
                 band_reach = band_reach.max(self.v(s.abs() + 2.0 * sd));
@@ -220,21 +256,19 @@ impl<'a> Diagrams<'a> {
         c.y_range = Some((-top, top));
         c.bands.push(Band {
             name: "± 2 sd".into(),
-            points: sl
-                .chainage
+            points: chainage
                 .iter()
-                .zip(&sl.slew)
-                .zip(&sl.sd)
+                .zip(slew)
+                .zip(sd)
                 .map(|((&ch, &s), &sd)| (self.ch(ch), self.v(s - 2.0 * sd), self.v(s + 2.0 * sd)))
                 .collect(),
             colour: GREY,
         });
         c.series.push(Series {
             name: "slew".into(),
-            points: sl
-                .chainage
+            points: chainage
                 .iter()
-                .zip(&sl.slew)
+                .zip(slew)
                 .map(|(&ch, &s)| (self.ch(ch), self.v(s)))
                 .collect(),
             style: Style::new(BLUE, Pattern::Solid, 1.8),
@@ -250,10 +284,9 @@ impl<'a> Diagrams<'a> {
             // The stretches beyond the limit, drawn as a thick line under the slew.
             let over = sl.exceeding();
             if !over.is_empty() {
-                let points = sl
-                    .chainage
+                let points = chainage
                     .iter()
-                    .zip(&sl.slew)
+                    .zip(slew)
                     .map(|(&ch, &s)| {
                         let y = if s.abs() > sl.max_slew.unwrap_or(f64::INFINITY) {
                             self.v(s)
@@ -461,6 +494,38 @@ impl<'a> Diagrams<'a> {
             "Control points at their given positions; their residuals are zero at this drawing's precision.".into()
         })
     }
+}
+
+/// The indices `0..n` of the points, at increasing chart x `x(i)`, that a
+/// chart of `range` draws: those inside it plus one neighbour on each side
+/// (as the chart's own clipping keeps), so that a section of a long survey
+/// costs its own length, not the survey's. `None`: all of them.
+fn window(n: usize, x: impl Fn(usize) -> f64, range: Range) -> std::ops::Range<usize> {
+    let Some((x0, x1)) = range else {
+        return 0..n;
+    };
+    let first = partition(n, |i| x(i) < x0);
+    let past = partition(n, |i| x(i) <= x1);
+    if first < past {
+        first.saturating_sub(1)..(past + 1).min(n)
+    } else {
+        0..0
+    }
+}
+
+/// The first index in `0..n` where `before` turns false (it is true on a
+/// prefix and false after).
+fn partition(n: usize, before: impl Fn(usize) -> bool) -> usize {
+    let (mut lo, mut hi) = (0, n);
+    while lo < hi {
+        let mid = lo + (hi - lo) / 2;
+        if before(mid) {
+            lo = mid + 1;
+        } else {
+            hi = mid;
+        }
+    }
+    lo
 }
 
 /// The largest 1, 2 or 5 times a power of ten not above `x` (x > 0).

@@ -10,12 +10,14 @@
 //! section of a long survey on a new page.
 
 use super::RunRecord;
-use super::diagrams::{Diagrams, Range};
+use super::diagrams::{Diagrams, Range, Strips};
 use super::sections::{Section, sections};
 use super::svg::esc;
 use super::tables;
 use crate::results::Results;
+use rayon::prelude::*;
 use std::fmt::Write as _;
+use std::io;
 
 const CSS: &str = "*{box-sizing:border-box}\
 body{margin:0;background:#fff;color:#1b1b1b;font-family:sans-serif;font-size:16px;line-height:1.45}\
@@ -77,7 +79,20 @@ fn along_track(h: &mut String, d: &Diagrams<'_>, range: Range) {
     }
 }
 
-fn sectioned(h: &mut String, d: &Diagrams<'_>, parts: &[Section], lu: &str) {
+/// Sections drawn at a time (on the pool's threads), then written in order:
+/// the report of a long survey is never held whole.
+const SECTION_BATCH: usize = 32;
+
+/// A long survey: the overview, then its sections, each written to `w` as
+/// it is drawn (`h`, the text so far, first). Returns the last diagram id.
+fn sectioned(
+    w: &mut dyn io::Write,
+    h: &mut String,
+    (r, strips, first): (&Results, &Strips, usize),
+    parts: &[Section],
+    lu: &str,
+) -> io::Result<usize> {
+    let d = Diagrams::new(r, strips, first);
     let _ = writeln!(
         h,
         "<p>The survey is long, so it is drawn whole first (an overview) and then in {} sections of about 2 km, each on its own page when printed.</p>",
@@ -91,9 +106,14 @@ fn sectioned(h: &mut String, d: &Diagrams<'_>, parts: &[Section], lu: &str) {
         let _ = write!(h, "<a href=\"#s{}\">{:.0}–{:.0}</a> ", i + 1, s.from, s.to);
     }
     h.push_str("</nav>\n");
-    for (i, s) in parts.iter().enumerate() {
+    w.write_all(h.as_bytes())?;
+    h.clear();
+    let (start, per) = (d.last_id(), d.per_range());
+    let one = |i: usize, s: &Section| {
+        let d = Diagrams::new(r, strips, start + i * per);
+        let mut t = String::new();
         let _ = writeln!(
-            h,
+            t,
             "<section class=\"part\" id=\"s{}\"><h3>Section {} of {}: {:.1} to {:.1} {lu}</h3>",
             i + 1,
             i + 1,
@@ -101,9 +121,22 @@ fn sectioned(h: &mut String, d: &Diagrams<'_>, parts: &[Section], lu: &str) {
             s.from,
             s.to
         );
-        along_track(h, d, Some((s.from, s.to)));
-        h.push_str("</section>\n");
+        along_track(&mut t, &d, Some((s.from, s.to)));
+        t.push_str("</section>\n");
+        debug_assert_eq!(d.last_id(), start + (i + 1) * per);
+        t
+    };
+    for (b, batch) in parts.chunks(SECTION_BATCH).enumerate() {
+        let texts: Vec<String> = batch
+            .par_iter()
+            .enumerate()
+            .map(|(k, s)| one(b * SECTION_BATCH + k, s))
+            .collect();
+        for t in texts {
+            w.write_all(t.as_bytes())?;
+        }
     }
+    Ok(start + parts.len() * per)
 }
 
 fn head(h: &mut String, r: &Results, rec: &RunRecord) {
@@ -131,6 +164,19 @@ an element marked indeterminate could not be resolved by the data.</p>\n",
 /// The report as HTML text. `rec` says how the run came about (command,
 /// date, the survey file's header comments).
 pub fn html_report(r: &Results, rec: &RunRecord) -> String {
+    let mut out = Vec::new();
+    // Writing to memory cannot fail, and only text is written.
+    let _ = write_html_report(&mut out, r, rec);
+    String::from_utf8(out).unwrap_or_default()
+}
+
+/// Write the report (as [`html_report`]) to `w` piece by piece: a long
+/// survey's sections are drawn a batch at a time and written in order, so
+/// the whole report is never in memory.
+///
+/// # Errors
+/// An I/O error from `w`.
+pub fn write_html_report(w: &mut dyn io::Write, r: &Results, rec: &RunRecord) -> io::Result<()> {
     let u = r.survey.chainage_unit;
     let lu = u.suffix();
     let mut h = String::new();
@@ -158,18 +204,21 @@ pub fn html_report(r: &Results, rec: &RunRecord) -> String {
     }
     h.push_str("</nav>\n");
     let _ = write!(h, "<h2 id=\"summary\">Summary</h2>\n{}", tables::summary(r));
-    let d = Diagrams::new(r);
+    let strips = Strips::new(r);
     h.push_str("<h2 id=\"track\">Along the track</h2>\n<p class=\"note\">Above each diagram: the fitted elements with their radius and length (as many words as there is room for; the element table has them all). Through it: arcs shaded, transitions hatched, each joint a line inside its grey 95&nbsp;% interval.</p>\n");
     let st = &r.plan.stations;
     let parts = match (st.first(), st.last()) {
         (Some(a), Some(b)) => sections(u.from_m(a.chainage), u.from_m(b.chainage), u),
         _ => Vec::new(),
     };
-    if parts.is_empty() {
+    let first = if parts.is_empty() {
+        let d = Diagrams::new(r, &strips, 0);
         along_track(&mut h, &d, None);
+        d.last_id()
     } else {
-        sectioned(&mut h, &d, &parts, lu);
-    }
+        sectioned(w, &mut h, (r, &strips, 0), &parts, lu)?
+    };
+    let d = Diagrams::new(r, &strips, first);
     if let Some(f) = &r.fit {
         let _ = write!(
             h,
@@ -213,5 +262,5 @@ pub fn html_report(r: &Results, rec: &RunRecord) -> String {
         "<footer>chordline {}. Chainages along the measured rail, lengths and radii of the centreline; curvature and radius positive curving left.</footer>\n</main></body></html>\n",
         env!("CARGO_PKG_VERSION")
     );
-    h
+    w.write_all(h.as_bytes())
 }

@@ -14,7 +14,7 @@ mod tables;
 mod units_text;
 
 pub use advice_text::advice_text;
-pub use html::html_report;
+pub use html::{html_report, write_html_report};
 pub use units_text::{in_feet, localise_diagnostics};
 
 use crate::diag::Severity;
