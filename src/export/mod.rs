@@ -4,7 +4,7 @@
 pub mod advice;
 /// `controls.csv`: the verdict on each control point.
 pub mod controls;
-/// `elements.csv`: the fitted elements, and the terminal element table.
+/// `elements.csv`: the fitted elements.
 pub mod elements;
 /// `alignment.geojson`: the placed survey as RFC 7946 GeoJSON.
 pub mod geojson;

@@ -1,8 +1,8 @@
 //! One file written beside its destination under a hidden temporary name and
-//! renamed into place only by [`StagedFile::commit`]; dropped uncommitted,
+//! renamed into place only by [`StagedFile::commit`](crate::export::staged_file::StagedFile::commit); dropped uncommitted,
 //! the temporary file is removed. Staging every file of a command before
 //! committing any means a failure leaves none of them half-written (the
-//! single-file sibling of [`super::output_dir::OutputDir`]).
+//! single-file sibling of [`OutputDir`](crate::export::output_dir::OutputDir)).
 
 use std::io::Write;
 use std::path::{Path, PathBuf};
