@@ -61,6 +61,12 @@ pub(crate) struct Context<'a> {
 }
 
 impl Context<'_> {
+    /// An error at the chainage cell of `line`.
+    fn chainage_error(&self, line: usize, kind: SurveyErrorKind) -> SurveyError {
+        let col = self.cols.chainage;
+        SurveyError::cell(self.file, line, self.cols.name(col), col + 1, kind)
+    }
+
     fn loc(&self, line: usize, field: Option<usize>) -> Location {
         Location {
             file: self.file.to_string(),
@@ -326,15 +332,7 @@ fn gap_too_long(ctx: &Context<'_>, r: &[Reading], i: usize) -> SurveyError {
         fmt_num(MAX_GAP_CHORDS)
     );
     let todo = "nothing measured bridges a gap that long: if it is a typing error, correct the chainage; otherwise split the file there and run each part".into();
-    let cols = ctx.cols;
-    let kind = SurveyErrorKind::GapTooLong { what, todo };
-    SurveyError::cell(
-        ctx.file,
-        r[i].line,
-        cols.name(cols.chainage),
-        cols.chainage + 1,
-        kind,
-    )
+    ctx.chainage_error(r[i].line, SurveyErrorKind::GapTooLong { what, todo })
 }
 
 /// A step of `x` nominal spacings, off the regular pattern.
@@ -351,15 +349,7 @@ fn spacing_break(ctx: &Context<'_>, r: &[Reading], i: usize, x: f64, s_nom: f64)
         fmt_num((x * 100.0).round() / 100.0),
         ctx.len(s_nom)
     );
-    let cols = ctx.cols;
-    let kind = SurveyErrorKind::SpacingBreak { what, todo };
-    SurveyError::cell(
-        ctx.file,
-        r[i].line,
-        cols.name(cols.chainage),
-        cols.chainage + 1,
-        kind,
-    )
+    ctx.chainage_error(r[i].line, SurveyErrorKind::SpacingBreak { what, todo })
 }
 
 /// One warning for the steps off the pattern by more than 1 %, at the worst.
