@@ -27,6 +27,11 @@ use super::search::{Problem, SCREEN_ITERATIONS, SCREEN_MARGIN, simplify};
 const MAX_CANDIDATES: usize = 4;
 /// Most growth rounds per group.
 const MAX_ROUNDS: usize = 40;
+/// Most trial fits per group, over all rounds: a deterministic work limit, so
+/// that readings with structure everywhere (random curvature, a survey of
+/// something that is not track) cannot keep the search busy for minutes; the
+/// design classes of the benchmark stay well inside it.
+const MAX_TRIAL_FITS: usize = 400;
 /// Lengths of an inserted arc or straight, in chords.
 const BUMP_CHORDS: [f64; 3] = [0.5, 1.0, 2.0];
 /// Starting length of the transitions of a trial with free transitions, in
@@ -46,7 +51,11 @@ const MIN_SPAN: f64 = 1.0;
 /// Alternate growth and simplification until neither changes the chain.
 pub(super) fn grow(sub: &mut Chain, out: &mut lm::Outcome, data: &lm::Data, p: &Problem) {
     let margin = SCREEN_MARGIN * p.ln_n.max(1.0);
+    let mut fits = 0usize;
     for _ in 0..MAX_ROUNDS {
+        if fits >= MAX_TRIAL_FITS {
+            return;
+        }
         let mut tried = swaps(sub, data, p.chord);
         for x in candidates(sub, data, p) {
             tried.extend(trials(sub, x, data, p.chord));
@@ -56,7 +65,8 @@ pub(super) fn grow(sub: &mut Chain, out: &mut lm::Outcome, data: &lm::Data, p: &
         }
         let bic0 = p.bic(out, sub);
         let mut best: Option<(f64, Chain, lm::Outcome)> = None;
-        for mut c2 in tried {
+        for mut c2 in tried.into_iter().take(MAX_TRIAL_FITS.saturating_sub(fits)) {
+            fits += 1;
             // A short fit first; only promising trials get a full one.
             let mut o2 = lm::fit(&mut c2, data, SCREEN_ITERATIONS);
             if p.bic(&o2, &c2) > bic0 + margin {
