@@ -368,7 +368,7 @@ pub fn run(
     let unit = survey.chainage_unit;
     let mut results = process(survey, opts).map_err(|e| e.in_survey_units(unit))?;
     // The stages word their figures in SI; the reader already in the file's units.
-    crate::report::localise_diagnostics(&mut results.diagnostics, results.survey.chainage_unit);
+    crate::report::localise_diagnostics(&mut results.diagnostics, unit);
     diags.extend(dir.notes().iter().map(Diagnostic::note));
     diags.append(&mut results.diagnostics);
     results.diagnostics = diags;

@@ -187,9 +187,8 @@ pub(super) fn quiet_sigma(v: &[f64]) -> f64 {
     if d.len() < 8 {
         return 0.0;
     }
-    let k = ((d.len() as f64 * QUIET_SHARE) as usize).min(d.len() - 1);
-    let (_, q, _) = d.select_nth_unstable_by(k, f64::total_cmp);
-    *q / QUIET_QUANTILE / 20f64.sqrt()
+    let k = (d.len() as f64 * QUIET_SHARE) as usize;
+    crate::numeric::order_statistic(&mut d, k).unwrap_or(0.0) / QUIET_QUANTILE / 20f64.sqrt()
 }
 
 /// Third differences of white noise have variance `20σ²`; their squares

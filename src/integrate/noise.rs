@@ -135,7 +135,8 @@ pub fn trimmed_sigma(x: &[f64]) -> Option<f64> {
     let mut sq: Vec<f64> = x.iter().map(|v| v * v).collect();
     let keep = ((sq.len() as f64 * TRIM_KEEP).round() as usize).clamp(1, sq.len());
     if keep < sq.len() {
-        sq.select_nth_unstable_by(keep - 1, f64::total_cmp);
+        // Puts the `keep` smallest first (the value itself is not needed).
+        crate::numeric::order_statistic(&mut sq, keep - 1);
     }
     let ms = sq[..keep].iter().sum::<f64>() / keep as f64;
     Some((ms / TRIM_MEAN_SQUARE).sqrt())
