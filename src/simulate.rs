@@ -302,6 +302,13 @@ fn check_setup(s: &SimSetup) -> Result<(), SimulateError> {
             return Err(SimulateError::NotPositive { what, value });
         }
     }
+    let widest = crate::survey::Setup::GAUGE_RANGE.1;
+    if s.gauge > widest {
+        return Err(SimulateError::GaugeTooWide {
+            value: SimLength::small(s.gauge, u),
+            widest: SimLength::small(widest, u),
+        });
+    }
     for (what, value) in [
         ("the reading noise", s.noise_sd),
         ("the resolution", s.resolution),

@@ -1,5 +1,6 @@
 //! Small helpers shared by the commands.
 
+use chordline::survey::Setup;
 use chordline::units::{LengthUnit, length_unit_of, split_unit};
 
 use std::path::Path;
@@ -53,16 +54,11 @@ fn non_finite(s: &str, what: &str) -> Result<(), String> {
     }
 }
 
-/// The narrowest and widest track gauges accepted (metres): 381 mm (15 in,
-/// the narrowest minimum-gauge railways) to 1676 mm (the broad gauge of India,
-/// the widest in wide use), with room for tolerances. From memory; common
-/// practice, not a standard.
-const GAUGE_RANGE: (f64, f64) = (0.35, 1.75);
-
 /// Parse `--gauge`: a length with unit within the range of real track gauges.
 pub fn gauge(s: &str) -> Result<f64, String> {
     let g = small_length(s)?;
-    if !(GAUGE_RANGE.0..=GAUGE_RANGE.1).contains(&g) {
+    let (narrowest, widest) = Setup::GAUGE_RANGE;
+    if !(narrowest..=widest).contains(&g) {
         return Err(format!(
             "'{s}' is not a track gauge: gauges run from about 381 mm (15 in) to 1676 mm (5 ft 6 in); give the distance between the running edges of the rails, e.g. 1435mm (standard gauge) or 1000mm"
         ));

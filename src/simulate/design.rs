@@ -430,7 +430,7 @@ impl Reader<'_> {
             chord,
             spacing: len(1, 0.5 * chord)?,
             rail,
-            gauge: len(2, crate::survey::Setup::STANDARD_GAUGE)?,
+            gauge: self.gauge(len(2, crate::survey::Setup::STANDARD_GAUGE)?, units)?,
             marking,
             noise_sd: len(3, 0.0)?,
             bias: len(4, 0.0)?,
@@ -441,6 +441,19 @@ impl Reader<'_> {
             chainage_unit: units.long(),
             versine_unit: units.long().versine_unit(),
         })
+    }
+
+    /// The gauge (metres) if it is one of real track, else the error naming
+    /// the key.
+    fn gauge(&self, gauge: f64, units: Units) -> Result<f64, DesignError> {
+        let (narrowest, widest) = crate::survey::Setup::GAUGE_RANGE;
+        if (narrowest..=widest).contains(&gauge) {
+            return Ok(gauge);
+        }
+        Err(self.bad(
+            LENGTH_KEYS[2].name(units),
+            "is not a track gauge: gauges run from about 381 mm (15 in) to 1676 mm (5 ft 6 in); give the distance between the running edges of the rails, e.g. 1.435 m or 56.5 in (standard gauge)".into(),
+        ))
     }
 
     /// The elements as read: kinds, lengths and arc curvatures (1/m).

@@ -69,6 +69,16 @@ pub enum SimulateError {
         /// The value given.
         value: SimLength,
     },
+    /// A gauge wider than any real track's.
+    #[error(
+        "the gauge {value} is wider than any track's (at most {widest}); give the distance between the running edges of the rails"
+    )]
+    GaugeTooWide {
+        /// The value given.
+        value: SimLength,
+        /// The widest gauge simulated.
+        widest: SimLength,
+    },
     /// The spacing does not divide the half chord.
     #[error(
         "the mark spacing {spacing} does not divide the half chord {half}; use e.g. {half}, {quarter} or {tenth}"

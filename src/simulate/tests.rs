@@ -289,3 +289,27 @@ fn simulate_errors_of_an_imperial_set_up_are_in_feet() {
         "the reading noise must be a finite length not below zero (got -1 in)"
     );
 }
+
+/// A gauge no track has is refused by name in a design file (a gauge of
+/// 10⁵⁵ in once gave non-finite readings) and by `simulate` itself.
+#[test]
+fn gauges_wider_than_any_track_are_refused() {
+    let text = r#"{"units": "imperial", "gauge_in": 4.4e55,
+        "elements": [{"kind": "transition", "length": 203.6, "radius": 0}]}"#;
+    match Design::from_json("d.json", text) {
+        Err(DesignError::Bad { place, msg, .. }) => {
+            assert_eq!(place, "gauge_in");
+            assert!(msg.contains("not a track gauge"), "{msg}");
+        }
+        other => panic!("{other:?}"),
+    }
+    let ok = r#"{"gauge_m": 1.0, "elements": [{"kind": "straight", "length": 100}]}"#;
+    assert!(Design::from_json("d.json", ok).is_ok());
+    let design = Alignment::new(Pose::default(), 0.0, vec![Element::straight(100.0)]);
+    let mut setup = SimSetup::classic(20.0, Rail::Left);
+    setup.gauge = 2.5;
+    assert!(matches!(
+        simulate(&design, &setup),
+        Err(SimulateError::GaugeTooWide { .. })
+    ));
+}

@@ -130,6 +130,12 @@ impl Setup {
     /// Standard gauge, 1435 mm between running edges (UIC / EN 13848-1 nominal, common practice).
     pub const STANDARD_GAUGE: f64 = 1.435;
 
+    /// The narrowest and widest track gauges accepted from a user (metres):
+    /// 381 mm (15 in, the narrowest minimum-gauge railways) to 1676 mm (the
+    /// broad gauge of India, the widest in wide use), with room for
+    /// tolerances. From memory; common practice, not a standard.
+    pub const GAUGE_RANGE: (f64, f64) = (0.35, 1.75);
+
     /// A set-up with standard gauge, taped marks and no stated noise.
     pub fn new(chord: f64, rail: Rail) -> Self {
         Setup {
