@@ -345,7 +345,7 @@ pub fn run(
 ) -> Result<Outcome, RunError> {
     // Refuse an unusable output folder before doing any work.
     let mut inputs = vec![survey_path];
-    inputs.extend(opts.georef.control.as_deref());
+    inputs.extend(opts.georef.control.as_ref().and_then(|c| c.path.as_deref()));
     let mut dir = OutputDir::create_for_inputs(out, force, &inputs)?;
     let ropts = ReadOptions {
         rail: opts.rail_stated.then_some(opts.setup.rail),

@@ -9,7 +9,9 @@ use common::skip;
 use std::path::Path;
 
 use chordline::geometry::heading_to_bearing;
-use chordline::georef::{GeorefArgs, LonLat, Placement, leave_one_out, prepare};
+use chordline::georef::{
+    ControlFile, GeorefArgs, LonLat, Placement, StartPoint, leave_one_out, prepare,
+};
 use chordline::integrate::{IntegrateOptions, Plan, integrate};
 use chordline::simulate::{Design, Simulated, simulate};
 use chordline::survey::Setup;
@@ -65,8 +67,8 @@ fn start_point_and_bearing_place_the_survey() {
     let t0 = sim.truth[0].centre;
     let (lon, lat) = truth_placement().to_lonlat(t0.x, t0.y);
     let args = GeorefArgs {
-        start_lonlat: Some(format!("{lon:.10},{lat:.10}")),
-        start_bearing: Some(format!("{:.10}", heading_to_bearing(t0.heading))),
+        start: Some(StartPoint::LonLat(LonLat::new(lon, lat).unwrap())),
+        start_bearing: Some(heading_to_bearing(t0.heading)),
         ..Default::default()
     };
     let g = prepare(&args, &sim.survey).unwrap().0.unwrap();
@@ -117,7 +119,7 @@ fn control_points_place_the_survey_and_catch_a_bad_one() {
     let path = dir.path().join("cp.csv");
     std::fs::write(&path, control_file(&sim, &picks, None)).unwrap();
     let args = GeorefArgs {
-        control: Some(path.clone()),
+        control: Some(ControlFile::read(&path).unwrap()),
         ..Default::default()
     };
     let g = prepare(&args, &sim.survey).unwrap().0.unwrap();
@@ -140,6 +142,10 @@ fn control_points_place_the_survey_and_catch_a_bad_one() {
 
     // Third point (line 5 of the file) 0.3 m east of the track.
     std::fs::write(&path, control_file(&sim, &picks, Some((2, 0.3)))).unwrap();
+    let args = GeorefArgs {
+        control: Some(ControlFile::read(&path).unwrap()),
+        ..Default::default()
+    };
     let g = prepare(&args, &sim.survey).unwrap().0.unwrap();
     let solve = |obs: &[chordline::integrate::PositionObs]| {
         let o = IntegrateOptions {
@@ -185,7 +191,7 @@ fn noisy_survey_with_good_control_points_raises_no_flags() {
     let path = dir.path().join("cp.csv");
     std::fs::write(&path, control_file(&sim, &picks, None)).unwrap();
     let args = GeorefArgs {
-        control: Some(path.clone()),
+        control: Some(ControlFile::read(&path).unwrap()),
         ..Default::default()
     };
     let g = prepare(&args, &sim.survey).unwrap().0.unwrap();
@@ -247,8 +253,8 @@ fn fitted_design_goes_onto_the_map_and_into_the_grid() {
     let path = dir.path().join("cp.csv");
     std::fs::write(&path, text).unwrap();
     let args = GeorefArgs {
-        control: Some(path),
-        crs: Some("EPSG:25832".into()),
+        control: Some(ControlFile::read(&path).unwrap()),
+        crs: Some("EPSG:25832".parse().unwrap()),
         ..Default::default()
     };
     let g = prepare(&args, &sim.survey).unwrap().0.unwrap();

@@ -1,6 +1,6 @@
 //! The option rules of `prepare` and what it hands to the integrator.
 
-use chordline::georef::{GeorefArgs, GeorefError, prepare};
+use chordline::georef::{ControlFile, Crs, GeorefArgs, LonLat, StartPoint, prepare};
 use chordline::survey::{Rail, Reading, Survey};
 use chordline::units::{LengthUnit, VersineUnit};
 
@@ -26,13 +26,21 @@ fn args() -> GeorefArgs {
     GeorefArgs::default()
 }
 
+fn lonlat(lon: f64, lat: f64) -> StartPoint {
+    StartPoint::LonLat(LonLat::new(lon, lat).unwrap())
+}
+
+fn grid(code: &str) -> Crs {
+    code.parse().unwrap()
+}
+
 #[test]
 fn no_placement_means_none() {
     let (g, d) = prepare(&args(), &survey()).unwrap();
     assert!(g.is_none() && d.is_empty());
     // A bearing alone only orients the local frame.
     let a = GeorefArgs {
-        start_bearing: Some("10".into()),
+        start_bearing: Some(10.0),
         ..args()
     };
     assert!(prepare(&a, &survey()).unwrap().0.is_none());
@@ -41,8 +49,8 @@ fn no_placement_means_none() {
 #[test]
 fn start_point_and_bearing() {
     let a = GeorefArgs {
-        start_lonlat: Some("9.1234,48.5678".into()),
-        start_bearing: Some("75".into()),
+        start: Some(lonlat(9.1234, 48.5678)),
+        start_bearing: Some(75.0),
         ..args()
     };
     let g = prepare(&a, &survey()).unwrap().0.unwrap();
@@ -56,9 +64,12 @@ fn start_point_and_bearing() {
 fn grid_start_goes_through_the_crs() {
     // CHECKS.md 5.10 (pyproj): UTM 32N E 574 595.1125, N 5 316 784.0092 = (10°, 48°).
     let a = GeorefArgs {
-        start_grid: Some("574595.1125,5316784.0092".into()),
-        start_bearing: Some("0".into()),
-        crs: Some("EPSG:32632".into()),
+        start: Some(StartPoint::Grid {
+            easting: 574595.1125,
+            northing: 5316784.0092,
+        }),
+        start_bearing: Some(0.0),
+        crs: Some(grid("EPSG:32632")),
         ..args()
     };
     let g = prepare(&a, &survey()).unwrap().0.unwrap();
@@ -75,61 +86,54 @@ fn grid_start_goes_through_the_crs() {
 
 #[test]
 fn option_rules_give_clear_errors() {
-    let cases: [(GeorefArgs, &str); 5] = [
+    let cases: [(GeorefArgs, &str); 4] = [
         (
             GeorefArgs {
-                start_lonlat: Some("9,48".into()),
+                start: Some(lonlat(9.0, 48.0)),
                 ..args()
             },
             "--start-bearing",
         ),
         (
             GeorefArgs {
-                crs: Some("EPSG:25832".into()),
+                crs: Some(grid("EPSG:25832")),
                 ..args()
             },
             "--crs names the grid",
         ),
         (
             GeorefArgs {
-                start_grid: Some("500000,5300000".into()),
-                start_bearing: Some("10".into()),
+                start: Some(StartPoint::Grid {
+                    easting: 500000.0,
+                    northing: 5300000.0,
+                }),
+                start_bearing: Some(10.0),
                 ..args()
             },
             "--start-grid needs --crs",
         ),
         (
             GeorefArgs {
-                start_lonlat: Some("9,48".into()),
-                start_bearing: Some("10".into()),
-                control: Some("cp.csv".into()),
+                start: Some(lonlat(9.0, 48.0)),
+                start_bearing: Some(10.0),
+                control: Some(ControlFile::from_text(
+                    "cp.csv",
+                    "id,chainage_m,lon_deg,lat_deg\nA,200,9,48\n",
+                )),
                 ..args()
             },
             "not both",
-        ),
-        (
-            GeorefArgs {
-                start_lonlat: Some("9.1234,95".into()),
-                start_bearing: Some("10".into()),
-                ..args()
-            },
-            "latitude 95",
         ),
     ];
     for (a, want) in cases {
         let e = prepare(&a, &survey()).unwrap_err().to_string();
         assert!(e.contains(want), "{e} (wanted {want})");
     }
-    let e = prepare(
-        &GeorefArgs {
-            crs: Some("EPSG:4242".into()),
-            ..args()
-        },
-        &survey(),
-    )
-    .unwrap_err();
-    assert!(matches!(e, GeorefError::Crs(_)));
-    assert!(e.to_string().contains("EPSG:4242"), "{e}");
+    // The typed values refuse what no place or grid can be, naming it.
+    let e = "9.1234,95".parse::<LonLat>().unwrap_err().to_string();
+    assert!(e.contains("latitude 95"), "{e}");
+    let e = "EPSG:4242".parse::<Crs>().unwrap_err().to_string();
+    assert!(e.contains("EPSG:4242"), "{e}");
 }
 
 #[test]
@@ -143,8 +147,8 @@ fn control_file_end_to_end_to_observations() {
     )
     .unwrap();
     let a = GeorefArgs {
-        control: Some(path.clone()),
-        crs: Some("EPSG:25832".into()),
+        control: Some(ControlFile::read(&path).unwrap()),
+        crs: Some(grid("EPSG:25832")),
         ..args()
     };
     let (g, d) = prepare(&a, &survey()).unwrap();
@@ -170,16 +174,18 @@ fn control_file_end_to_end_to_observations() {
         "id,chainage_m,easting_m,northing_m\nA,200,500000.0,5316300.0\nB,5000,500000.0,5321100.0\n",
     )
     .unwrap();
+    let a = GeorefArgs {
+        control: Some(ControlFile::read(&path).unwrap()),
+        ..a
+    };
     let e = prepare(&a, &survey()).unwrap_err().to_string();
     assert!(
         e.contains("cp.csv:3") && e.contains("outside the survey"),
         "{e}"
     );
-    // Missing file: named.
-    let a = GeorefArgs {
-        control: Some(dir.path().join("nope.csv")),
-        ..args()
-    };
-    let e = prepare(&a, &survey()).unwrap_err().to_string();
+    // Missing file: named when read.
+    let e = ControlFile::read(&dir.path().join("nope.csv"))
+        .unwrap_err()
+        .to_string();
     assert!(e.contains("nope.csv"), "{e}");
 }

@@ -5,7 +5,9 @@ use super::simulate::{MarkingArg, RailArg};
 use super::util::{ChainageArg, chainage, gauge, signed_length, small_length};
 use chordline::advice::{AdviceOptions, Limit, PROFILE_NAMES, Profile};
 use chordline::diag::Diagnostic;
-use chordline::georef::{GeorefArgs, parse_bearing};
+use chordline::georef::{
+    ControlFile, Crs, GeorefArgs, GeorefError, LonLat, StartPoint, parse_bearing, parse_grid_point,
+};
 use chordline::pipeline::{self, Options, Outcome};
 use chordline::survey::{Rail, Setup};
 use chordline::units::{Length, LengthUnit};
@@ -223,23 +225,13 @@ impl RunArgs {
         setup.gauge = self.gauge;
         setup.marking = self.marking.into();
         setup.reading_sd = self.reading_sd;
-        let start_bearing_deg = match &self.start_bearing {
-            Some(b) => parse_bearing(b).map_err(|e| Failure::Input(e.into()))?,
-            None => 0.0,
-        };
+        let georef = self.georef_args()?;
+        let start_bearing_deg = georef.start_bearing.unwrap_or(0.0);
         Ok(Options {
             setup,
             rail_stated: self.rail.is_some(),
             start_bearing_deg,
-            georef: GeorefArgs {
-                start_lonlat: self.start_lonlat.clone(),
-                start_grid: self.start_grid.clone(),
-                start_bearing: self.start_bearing.clone(),
-                crs: self.crs.clone(),
-                control: self.control.clone(),
-                height: self.height,
-                allow_outside_area: self.allow_outside_area,
-            },
+            georef,
             created: source_date_epoch(),
             slew: self.slew_options()?,
             advice: self.advice()?,
@@ -255,6 +247,44 @@ impl RunArgs {
 }
 
 impl RunArgs {
+    /// The georeferencing options parsed, and the control file read: the
+    /// pipeline's stages see values, never the words typed or a path to open.
+    fn georef_args(&self) -> Result<GeorefArgs, GeorefError> {
+        let crs = self
+            .crs
+            .as_deref()
+            .map(str::parse::<Crs>)
+            .transpose()
+            .map_err(GeorefError::Crs)?;
+        let start_bearing = self
+            .start_bearing
+            .as_deref()
+            .map(parse_bearing)
+            .transpose()?;
+        let start = match (&self.start_lonlat, &self.start_grid) {
+            (Some(_), Some(_)) => {
+                return Err(GeorefError::Options(
+                    "give the start point once: --start-lonlat (WGS 84) or --start-grid (with --crs), not both".into(),
+                ));
+            }
+            (Some(t), None) => Some(StartPoint::LonLat(t.parse::<LonLat>()?)),
+            (None, Some(t)) => {
+                let (easting, northing) = parse_grid_point(t)?;
+                Some(StartPoint::Grid { easting, northing })
+            }
+            (None, None) => None,
+        };
+        let control = self.control.as_deref().map(ControlFile::read).transpose()?;
+        Ok(GeorefArgs {
+            start,
+            start_bearing,
+            crs,
+            control,
+            height: self.height,
+            allow_outside_area: self.allow_outside_area,
+        })
+    }
+
     /// The realignment asked for (`None` without any slew option). Chainages
     /// stay in the survey's chainage unit; the pipeline converts them.
     fn slew_options(&self) -> Result<Option<chordline::realign::SlewOptions>, Failure> {

@@ -38,4 +38,4 @@ pub use control::{
 };
 pub use crs::{AreaOfUse, Crs, CrsError, GridUnit, TESTED_GRIDS, supported_codes};
 pub use place::{LonLat, PlaceError, Placement, parse_bearing, parse_grid_point};
-pub use setup::{Georef, GeorefArgs, GeorefError, prepare};
+pub use setup::{ControlFile, Georef, GeorefArgs, GeorefError, StartPoint, prepare};

@@ -2,7 +2,7 @@
 //! exporters need: one call, [`prepare`], so the rules on which options go
 //! together live in one place.
 
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
 use crate::diag::Diagnostic;
 use crate::geometry::Pose;
@@ -13,26 +13,84 @@ use super::area::{check_grid_point, check_lonlat_point};
 use super::control::ControlPoint;
 use super::control::{ControlCheck, ControlError, ControlSet, LooResult, read_controls};
 use super::crs::{Crs, CrsError};
-use super::place::{LonLat, PlaceError, Placement, parse_bearing, parse_grid_point};
+use super::place::{LonLat, PlaceError, Placement};
 
-/// The georeferencing options of `chordline run`, as the user typed them.
+/// Where the first station is, when a start point places the survey.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum StartPoint {
+    /// A WGS 84 position (`--start-lonlat` on the command line).
+    LonLat(LonLat),
+    /// Easting and northing in the grid of [`GeorefArgs::crs`], in the
+    /// grid's own unit (`--start-grid`).
+    Grid {
+        /// Easting, grid unit.
+        easting: f64,
+        /// Northing, grid unit.
+        northing: f64,
+    },
+}
+
+/// A control-point file as read at the program's edge: the name its
+/// messages use, the path it came from (an input that an output folder must
+/// never replace) and its bytes. [`prepare`] parses the bytes; nothing in
+/// the stages opens a file.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ControlFile {
+    /// The name in messages (`FILE:LINE: ...`).
+    pub name: String,
+    /// Where it was read from, if a file.
+    pub path: Option<PathBuf>,
+    /// The file's contents.
+    pub bytes: Vec<u8>,
+}
+
+impl ControlFile {
+    /// Read a control-point file.
+    ///
+    /// # Errors
+    /// [`ControlError::Io`] naming the file.
+    pub fn read(path: &Path) -> Result<Self, ControlError> {
+        let name = path.display().to_string();
+        let bytes = std::fs::read(path).map_err(|e| ControlError::Io {
+            file: name.clone(),
+            message: e.to_string(),
+        })?;
+        Ok(ControlFile {
+            name,
+            path: Some(path.to_path_buf()),
+            bytes,
+        })
+    }
+
+    /// Control points held in memory under `name`.
+    pub fn from_text(name: &str, text: &str) -> Self {
+        ControlFile {
+            name: name.to_string(),
+            path: None,
+            bytes: text.as_bytes().to_vec(),
+        }
+    }
+}
+
+/// The georeferencing of a run, parsed: what places the survey on the Earth.
+/// All empty: the survey stays in its local frame.
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct GeorefArgs {
-    /// `--start-lonlat LON,LAT`: WGS 84 position of the first station.
-    pub start_lonlat: Option<String>,
-    /// `--start-grid E,N`: grid position of the first station (needs `--crs`).
-    pub start_grid: Option<String>,
-    /// `--start-bearing DEG`: true bearing of the track at the first station.
-    pub start_bearing: Option<String>,
-    /// `--crs EPSG:CODE`: the grid of `--start-grid`, of a control file's
-    /// easting/northing columns, and of the LandXML output.
-    pub crs: Option<String>,
-    /// `--control FILE`: control points.
-    pub control: Option<PathBuf>,
-    /// `--height M`: height of the track above the WGS 84 ellipsoid, metres (default 0).
+    /// The position of the first station (needs `start_bearing`; a grid
+    /// point needs `crs`).
+    pub start: Option<StartPoint>,
+    /// True bearing of the track at the first station, degrees clockwise from
+    /// north (with `control`: the direction for a file with a single point).
+    pub start_bearing: Option<f64>,
+    /// The grid of a grid start point, of a control file's easting/northing
+    /// columns, and of the placed outputs.
+    pub crs: Option<Crs>,
+    /// Control points.
+    pub control: Option<ControlFile>,
+    /// Height of the track above the WGS 84 ellipsoid, metres (default 0).
     pub height: Option<f64>,
-    /// `--allow-outside-area`: accept points outside the `--crs` grid's area
-    /// of use (they are refused by default, naming the likely mistake).
+    /// Accept points outside the grid's area of use (they are refused by
+    /// default, naming the likely mistake).
     pub allow_outside_area: bool,
 }
 
@@ -154,33 +212,19 @@ pub fn prepare(
     survey: &Survey,
 ) -> Result<(Option<Georef>, Vec<Diagnostic>), GeorefError> {
     let mut diags = Vec::new();
-    let crs = args.crs.as_deref().map(str::parse::<Crs>).transpose()?;
+    let crs = args.crs.clone();
     let check = crs.as_ref().filter(|_| !args.allow_outside_area);
     let height = args.height.unwrap_or(0.0);
-    let bearing = args
-        .start_bearing
-        .as_deref()
-        .map(parse_bearing)
-        .transpose()?;
+    let bearing = args.start_bearing;
     let first_chainage = survey.readings.first().map_or(0.0, |r| r.chainage);
-    let has_start = args.start_lonlat.is_some() || args.start_grid.is_some();
-    if args.start_lonlat.is_some() && args.start_grid.is_some() {
-        return Err(opts(
-            "give the start point once: --start-lonlat (WGS 84) or --start-grid (with --crs), not both",
-        ));
-    }
+    let has_start = args.start.is_some();
     if has_start && args.control.is_some() {
         return Err(opts(
             "give either a start point (--start-lonlat/--start-grid with --start-bearing) or --control, not both: the control points place the survey on their own",
         ));
     }
-    if let Some(path) = &args.control {
-        let name = path.display().to_string();
-        let file = std::fs::File::open(path).map_err(|e| ControlError::Io {
-            file: name.clone(),
-            message: e.to_string(),
-        })?;
-        let (set, d) = read_controls(std::io::BufReader::new(file), &name, crs.as_ref())?;
+    if let Some(file) = &args.control {
+        let (set, d) = read_controls(file.bytes.as_slice(), &file.name, crs.as_ref())?;
         diags.extend(d);
         if let Some(c) = check {
             set.points
@@ -213,28 +257,26 @@ pub fn prepare(
         }
         return Ok((None, diags));
     }
-    let origin = match (&args.start_lonlat, &args.start_grid) {
-        (Some(t), _) => {
-            let p = t.parse::<LonLat>()?;
+    let origin = match args.start {
+        Some(StartPoint::LonLat(p)) => {
             if let Some(c) = check {
                 check_lonlat_point(c, "--start-lonlat", p.lon, p.lat, true)?;
             }
             p
         }
-        (None, Some(t)) => {
+        Some(StartPoint::Grid { easting, northing }) => {
             let Some(c) = &crs else {
                 return Err(opts(
                     "--start-grid needs --crs EPSG:<code> naming the grid (e.g. --crs EPSG:25832)",
                 ));
             };
-            let (e, n) = parse_grid_point(t)?;
             if !args.allow_outside_area {
-                check_grid_point(c, "--start-grid", e, n)?;
+                check_grid_point(c, "--start-grid", easting, northing)?;
             }
-            let (lon, lat) = c.to_lonlat(e, n)?;
+            let (lon, lat) = c.to_lonlat(easting, northing)?;
             LonLat::new(lon, lat)?
         }
-        (None, None) => return Ok((None, diags)),
+        None => return Ok((None, diags)),
     };
     let Some(bearing) = bearing else {
         return Err(opts(
