@@ -89,7 +89,7 @@ fn apply_move(c: &Chain, mv: Move) -> Option<Chain> {
 }
 
 pub(super) fn n_params(c: &Chain) -> usize {
-    lm::reduce_map(c).ncols()
+    lm::free_params(c).len()
 }
 
 fn all_moves(c: &Chain) -> Vec<Move> {
