@@ -12,6 +12,7 @@
 //! parameters", J. SIAM 11(2), 1963; Nocedal & Wright, *Numerical
 //! Optimization*, 2nd ed., 2006, ch. 10.
 
+use super::envelope::Envelope;
 use super::model::{Chain, Level, ramp_versine};
 use nalgebra::{DMatrix, DVector};
 
@@ -262,117 +263,13 @@ fn normal_equations(
     (jtj, jtr, rss)
 }
 
-/// A symmetric matrix stored by rows of its lower triangle, each row from its
-/// first non-zero column to the diagonal (the envelope, or profile). The
-/// Cholesky factor of such a matrix fills in only inside the envelope
-/// (George & Liu, *Computer Solution of Large Sparse Positive Definite
-/// Systems*, 1981, ch. 4), so factorising costs the sum of the squared row
-/// widths instead of `p³/3`.
-#[derive(Debug, Clone)]
-struct Envelope {
-    /// First stored column of each row.
-    first: Vec<usize>,
-    /// Where row `i` starts in `data`; row `i` holds columns `first[i]..=i`.
-    off: Vec<usize>,
-    data: Vec<f64>,
-}
-
-impl Envelope {
-    /// Zeros in the envelope whose row `i` starts at column `first[i] ≤ i`.
-    fn new(first: Vec<usize>) -> Self {
-        let mut off = Vec::with_capacity(first.len() + 1);
-        let mut n = 0;
-        for (i, &f) in first.iter().enumerate() {
-            off.push(n);
-            n += i + 1 - f;
-        }
-        off.push(n);
-        Envelope {
-            first,
-            off,
-            data: vec![0.0; n],
-        }
-    }
-
-    fn len(&self) -> usize {
-        self.first.len()
-    }
-
-    /// Index in `data` of entry `(i, k)`, `first[i] ≤ k ≤ i`.
-    fn at(&self, i: usize, k: usize) -> usize {
-        self.off[i] + k - self.first[i]
-    }
-
-    /// Add `x` to entry `(i, k)`, `k ≤ i`, inside the envelope.
-    fn add(&mut self, i: usize, k: usize, x: f64) {
-        let at = self.at(i, k);
-        self.data[at] += x;
-    }
-
-    fn diag(&self, i: usize) -> f64 {
-        self.data[self.at(i, i)]
-    }
-
-    fn add_diag(&mut self, i: usize, x: f64) {
-        let at = self.at(i, i);
-        self.data[at] += x;
-    }
-
-    /// The Cholesky factor `L` (`A = L Lᵀ`) in the same envelope, or `None`
-    /// when the matrix is not positive definite.
-    fn cholesky(mut self) -> Option<Envelope> {
-        for i in 0..self.len() {
-            let (fi, oi) = (self.first[i], self.off[i]);
-            for j in fi..=i {
-                let (fj, oj) = (self.first[j], self.off[j]);
-                let k0 = fi.max(fj);
-                let mut sum = self.data[oi + j - fi];
-                for k in k0..j {
-                    sum -= self.data[oi + k - fi] * self.data[oj + k - fj];
-                }
-                if j == i {
-                    if !(sum > 0.0) {
-                        return None;
-                    }
-                    self.data[oi + i - fi] = sum.sqrt();
-                } else {
-                    self.data[oi + j - fi] = sum / self.data[oj + j - fj];
-                }
-            }
-        }
-        Some(self)
-    }
-
-    /// Solve `L Lᵀ x = b` with `self` the factor `L`.
-    fn solve(&self, b: &DVector<f64>) -> DVector<f64> {
-        let n = self.len();
-        let mut y = b.clone();
-        for i in 0..n {
-            let (fi, r) = (self.first[i], &self.data[self.off[i]..self.off[i + 1]]);
-            let mut sum = y[i];
-            for k in fi..i {
-                sum -= r[k - fi] * y[k];
-            }
-            y[i] = sum / r[i - fi];
-        }
-        for i in (0..n).rev() {
-            let (fi, r) = (self.first[i], &self.data[self.off[i]..self.off[i + 1]]);
-            y[i] /= r[i - fi];
-            let yi = y[i];
-            for k in fi..i {
-                y[k] -= r[k - fi] * yi;
-            }
-        }
-        y
-    }
-}
-
 /// The reduced (free) parameters in chainage order: each column of
 /// [`reduce_map`] is given the position of the element it belongs to (a
 /// plateau's level before its ramp's mid-point and length), so that the
 /// normal equations are banded. Returns, per full parameter, its non-zero
-/// entries `(reduced column, coefficient)`, and the number of columns.
-fn reduced_columns(chain: &Chain) -> (Vec<Vec<(usize, f64)>>, usize) {
+/// entries `(reduced column, coefficient)`, and the parameter of each
+/// reduced column.
+pub(super) fn reduced_columns(chain: &Chain) -> (Vec<Vec<(usize, f64)>>, Vec<Param>) {
     let tm = reduce_map(chain);
     let np = tm.ncols();
     let key = |p: Param| match p {
@@ -380,11 +277,9 @@ fn reduced_columns(chain: &Chain) -> (Vec<Vec<(usize, f64)>>, usize) {
         Param::Mid(j) => 3 * j + 1,
         Param::Len(j) => 3 * j + 2,
     };
-    let mut order: Vec<(usize, usize)> = free_params(chain)
-        .into_iter()
-        .enumerate()
-        .map(|(c, p)| (key(p), c))
-        .collect();
+    let free = free_params(chain);
+    let mut order: Vec<(usize, usize)> =
+        free.iter().enumerate().map(|(c, &p)| (key(p), c)).collect();
     order.sort_unstable();
     let mut new_of = vec![0; np];
     for (new, &(_, old)) in order.iter().enumerate() {
@@ -398,7 +293,7 @@ fn reduced_columns(chain: &Chain) -> (Vec<Vec<(usize, f64)>>, usize) {
                 .collect()
         })
         .collect();
-    (tcols, np)
+    (tcols, order.iter().map(|&(_, c)| free[c]).collect())
 }
 
 /// `T x`: the full parameters' change for a change `x` of the reduced ones.
@@ -528,9 +423,129 @@ const STEP_TOL: f64 = 1e-6;
 /// Fit `chain` to the data in place, respecting its holds.
 pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
     let par = full_params(chain);
-    let (tcols, np) = reduced_columns(chain);
+    let (tcols, free) = reduced_columns(chain);
     project(chain, d.lo, d.hi);
-    let (mut jtj, mut g, mut rss) = normal_equations(chain, &par, &tcols, np, d);
+    iterate(chain, d, max_iter, &par, &tcols, free.len())
+}
+
+/// Fit only the parameters of the elements that reach into `[x0 − reach,
+/// x1 + reach]`, the others held, on the readings those parameters can move
+/// (the readings within a half chord and `reach` of the elements they move).
+/// The outcome's RSS is over every reading of `d`, of the chain as fitted, so
+/// it is a true criterion of a feasible design; only the fit is local. The
+/// cost is that of the window, not of the group.
+pub fn fit_local(
+    chain: &mut Chain,
+    d: &Data,
+    max_iter: usize,
+    (x0, x1): (f64, f64),
+    reach: f64,
+) -> Outcome {
+    let par = full_params(chain);
+    let (tcols, free) = reduced_columns(chain);
+    project(chain, d.lo, d.hi);
+    let m = chain.ramps();
+    let (w0, w1) = (x0 - reach, x1 + reach);
+    // Chainage span of a parameter's element.
+    let span = |p: Param| match p {
+        Param::Level(i) => (
+            if i == 0 {
+                f64::NEG_INFINITY
+            } else {
+                chain.ramp_end(i - 1)
+            },
+            if i == m {
+                f64::INFINITY
+            } else {
+                chain.ramp_start(i)
+            },
+        ),
+        Param::Mid(j) | Param::Len(j) => (chain.ramp_start(j), chain.ramp_end(j)),
+    };
+    let mut local = vec![usize::MAX; free.len()];
+    let mut nl = 0;
+    for (c, &p) in free.iter().enumerate() {
+        let (lo, hi) = span(p);
+        if hi >= w0 && lo <= w1 {
+            local[c] = nl;
+            nl += 1;
+        }
+    }
+    let ltcols: Vec<Vec<(usize, f64)>> = tcols
+        .iter()
+        .map(|r| {
+            r.iter()
+                .filter(|e| local[e.0] != usize::MAX)
+                .map(|&(c, k)| (local[c], k))
+                .collect()
+        })
+        .collect();
+    // Readings the free parameters reach: a level moves the ramps either
+    // side of its plateau too.
+    let (mut r0, mut r1) = (f64::INFINITY, f64::NEG_INFINITY);
+    for (row, p) in par.iter().enumerate() {
+        if ltcols[row].is_empty() {
+            continue;
+        }
+        let (lo, hi) = match *p {
+            Param::Level(i) => (
+                if i == 0 {
+                    f64::NEG_INFINITY
+                } else {
+                    chain.ramp_start(i - 1)
+                },
+                if i == m {
+                    f64::INFINITY
+                } else {
+                    chain.ramp_end(i)
+                },
+            ),
+            other => span(other),
+        };
+        r0 = r0.min(lo - d.a - reach);
+        r1 = r1.max(hi + d.a + reach);
+    }
+    let i0 = d.s.partition_point(|&x| x < r0);
+    let i1 = d.s.partition_point(|&x| x <= r1);
+    let mut out = Outcome {
+        rss: 0.0,
+        iterations: 0,
+        termination: Termination::Converged,
+    };
+    if nl > 0 && i1 > i0 {
+        let ld = Data {
+            s: &d.s[i0..i1],
+            v: &d.v[i0..i1],
+            ..*d
+        };
+        out = iterate(chain, &ld, max_iter, &par, &ltcols, nl);
+    }
+    out.rss = rss_of(chain, d);
+    out
+}
+
+/// Residual sum of squares of `chain` on the readings of `d`.
+fn rss_of(chain: &Chain, d: &Data) -> f64 {
+    d.s.iter()
+        .zip(d.v)
+        .map(|(&s, &vo)| {
+            let e = vo - chain.versine(s, d.a, d.eps);
+            e * e
+        })
+        .sum()
+}
+
+/// The Levenberg–Marquardt iterations on the reduced parameters `tcols`
+/// (`np` of them) from a feasible chain.
+fn iterate(
+    chain: &mut Chain,
+    d: &Data,
+    max_iter: usize,
+    par: &[Param],
+    tcols: &[Vec<(usize, f64)>],
+    np: usize,
+) -> Outcome {
+    let (mut jtj, mut g, mut rss) = normal_equations(chain, par, tcols, np, d);
     if np == 0 {
         return Outcome {
             rss,
@@ -574,16 +589,9 @@ pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
                 lambda *= LAMBDA_UP;
                 continue;
             };
-            let delta = expand(&tcols, &ch.solve(&g));
-            let trial = apply(chain, &par, &delta, d);
-            let rss2: f64 =
-                d.s.iter()
-                    .zip(d.v)
-                    .map(|(&s, &vo)| {
-                        let e = vo - trial.versine(s, d.a, d.eps);
-                        e * e
-                    })
-                    .sum();
+            let delta = expand(tcols, &ch.solve(&g));
+            let trial = apply(chain, par, &delta, d);
+            let rss2 = rss_of(&trial, d);
             if rss2 <= rss {
                 let rel = (rss - rss2) / rss.max(1e-300);
                 // Largest move of a boundary (m).
@@ -595,7 +603,7 @@ pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
                     .map(|(x, y)| (x - y).abs())
                     .fold(0.0, f64::max);
                 *chain = trial;
-                let (j2, g2, r2) = normal_equations(chain, &par, &tcols, np, d);
+                let (j2, g2, r2) = normal_equations(chain, par, tcols, np, d);
                 jtj = j2;
                 g = g2;
                 rss = r2;
@@ -717,36 +725,6 @@ mod tests {
     }
 
     #[test]
-    fn envelope_solve_matches_the_dense_cholesky() {
-        // A banded positive definite matrix with rows of uneven width.
-        let first = vec![0, 0, 1, 1, 3, 2, 5];
-        let n = first.len();
-        let mut dense = DMatrix::zeros(n, n);
-        for i in 0..n {
-            for k in first[i]..i {
-                let x = 0.3 + 0.1 * ((i * 7 + k * 3) % 5) as f64;
-                dense[(i, k)] = x;
-                dense[(k, i)] = x;
-            }
-            dense[(i, i)] = 4.0 + i as f64;
-        }
-        let mut env = Envelope::new(first.clone());
-        for i in 0..n {
-            for k in first[i]..=i {
-                env.add(i, k, dense[(i, k)]);
-            }
-        }
-        let b = DVector::from_iterator(n, (0..n).map(|i| 1.0 - 0.25 * i as f64));
-        let want = dense.clone().cholesky().unwrap().solve(&b);
-        let got = env.clone().cholesky().unwrap().solve(&b);
-        assert!((want - got).amax() < 1e-12);
-        // Not positive definite: refused, as the dense factor refuses it.
-        let mut bad = env;
-        bad.add_diag(3, -100.0);
-        assert!(bad.cholesky().is_none());
-    }
-
-    #[test]
     fn normal_equations_match_the_dense_jacobian() {
         let (c, s) = case();
         let v: Vec<f64> = s.iter().map(|x| 1e-3 * (x / 37.0).sin()).collect();
@@ -760,7 +738,8 @@ mod tests {
             rss_tol: 0.0,
         };
         let par = full_params(&c);
-        let (tcols, np) = reduced_columns(&c);
+        let (tcols, free) = reduced_columns(&c);
+        let np = free.len();
         let (env, jtr, _) = normal_equations(&c, &par, &tcols, np, &d);
         let (r, jf) = jacobian(&c, &par, &d);
         // The reduced Jacobian in the envelope's column order.
