@@ -3,7 +3,8 @@
 //! Run: `cargo run --release --example fit_accuracy` (about a minute once
 //! built; the two 20 km cases run 3 seeds, the others 20, the design classes
 //! 50 designs each, eight classes). Add `-- --speed` for the 20 km, 0.25 m-spacing timing
-//! only, `-- --seeds N` to change the number of noise seeds per fixed case,
+//! only, `-- --irregular N` for the fit times on N random-curvature surveys
+//! like the whole-pipeline fuzzer's, `-- --seeds N` to change the number of noise seeds per fixed case,
 //! `-- --class-seeds N` the number of designs per class, `-- --only TEXT` to
 //! run only the fixed cases whose name contains TEXT, `-- --textbook` or
 //! `-- --classes` for one of the two tables. With `CLASS_DEBUG=TEXT` in the
@@ -33,7 +34,7 @@ use fit_classes::plan_of;
 use chordline::fit::{FitOptions, fit};
 use chordline::geometry::{Alignment, Element, ElementKind, Pose};
 use chordline::simulate::{SimSetup, simulate};
-use chordline::survey::{Marking, Rail, Setup};
+use chordline::survey::{Marking, Rail, Reading, Setup, Survey};
 use chordline::units::{FOOT, INCH, LengthUnit, VersineUnit};
 use std::time::Instant;
 
@@ -460,10 +461,82 @@ fn speed() {
     );
 }
 
+/// Fit times on random-curvature surveys like those of the whole-pipeline
+/// fuzzer (`tests/fuzz_support`): a smooth curvature of eight sine terms
+/// (|k| ≤ 1/150 m), 300 readings of a 20 m chord every 10, 5, 3.3 or 2.5 m,
+/// uniform noise of ±0.5 mm, readings to 0.1 mm. Track of no design: the fit
+/// has to approximate it with many elements, which is what made it slow.
+fn irregular(n_surveys: u64) {
+    use rand::{Rng, SeedableRng};
+    use rand_chacha::ChaCha8Rng;
+    let chord = 20.0;
+    let mut times = Vec::new();
+    for seed in 0..n_surveys {
+        let mut rng = ChaCha8Rng::seed_from_u64(seed);
+        let per_half = 1 + (seed % 4) as usize;
+        let spacing = chord / 2.0 / per_half as f64;
+        let n = 300usize;
+        let coef: Vec<f64> = (0..8).map(|_| rng.random_range(-1.0..1.0)).collect();
+        let total = n as f64 * spacing;
+        let readings: Vec<Reading> = (0..n)
+            .map(|i| {
+                let x = i as f64 * spacing / total;
+                let k: f64 = coef
+                    .iter()
+                    .enumerate()
+                    .map(|(j, c)| c * (std::f64::consts::PI * (j + 1) as f64 * x).sin())
+                    .sum::<f64>()
+                    / coef.len() as f64
+                    / 150.0;
+                let noise = rng.random_range(-5e-4..5e-4);
+                let v = ((chord * chord * k / 8.0 + noise) * 1e4).round() / 1e4;
+                Reading {
+                    chainage: i as f64 * spacing,
+                    versine: Some(v),
+                    rail: Rail::Left,
+                    note: None,
+                    line: i + 2,
+                }
+            })
+            .collect();
+        let survey = Survey {
+            source: format!("irregular {seed}"),
+            chainage_unit: LengthUnit::Metre,
+            versine_unit: VersineUnit::Millimetre,
+            readings,
+            has_side_column: false,
+        };
+        let plan = plan_of(&survey, &Setup::new(chord, Rail::Left));
+        let t0 = Instant::now();
+        let (res, _) = fit(&plan, &FitOptions::default()).expect("fit");
+        let secs = t0.elapsed().as_secs_f64();
+        println!(
+            "irregular seed {seed}: {n} readings every {spacing:.2} m, fit {:.3} s, {} elements",
+            secs,
+            res.elements.len()
+        );
+        times.push(secs);
+    }
+    let sum: f64 = times.iter().sum();
+    let max = times.iter().copied().fold(0.0, f64::max);
+    println!(
+        "irregular: {} surveys, fit time total {:.2} s, mean {:.3} s, worst {:.3} s",
+        times.len(),
+        sum,
+        sum / times.len().max(1) as f64,
+        max
+    );
+}
+
 fn main() {
     let args: Vec<String> = std::env::args().collect();
     if args.iter().any(|a| a == "--speed") {
         speed();
+        return;
+    }
+    if let Some(i) = args.iter().position(|a| a == "--irregular") {
+        let n = args.get(i + 1).and_then(|s| s.parse().ok()).unwrap_or(12);
+        irregular(n);
         return;
     }
     let seeds = args

@@ -21,7 +21,7 @@
 
 use super::lm;
 use super::model::{Chain, Level};
-use super::search::{Problem, SCREEN_ITERATIONS, SCREEN_MARGIN, simplify};
+use super::search::{Problem, SCREEN_MARGIN, polish, screen, simplify};
 
 /// Most runs tried per round (the largest, not overlapping).
 const MAX_CANDIDATES: usize = 4;
@@ -67,14 +67,10 @@ pub(super) fn grow(sub: &mut Chain, out: &mut lm::Outcome, data: &lm::Data, p: &
         let mut best: Option<(f64, Chain, lm::Outcome)> = None;
         for mut c2 in tried.into_iter().take(MAX_TRIAL_FITS.saturating_sub(fits)) {
             fits += 1;
-            // A short fit first; only promising trials get a full one.
-            let mut o2 = lm::fit(&mut c2, data, SCREEN_ITERATIONS);
-            if p.bic(&o2, &c2) > bic0 + margin {
+            // A short local fit first; only promising trials get a full one.
+            let Some(o2) = screen(sub, &mut c2, data, p, bic0 + margin) else {
                 continue;
-            }
-            if o2.termination == lm::Termination::IterationLimit {
-                o2 = lm::fit(&mut c2, data, p.max_iterations);
-            }
+            };
             let b = p.bic(&o2, &c2);
             if b < bic0 && best.as_ref().is_none_or(|x| b < x.0) {
                 best = Some((b, c2, o2));
@@ -84,7 +80,7 @@ pub(super) fn grow(sub: &mut Chain, out: &mut lm::Outcome, data: &lm::Data, p: &
             return;
         };
         *sub = c;
-        *out = o;
+        *out = polish(sub, o, data, p);
         simplify(sub, out, data, p);
     }
 }

@@ -12,6 +12,7 @@
 //! parameters", J. SIAM 11(2), 1963; Nocedal & Wright, *Numerical
 //! Optimization*, 2nd ed., 2006, ch. 10.
 
+use super::envelope::Envelope;
 use super::model::{Chain, Level, ramp_versine};
 use nalgebra::{DMatrix, DVector};
 
@@ -63,16 +64,12 @@ pub fn full_params(chain: &Chain) -> Vec<Param> {
     p
 }
 
-/// Linear map `T` from the free (reduced) parameters to the full ones:
-/// `δθ_full = T δθ_free`. A held length has no column; a joined plateau `i`
-/// makes ramp `i`'s mid-point follow `mid_{i−1} + (L_{i−1} + L_i)/2`.
-pub fn reduce_map(chain: &Chain) -> DMatrix<f64> {
-    let full = full_params(chain);
-    let m = chain.ramps();
-    let idx = |p: Param| full.iter().position(|q| *q == p).unwrap_or(usize::MAX);
-    // Rows of T per full parameter, built ramp by ramp from the left.
+/// The free (reduced) parameters, the columns of [`reduce_map`]: each ramp's
+/// mid-point unless its plateau before is joined, its length unless held,
+/// then each free level.
+pub fn free_params(chain: &Chain) -> Vec<Param> {
     let mut free: Vec<Param> = Vec::new();
-    for j in 0..m {
+    for j in 0..chain.ramps() {
         let joined = j > 0 && chain.joined.get(j).copied().unwrap_or(false);
         if !joined {
             free.push(Param::Mid(j));
@@ -86,6 +83,18 @@ pub fn reduce_map(chain: &Chain) -> DMatrix<f64> {
             free.push(Param::Level(i));
         }
     }
+    free
+}
+
+/// Linear map `T` from the free (reduced) parameters to the full ones:
+/// `δθ_full = T δθ_free`. A held length has no column; a joined plateau `i`
+/// makes ramp `i`'s mid-point follow `mid_{i−1} + (L_{i−1} + L_i)/2`.
+pub fn reduce_map(chain: &Chain) -> DMatrix<f64> {
+    let full = full_params(chain);
+    let m = chain.ramps();
+    let idx = |p: Param| full.iter().position(|q| *q == p).unwrap_or(usize::MAX);
+    // Rows of T per full parameter, built ramp by ramp from the left.
+    let free = free_params(chain);
     let fidx = |p: Param| free.iter().position(|q| *q == p);
     let mut tm = DMatrix::zeros(full.len(), free.len());
     for j in 0..m {
@@ -144,7 +153,7 @@ fn rows(chain: &Chain, par: &[Param], d: &Data, mut f: impl FnMut(usize, f64, &[
         ent.clear();
         // Ramps wholly behind the chord read a²/2 each and have no
         // derivatives: start at the first ramp the chord still touches.
-        let j_lo = (0..m).position(|j| chain.ramp_end(j) + a > s).unwrap_or(m);
+        let j_lo = chain.first_ramp_seen(s, a);
         let mut v = chain.levels[j_lo].value() * half_a2;
         let mut j_hi = m;
         for j in j_lo..m {
@@ -203,37 +212,96 @@ pub fn jacobian(chain: &Chain, par: &[Param], d: &Data) -> (DVector<f64>, DMatri
 }
 
 /// `JᵀJ`, `Jᵀr` and the residual sum of squares in the reduced parameters,
-/// accumulated row by row from the sparse rows (no dense Jacobian).
+/// accumulated row by row from the sparse rows (no dense Jacobian). `JᵀJ` is
+/// kept in envelope form: a reading touches only the parameters of the
+/// elements within about a chord of it, so with the reduced parameters in
+/// chainage order (see [`reduced_columns`]) it is banded.
 fn normal_equations(
     chain: &Chain,
     par: &[Param],
     tcols: &[Vec<(usize, f64)>],
     np: usize,
     d: &Data,
-) -> (DMatrix<f64>, DVector<f64>, f64) {
-    let mut jtj = DMatrix::zeros(np, np);
+) -> (Envelope, DVector<f64>, f64) {
     let mut jtr = DVector::zeros(np);
     let mut rss = 0.0;
-    let mut red: Vec<(usize, f64)> = Vec::with_capacity(16);
+    // The reduced rows, kept to size the envelope before accumulating.
+    let mut ents: Vec<(usize, f64)> = Vec::with_capacity(8 * d.s.len());
+    let mut starts: Vec<usize> = Vec::with_capacity(d.s.len() + 1);
+    let mut first: Vec<usize> = (0..np).collect();
     rows(chain, par, d, |_, res, ent| {
         rss += res * res;
-        red.clear();
+        let start = ents.len();
+        starts.push(start);
         for &(c, x) in ent {
             for &(rc, k) in &tcols[c] {
-                match red.iter_mut().find(|e| e.0 == rc) {
+                match ents[start..].iter_mut().find(|e| e.0 == rc) {
                     Some(e) => e.1 += x * k,
-                    None => red.push((rc, x * k)),
+                    None => ents.push((rc, x * k)),
                 }
             }
         }
-        for &(i, xi) in &red {
-            jtr[i] += xi * res;
-            for &(k, xk) in &red {
-                jtj[(i, k)] += xi * xk;
+        let red = &mut ents[start..];
+        red.sort_unstable_by_key(|e| e.0);
+        if let Some(&(lo, _)) = red.first() {
+            for &(i, xi) in red.iter() {
+                jtr[i] += xi * res;
+                first[i] = first[i].min(lo);
             }
         }
     });
+    starts.push(ents.len());
+    let mut jtj = Envelope::new(first);
+    for w in starts.windows(2) {
+        let red = &ents[w[0]..w[1]];
+        for (n, &(i, xi)) in red.iter().enumerate() {
+            for &(k, xk) in &red[..=n] {
+                jtj.add(i, k, xi * xk);
+            }
+        }
+    }
     (jtj, jtr, rss)
+}
+
+/// The reduced (free) parameters in chainage order: each column of
+/// [`reduce_map`] is given the position of the element it belongs to (a
+/// plateau's level before its ramp's mid-point and length), so that the
+/// normal equations are banded. Returns, per full parameter, its non-zero
+/// entries `(reduced column, coefficient)`, and the parameter of each
+/// reduced column.
+pub(super) fn reduced_columns(chain: &Chain) -> (Vec<Vec<(usize, f64)>>, Vec<Param>) {
+    let tm = reduce_map(chain);
+    let np = tm.ncols();
+    let key = |p: Param| match p {
+        Param::Level(i) => 3 * i,
+        Param::Mid(j) => 3 * j + 1,
+        Param::Len(j) => 3 * j + 2,
+    };
+    let free = free_params(chain);
+    let mut order: Vec<(usize, usize)> =
+        free.iter().enumerate().map(|(c, &p)| (key(p), c)).collect();
+    order.sort_unstable();
+    let mut new_of = vec![0; np];
+    for (new, &(_, old)) in order.iter().enumerate() {
+        new_of[old] = new;
+    }
+    let tcols = (0..tm.nrows())
+        .map(|r| {
+            (0..np)
+                .filter(|&c| tm[(r, c)] != 0.0)
+                .map(|c| (new_of[c], tm[(r, c)]))
+                .collect()
+        })
+        .collect();
+    (tcols, order.iter().map(|&(_, c)| free[c]).collect())
+}
+
+/// `T x`: the full parameters' change for a change `x` of the reduced ones.
+fn expand(tcols: &[Vec<(usize, f64)>], x: &DVector<f64>) -> DVector<f64> {
+    DVector::from_iterator(
+        tcols.len(),
+        tcols.iter().map(|r| r.iter().map(|&(c, k)| k * x[c]).sum()),
+    )
 }
 
 fn apply(chain: &Chain, par: &[Param], delta: &DVector<f64>, d: &Data) -> Chain {
@@ -355,18 +423,129 @@ const STEP_TOL: f64 = 1e-6;
 /// Fit `chain` to the data in place, respecting its holds.
 pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
     let par = full_params(chain);
-    let tm = reduce_map(chain);
-    let np = tm.ncols();
-    let tcols: Vec<Vec<(usize, f64)>> = (0..tm.nrows())
+    let (tcols, free) = reduced_columns(chain);
+    project(chain, d.lo, d.hi);
+    iterate(chain, d, max_iter, &par, &tcols, free.len())
+}
+
+/// Fit only the parameters of the elements that reach into `[x0 − reach,
+/// x1 + reach]`, the others held, on the readings those parameters can move
+/// (the readings within a half chord and `reach` of the elements they move).
+/// The outcome's RSS is over every reading of `d`, of the chain as fitted, so
+/// it is a true criterion of a feasible design; only the fit is local. The
+/// cost is that of the window, not of the group.
+pub fn fit_local(
+    chain: &mut Chain,
+    d: &Data,
+    max_iter: usize,
+    (x0, x1): (f64, f64),
+    reach: f64,
+) -> Outcome {
+    let par = full_params(chain);
+    let (tcols, free) = reduced_columns(chain);
+    project(chain, d.lo, d.hi);
+    let m = chain.ramps();
+    let (w0, w1) = (x0 - reach, x1 + reach);
+    // Chainage span of a parameter's element.
+    let span = |p: Param| match p {
+        Param::Level(i) => (
+            if i == 0 {
+                f64::NEG_INFINITY
+            } else {
+                chain.ramp_end(i - 1)
+            },
+            if i == m {
+                f64::INFINITY
+            } else {
+                chain.ramp_start(i)
+            },
+        ),
+        Param::Mid(j) | Param::Len(j) => (chain.ramp_start(j), chain.ramp_end(j)),
+    };
+    let mut local = vec![usize::MAX; free.len()];
+    let mut nl = 0;
+    for (c, &p) in free.iter().enumerate() {
+        let (lo, hi) = span(p);
+        if hi >= w0 && lo <= w1 {
+            local[c] = nl;
+            nl += 1;
+        }
+    }
+    let ltcols: Vec<Vec<(usize, f64)>> = tcols
+        .iter()
         .map(|r| {
-            (0..np)
-                .filter(|&c| tm[(r, c)] != 0.0)
-                .map(|c| (c, tm[(r, c)]))
+            r.iter()
+                .filter(|e| local[e.0] != usize::MAX)
+                .map(|&(c, k)| (local[c], k))
                 .collect()
         })
         .collect();
-    project(chain, d.lo, d.hi);
-    let (mut jtj, mut g, mut rss) = normal_equations(chain, &par, &tcols, np, d);
+    // Readings the free parameters reach: a level moves the ramps either
+    // side of its plateau too.
+    let (mut r0, mut r1) = (f64::INFINITY, f64::NEG_INFINITY);
+    for (row, p) in par.iter().enumerate() {
+        if ltcols[row].is_empty() {
+            continue;
+        }
+        let (lo, hi) = match *p {
+            Param::Level(i) => (
+                if i == 0 {
+                    f64::NEG_INFINITY
+                } else {
+                    chain.ramp_start(i - 1)
+                },
+                if i == m {
+                    f64::INFINITY
+                } else {
+                    chain.ramp_end(i)
+                },
+            ),
+            other => span(other),
+        };
+        r0 = r0.min(lo - d.a - reach);
+        r1 = r1.max(hi + d.a + reach);
+    }
+    let i0 = d.s.partition_point(|&x| x < r0);
+    let i1 = d.s.partition_point(|&x| x <= r1);
+    let mut out = Outcome {
+        rss: 0.0,
+        iterations: 0,
+        termination: Termination::Converged,
+    };
+    if nl > 0 && i1 > i0 {
+        let ld = Data {
+            s: &d.s[i0..i1],
+            v: &d.v[i0..i1],
+            ..*d
+        };
+        out = iterate(chain, &ld, max_iter, &par, &ltcols, nl);
+    }
+    out.rss = rss_of(chain, d);
+    out
+}
+
+/// Residual sum of squares of `chain` on the readings of `d`.
+fn rss_of(chain: &Chain, d: &Data) -> f64 {
+    d.s.iter()
+        .zip(d.v)
+        .map(|(&s, &vo)| {
+            let e = vo - chain.versine(s, d.a, d.eps);
+            e * e
+        })
+        .sum()
+}
+
+/// The Levenberg–Marquardt iterations on the reduced parameters `tcols`
+/// (`np` of them) from a feasible chain.
+fn iterate(
+    chain: &mut Chain,
+    d: &Data,
+    max_iter: usize,
+    par: &[Param],
+    tcols: &[Vec<(usize, f64)>],
+    np: usize,
+) -> Outcome {
+    let (mut jtj, mut g, mut rss) = normal_equations(chain, par, tcols, np, d);
     if np == 0 {
         return Outcome {
             rss,
@@ -379,7 +558,7 @@ pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
     let mut it = 0;
     while it < max_iter {
         it += 1;
-        let maxd = (0..np).map(|i| jtj[(i, i)]).fold(0.0, f64::max);
+        let maxd = (0..np).map(|i| jtj.diag(i)).fold(0.0, f64::max);
         if maxd <= 0.0 {
             termination = Termination::Converged;
             break;
@@ -389,7 +568,7 @@ pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
         // left worth having.
         let mut ridge = jtj.clone();
         for i in 0..np {
-            ridge[(i, i)] += DECREMENT_RIDGE * maxd;
+            ridge.add_diag(i, DECREMENT_RIDGE * maxd);
         }
         let mut dec = f64::INFINITY;
         if let Some(ch) = ridge.cholesky() {
@@ -404,22 +583,15 @@ pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
         for _ in 0..DAMPING_TRIES {
             let mut a = jtj.clone();
             for i in 0..np {
-                a[(i, i)] += lambda * jtj[(i, i)].max(1e-9 * maxd);
+                a.add_diag(i, lambda * jtj.diag(i).max(1e-9 * maxd));
             }
             let Some(ch) = a.cholesky() else {
                 lambda *= LAMBDA_UP;
                 continue;
             };
-            let delta = &tm * ch.solve(&g);
-            let trial = apply(chain, &par, &delta, d);
-            let rss2: f64 =
-                d.s.iter()
-                    .zip(d.v)
-                    .map(|(&s, &vo)| {
-                        let e = vo - trial.versine(s, d.a, d.eps);
-                        e * e
-                    })
-                    .sum();
+            let delta = expand(tcols, &ch.solve(&g));
+            let trial = apply(chain, par, &delta, d);
+            let rss2 = rss_of(&trial, d);
             if rss2 <= rss {
                 let rel = (rss - rss2) / rss.max(1e-300);
                 // Largest move of a boundary (m).
@@ -431,7 +603,7 @@ pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
                     .map(|(x, y)| (x - y).abs())
                     .fold(0.0, f64::max);
                 *chain = trial;
-                let (j2, g2, r2) = normal_equations(chain, &par, &tcols, np, d);
+                let (j2, g2, r2) = normal_equations(chain, par, tcols, np, d);
                 jtj = j2;
                 g = g2;
                 rss = r2;
@@ -550,6 +722,51 @@ mod tests {
         let mut c = truth.clone();
         c.mids[0] += 4.0;
         assert_eq!(fit(&mut c, &d, 1).termination, Termination::IterationLimit);
+    }
+
+    #[test]
+    fn normal_equations_match_the_dense_jacobian() {
+        let (c, s) = case();
+        let v: Vec<f64> = s.iter().map(|x| 1e-3 * (x / 37.0).sin()).collect();
+        let d = Data {
+            s: &s,
+            v: &v,
+            a: 10.0,
+            eps: -1.0 / 3.0,
+            lo: -1e9,
+            hi: 1e9,
+            rss_tol: 0.0,
+        };
+        let par = full_params(&c);
+        let (tcols, free) = reduced_columns(&c);
+        let np = free.len();
+        let (env, jtr, _) = normal_equations(&c, &par, &tcols, np, &d);
+        let (r, jf) = jacobian(&c, &par, &d);
+        // The reduced Jacobian in the envelope's column order.
+        let mut tm = DMatrix::zeros(par.len(), np);
+        for (row, ents) in tcols.iter().enumerate() {
+            for &(col, k) in ents {
+                tm[(row, col)] = k;
+            }
+        }
+        let jr = &jf * &tm;
+        let jtj = jr.transpose() * &jr;
+        let g = jr.transpose() * &r;
+        for i in 0..np {
+            assert!((g[i] - jtr[i]).abs() <= 1e-12 * (1.0 + g[i].abs()));
+            for k in 0..=i {
+                let stored = if k >= env.first[i] {
+                    env.data[env.at(i, k)]
+                } else {
+                    0.0
+                };
+                assert!(
+                    (jtj[(i, k)] - stored).abs() <= 1e-9 * (1.0 + jtj[(i, k)].abs()),
+                    "({i}, {k}): {} vs {stored}",
+                    jtj[(i, k)]
+                );
+            }
+        }
     }
 
     fn predict_with(c: &Chain, s: &[f64]) -> Vec<f64> {

@@ -45,6 +45,7 @@
 
 mod covariance;
 mod elements;
+mod envelope;
 mod grow;
 mod known;
 pub(crate) mod lm;

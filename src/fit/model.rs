@@ -163,12 +163,10 @@ impl Chain {
         }
         k
     }
-    /// Linear (small-angle) versine at `s` for half-chord `a` (m, chord side).
-    pub fn versine_linear(&self, s: f64, a: f64) -> f64 {
-        // Ramps are ordered: those wholly behind the chord contribute
-        // dk·a²/2 each, i.e. the level reached; those ahead contribute nothing.
-        // The first ramp not wholly behind, by bisection (the fit keeps the
-        // knots ordered), so that a long route costs log(ramps) per reading.
+    /// The first ramp that the chord of half-length `a` centred at `s` does
+    /// not see wholly behind it (`ramps()` when there is none), by bisection
+    /// on the ordered ramp ends.
+    pub fn first_ramp_seen(&self, s: f64, a: f64) -> usize {
         let (mut lo, mut hi) = (0, self.ramps());
         while lo < hi {
             let mid = lo + (hi - lo) / 2;
@@ -178,7 +176,15 @@ impl Chain {
                 lo = mid + 1;
             }
         }
-        let j_lo = lo;
+        lo
+    }
+    /// Linear (small-angle) versine at `s` for half-chord `a` (m, chord side).
+    pub fn versine_linear(&self, s: f64, a: f64) -> f64 {
+        // Ramps are ordered: those wholly behind the chord contribute
+        // dk·a²/2 each, i.e. the level reached; those ahead contribute nothing.
+        // The first ramp not wholly behind, by bisection (the fit keeps the
+        // knots ordered), so that a long route costs log(ramps) per reading.
+        let j_lo = self.first_ramp_seen(s, a);
         let mut v = self.levels[j_lo].value() * 0.5 * a * a;
         for j in j_lo..self.ramps() {
             let b = self.ramp_start(j);

@@ -89,7 +89,7 @@ fn apply_move(c: &Chain, mv: Move) -> Option<Chain> {
 }
 
 pub(super) fn n_params(c: &Chain) -> usize {
-    lm::reduce_map(c).ncols()
+    lm::free_params(c).len()
 }
 
 fn all_moves(c: &Chain) -> Vec<Move> {
@@ -294,14 +294,9 @@ pub(super) fn simplify(sub: &mut Chain, out: &mut lm::Outcome, data: &lm::Data, 
         let mut improving: Vec<(f64, Move, f64, Chain, lm::Outcome)> = Vec::new();
         for mv in all_moves(sub) {
             if let Some(mut c2) = apply_move(sub, mv) {
-                // A short fit first; only promising moves get a full one.
-                let mut o2 = lm::fit(&mut c2, data, SCREEN_ITERATIONS);
-                if p.bic(&o2, &c2) > bic0 + margin {
+                let Some(o2) = screen(sub, &mut c2, data, p, bic0 + margin) else {
                     continue;
-                }
-                if o2.termination == lm::Termination::IterationLimit {
-                    o2 = lm::fit(&mut c2, data, p.max_iterations);
-                }
+                };
                 let bic = p.bic(&o2, &c2);
                 if bic < bic0 {
                     improving.push((bic, mv, move_anchor(sub, mv), c2, o2));
@@ -317,20 +312,136 @@ pub(super) fn simplify(sub: &mut Chain, out: &mut lm::Outcome, data: &lm::Data, 
             break;
         };
         *sub = c_best;
-        *out = o_best;
+        *out = polish(sub, o_best, data, p);
         for (_, mv, anchor, _, _) in it {
             let Some(mv2) = locate_move(sub, mv, anchor) else {
                 continue;
             };
-            if let Some(mut c2) = apply_move(sub, mv2) {
+            let Some(mut c2) = apply_move(sub, mv2) else {
+                continue;
+            };
+            let bic1 = p.bic(out, sub);
+            if screens_locally(data, p) {
+                if screen(sub, &mut c2, data, p, bic1).is_some_and(|o2| p.bic(&o2, &c2) < bic1) {
+                    *out = lm::fit(&mut c2, data, p.max_iterations);
+                    *sub = c2;
+                }
+            } else {
                 let o2 = lm::fit(&mut c2, data, p.max_iterations);
-                if p.bic(&o2, &c2) < p.bic(out, sub) {
+                if p.bic(&o2, &c2) < bic1 {
                     *sub = c2;
                     *out = o2;
                 }
             }
         }
     }
+}
+
+/// Screen a changed chain `c2` (from `old`): a short fit of the parameters
+/// within [`SCREEN_REACH_CHORDS`] of the change, the rest held; when its
+/// criterion is within `limit`, a fit to convergence of the parameters within
+/// [`LOCAL_REACH_CHORDS`] (`None` otherwise). Either fit's criterion is that
+/// of a feasible design on every reading, and a full fit from it can only
+/// lower it: a change accepted on it is an improvement, and the caller refits
+/// the accepted one in full. The work of a screen is that of the window, so
+/// the moves of a group with many elements cost each the same, not the
+/// group's size.
+pub(super) fn screen(
+    old: &Chain,
+    c2: &mut Chain,
+    data: &lm::Data,
+    p: &Problem,
+    limit: f64,
+) -> Option<lm::Outcome> {
+    if !screens_locally(data, p) {
+        // A short fit first; only promising moves get a full one.
+        let mut o = lm::fit(c2, data, SCREEN_ITERATIONS);
+        if p.bic(&o, c2) > limit {
+            return None;
+        }
+        if o.termination == lm::Termination::IterationLimit {
+            o = lm::fit(c2, data, p.max_iterations);
+        }
+        return Some(o);
+    }
+    let span = changed_span(old, c2);
+    let o = lm::fit_local(
+        c2,
+        data,
+        SCREEN_ITERATIONS,
+        span,
+        SCREEN_REACH_CHORDS * p.chord,
+    );
+    if p.bic(&o, c2) > limit {
+        return None;
+    }
+    Some(lm::fit_local(
+        c2,
+        data,
+        p.max_iterations,
+        span,
+        LOCAL_REACH_CHORDS * p.chord,
+    ))
+}
+
+/// A screening fit frees the elements within this many chords of a change:
+/// a reading sees one chord, so a change is felt by the elements a chord
+/// either side and, through them, a little beyond.
+const SCREEN_REACH_CHORDS: f64 = 1.5;
+/// Whether [`screen`] fits locally on this group (see
+/// [`LOCAL_MIN_GROUP_CHORDS`]).
+pub(super) fn screens_locally(data: &lm::Data, p: &Problem) -> bool {
+    match (data.s.first(), data.s.last()) {
+        (Some(s0), Some(s1)) => s1 - s0 >= LOCAL_MIN_GROUP_CHORDS * p.chord,
+        _ => false,
+    }
+}
+
+/// The outcome `o` of a chain accepted on a screen, refitted in full when
+/// the screen was local.
+pub(super) fn polish(c: &mut Chain, o: lm::Outcome, data: &lm::Data, p: &Problem) -> lm::Outcome {
+    if screens_locally(data, p) {
+        lm::fit(c, data, p.max_iterations)
+    } else {
+        o
+    }
+}
+
+/// Groups shorter than this many chords are screened by fits of all their
+/// parameters: there a window would be most of the group.
+const LOCAL_MIN_GROUP_CHORDS: f64 = 32.0;
+/// The fit that decides a move frees the elements within this many chords.
+const LOCAL_REACH_CHORDS: f64 = 3.0;
+
+/// The chainage span where `new` differs from `old`: from the end of the last
+/// ramp the two share from the left to the start of the first they share
+/// from the right (infinite where they share none).
+pub(super) fn changed_span(old: &Chain, new: &Chain) -> (f64, f64) {
+    let (mo, mn) = (old.ramps(), new.ramps());
+    let same_ramp = |jo: usize, jn: usize| {
+        old.mids[jo] == new.mids[jn] && old.lens[jo] == new.lens[jn] && old.held[jo] == new.held[jn]
+    };
+    let same_level =
+        |io: usize, jn: usize| old.levels[io] == new.levels[jn] && old.joined[io] == new.joined[jn];
+    let mut p = 0;
+    while p < mo.min(mn) && same_level(p, p) && same_ramp(p, p) {
+        p += 1;
+    }
+    let mut q = 0;
+    while q < mo.min(mn) - p && same_level(mo - q, mn - q) && same_ramp(mo - 1 - q, mn - 1 - q) {
+        q += 1;
+    }
+    let lo = if p == 0 {
+        f64::NEG_INFINITY
+    } else {
+        new.ramp_end(p - 1)
+    };
+    let hi = if q == 0 {
+        f64::INFINITY
+    } else {
+        new.ramp_start(mn - q)
+    };
+    (lo, hi)
 }
 
 /// Below this many readings the groups are fitted on one thread: threads
@@ -453,6 +564,66 @@ mod tests {
             Some(Move::CollapseRamp(j)) => assert!((fewer.mids[j] - 300.0).abs() < 1e-9),
             other => panic!("{other:?}"),
         }
+    }
+
+    #[test]
+    fn the_changed_span_covers_what_a_move_changed() {
+        let c = chain();
+        // Dropping plateau 1 changes ramps 0 and 1 into one: the span runs
+        // from the survey's start (no ramp shared on the left) to ramp 2.
+        let d = apply_move(&c, Move::DropPlateau(1)).unwrap();
+        let (lo, hi) = changed_span(&c, &d);
+        assert_eq!(lo, f64::NEG_INFINITY);
+        assert!((hi - c.ramp_start(2)).abs() < 1e-12, "{hi}");
+        // Collapsing ramp 1 changes only ramp 1: from ramp 0's end to ramp 2's start.
+        let d = apply_move(&c, Move::CollapseRamp(1)).unwrap();
+        let (lo, hi) = changed_span(&c, &d);
+        assert!((lo - c.ramp_end(0)).abs() < 1e-12 && (hi - c.ramp_start(2)).abs() < 1e-12);
+    }
+
+    #[test]
+    fn a_local_fit_reports_the_rss_of_every_reading_and_keeps_far_elements() {
+        // Two curves 600 m apart; the second is shifted from the truth by
+        // 3 m, the first by 2 m. A fit local to the second curve mends it,
+        // leaves the first where it was, and its RSS is the whole survey's.
+        let truth = Chain::new(
+            vec![
+                Level::Zero,
+                Level::Free(2e-3),
+                Level::Zero,
+                Level::Free(-2e-3),
+                Level::Zero,
+            ],
+            vec![100.0, 200.0, 800.0, 900.0],
+            vec![40.0, 40.0, 40.0, 40.0],
+        );
+        let s: Vec<f64> = (0..110).map(|i| 10.0 * i as f64).collect();
+        let v: Vec<f64> = s.iter().map(|&x| truth.versine(x, 10.0, 0.0)).collect();
+        let d = lm::Data {
+            s: &s,
+            v: &v,
+            a: 10.0,
+            eps: 0.0,
+            lo: -1e9,
+            hi: 1e9,
+            rss_tol: 1e-16,
+        };
+        let mut c = truth.clone();
+        c.mids[0] += 2.0;
+        c.mids[3] += 3.0;
+        let out = lm::fit_local(&mut c, &d, 60, (860.0, 940.0), 20.0);
+        assert!((c.mids[3] - 900.0).abs() < 1e-3, "{}", c.mids[3]);
+        assert_eq!(c.mids[0], 102.0);
+        let rss: f64 = s
+            .iter()
+            .zip(&v)
+            .map(|(&x, &vo)| (vo - c.versine(x, 10.0, 0.0)).powi(2))
+            .sum();
+        assert!(
+            rss > 1e-9 && (out.rss - rss).abs() <= 1e-12 * rss,
+            "{} {rss}",
+            out.rss
+        );
     }
 
     #[test]
