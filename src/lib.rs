@@ -37,7 +37,7 @@
 //!
 //! # fn main() -> Result<(), Box<dyn std::error::Error>> {
 //! let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/eastvale-survey.csv");
-//! let read = ReadOptions { rail: Some(Rail::Left), chord: 20.0, marking: Marking::Taped };
+//! let read = ReadOptions { rail: Some(Rail::Left), chord: 20.0, behind: None, marking: Marking::Taped };
 //! let (survey, _warnings) = read_survey_file(&path, &read)?;
 //!
 //! let setup = Setup::new(20.0, Rail::Left);
