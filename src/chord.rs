@@ -237,3 +237,41 @@ pub fn degree_of_curve(radius_m: f64) -> Option<f64> {
 pub fn radius_from_degree_of_curve(d_deg: f64) -> f64 {
     50.0 * crate::units::FOOT / (0.5 * d_deg.to_radians()).sin()
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn asymmetric_relations_invert_and_reduce_to_the_symmetric_ones() {
+        for m in [Marking::Taped, Marking::Wire] {
+            for (a1, a2) in [(4.0, 6.5), (6.5, 4.0), (1.0, 19.0), (10.0, 30.0)] {
+                let arms = Arms {
+                    behind: a1,
+                    ahead: a2,
+                };
+                for r in [20.1, 60.0, 450.0, 1e5] {
+                    let v = versine_from_curvature_arms(1.0 / r, arms, m);
+                    let k = curvature_from_versine_arms(v, arms, m).unwrap();
+                    assert!((k * r - 1.0).abs() < 1e-10, "{m:?} {a1}+{a2} R={r}: {k}");
+                }
+                assert_eq!(curvature_from_versine_arms(0.0, arms, m), Some(0.0));
+                assert_eq!(versine_from_curvature_arms(0.0, arms, m), 0.0);
+            }
+            // No circle reads a versine longer than the arms allow.
+            let arms = Arms {
+                behind: 4.0,
+                ahead: 6.5,
+            };
+            assert!(curvature_from_versine_arms(6.0, arms, m).is_none());
+            assert!(curvature_from_versine_arms(f64::NAN, arms, m).is_none());
+            let sym = Arms::symmetric(10.0);
+            for v in [0.0, 0.05, -0.3, 2.0] {
+                assert_eq!(
+                    curvature_from_versine_arms(v, sym, m),
+                    curvature_from_versine(v, 10.0, m)
+                );
+            }
+        }
+    }
+}

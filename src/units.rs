@@ -323,6 +323,30 @@ mod tests {
     use super::*;
 
     #[test]
+    fn parses_chords_with_two_arms() {
+        let c: ChordLength = "20m".parse().unwrap();
+        assert_eq!((c.metres(), c.behind()), (20.0, None));
+        let c: ChordLength = " 4m+6.5m ".parse().unwrap();
+        assert_eq!((c.metres(), c.behind()), (10.5, Some(4.0)));
+        let c: ChordLength = "13ft+21ft".parse().unwrap();
+        assert!((c.metres() - 34.0 * FOOT).abs() < 1e-12);
+        assert!((c.behind().unwrap() - 13.0 * FOOT).abs() < 1e-12);
+        assert_eq!(c.unit(), LengthUnit::Foot);
+        // Equal arms are the symmetric chord, the same as one length.
+        let c: ChordLength = "10m+10m".parse().unwrap();
+        assert_eq!(c, "20m".parse().unwrap());
+        for bad in [
+            "4m+0m", "4m+", "4m+-1m", "4+6m", "0.4m+10m", "4m+6m+1m", "-4m+6m",
+        ] {
+            assert!(bad.parse::<ChordLength>().is_err(), "{bad}");
+        }
+        assert!(matches!(
+            "-20m".parse::<ChordLength>(),
+            Err(LengthParseError::NotPositive(_))
+        ));
+    }
+
+    #[test]
     fn parses_lengths_with_units() {
         let l: Length = "20m".parse().unwrap();
         assert_eq!(l.metres(), 20.0);

@@ -171,6 +171,9 @@ fn plan_is_sub_millimetre_without_noise() {
                     ek = ek.max((s.curvature - t.centre_curvature).abs());
                 }
                 let case = format!("{a1}+{a2} every {spacing} {rail:?} {m:?}");
+                eprintln!(
+                    "{case}: E/N {ec:.2e} m, rail {er:.2e} m, heading {eh:.2e} rad, curvature {ek:.2e} 1/m"
+                );
                 assert!(ec < 1e-3 && er < 1e-3, "{case}: E/N {ec} rail {er}");
                 assert!(eh < 1e-5, "{case}: heading {eh}");
                 // Curvature at a curvature step of the design is smoothed over
@@ -320,6 +323,9 @@ fn response_to_a_sinusoid_is_the_transfer_function() {
                 let q = (vc * ss - vs * sc) / det;
                 let (got_mag, got_phase) = (p.hypot(q) / amp, q.atan2(p));
                 let case = format!("{a1}+{a2} λ={lambda} {m:?}");
+                eprintln!(
+                    "{case}: |H| {got_mag:.5} (formula {mag:.5}), phase {got_phase:.5} (formula {phase:.5})"
+                );
                 assert!(
                     (got_mag - mag).abs() < 2e-3 * mag.max(0.05),
                     "{case}: |H| {got_mag} vs {mag}"
@@ -331,4 +337,101 @@ fn response_to_a_sinusoid_is_the_transfer_function() {
             }
         }
     }
+}
+
+/// The design of the element test as a design file, with the chord keys `extra`.
+fn design_file(dir: &std::path::Path, name: &str, extra: &str) -> std::path::PathBuf {
+    let p = dir.join(name);
+    let text = format!(
+        r#"{{ {extra} "rail": "right", "marking": "wire", "start_chainage_m": 1000,
+  "elements": [
+    {{"kind": "straight", "length": 200}},
+    {{"kind": "transition", "length": 60}},
+    {{"kind": "arc", "length": 300, "radius": 450}},
+    {{"kind": "transition", "length": 60}},
+    {{"kind": "straight", "length": 200}}
+  ] }}"#
+    );
+    std::fs::write(&p, text).unwrap();
+    p
+}
+
+/// `simulate` then `run` through the binary; the elements.csv rows as fields.
+fn cli_round_trip(dir: &std::path::Path, tag: &str, keys: &str, chord: &str) -> Vec<Vec<String>> {
+    let design = design_file(dir, &format!("{tag}.json"), keys);
+    let survey = dir.join(format!("{tag}.csv"));
+    let out = dir.join(format!("{tag}-out"));
+    let o = common::chordline(&[
+        "simulate",
+        design.to_str().unwrap(),
+        survey.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", common::stderr(&o));
+    let o = common::chordline(&[
+        "run",
+        survey.to_str().unwrap(),
+        "--chord",
+        chord,
+        "--marking",
+        "wire",
+        "--rail",
+        "right",
+        "--reading-sd",
+        "0.1mm",
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", common::stderr(&o));
+    if tag == "asym" {
+        let text = std::fs::read_to_string(&survey).unwrap();
+        assert!(
+            text.contains(
+                "# chord 10.5 m (4 m behind the measuring point, 6.5 m ahead), marks every 0.5 m"
+            ),
+            "{text:.300}"
+        );
+        assert!(
+            common::stdout(&o)
+                .contains("set-up   10.500 m chord read 4 m behind and 6.500 m ahead"),
+            "{}",
+            common::stdout(&o)
+        );
+    }
+    std::fs::read_to_string(out.join("elements.csv"))
+        .unwrap()
+        .lines()
+        .skip(1)
+        .map(|l| l.split(',').map(str::to_string).collect())
+        .collect()
+}
+
+#[test]
+fn simulate_and_run_take_the_arms_from_the_design_file_and_the_option() {
+    let dir = tempfile::tempdir().unwrap();
+    let asym = cli_round_trip(
+        dir.path(),
+        "asym",
+        r#""chord_m": 10.5, "chord_behind_m": 4,"#,
+        "4m+6.5m",
+    );
+    let sym = cli_round_trip(
+        dir.path(),
+        "sym",
+        r#""chord_m": 10, "spacing_m": 0.5,"#,
+        "10m",
+    );
+    let kinds: Vec<&str> = asym.iter().map(|r| r[1].as_str()).collect();
+    assert_eq!(
+        kinds,
+        ["straight", "transition", "arc", "transition", "straight"]
+    );
+    for (a, s) in asym.iter().zip(&sym).skip(1) {
+        let (ja, js): (f64, f64) = (a[2].parse().unwrap(), s[2].parse().unwrap());
+        assert!(
+            (ja - js).abs() < 5e-3,
+            "joint {ja} (4 m + 6.5 m) vs {js} (10 m)"
+        );
+    }
+    let r: f64 = asym[2][5].parse().unwrap();
+    assert!((r - 450.0).abs() < 0.05, "radius {r}");
 }

@@ -86,7 +86,6 @@ pub struct Design {
 struct DesignKeys {
     elements: Option<Vec<serde_json::Value>>,
     chord_m: Option<IgnoredAny>,
-    chord_behind_m: Option<IgnoredAny>,
     spacing_m: Option<IgnoredAny>,
     rail: Option<IgnoredAny>,
     gauge_m: Option<IgnoredAny>,
@@ -99,7 +98,6 @@ struct DesignKeys {
     marking: Option<IgnoredAny>,
     start_chainage_m: Option<IgnoredAny>,
     chord_ft: Option<IgnoredAny>,
-    chord_behind_ft: Option<IgnoredAny>,
     spacing_ft: Option<IgnoredAny>,
     gauge_in: Option<IgnoredAny>,
     noise_in: Option<IgnoredAny>,
@@ -107,6 +105,8 @@ struct DesignKeys {
     resolution_in: Option<IgnoredAny>,
     irregularity_in: Option<IgnoredAny>,
     start_chainage_ft: Option<IgnoredAny>,
+    chord_behind_m: Option<IgnoredAny>,
+    chord_behind_ft: Option<IgnoredAny>,
     /// Free text for the reader of the file.
     description: Option<IgnoredAny>,
 }
