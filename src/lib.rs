@@ -81,5 +81,5 @@ pub use integrate::{IntegrateOptions, Plan};
 pub use pipeline::Options;
 pub use results::Results;
 pub use survey::read::{ReadOptions, SurveyError, read_survey_bytes, read_survey_file};
-pub use survey::{Marking, Rail, Setup, Survey};
-pub use units::{Length, LengthUnit};
+pub use survey::{Arms, Marking, Rail, Setup, Survey};
+pub use units::{ChordLength, Length, LengthUnit};

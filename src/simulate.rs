@@ -230,30 +230,7 @@ pub fn simulate(design: &Alignment, setup: &SimSetup) -> Result<Simulated, Simul
     check_limits(design, setup)?;
     let long = |m: f64| SimLength::long(m, setup.chainage_unit);
     let arms = setup.arms();
-    let (m1, m2) = setup.steps_per_arm().ok_or_else(|| {
-        let half = 0.5 * setup.chord;
-        if arms.is_symmetric() {
-            SimulateError::SpacingDoesNotFit {
-                spacing: long(setup.spacing),
-                half: long(half),
-                quarter: long(0.5 * half),
-                tenth: long(0.1 * half),
-            }
-        } else {
-            SimulateError::SpacingDoesNotFitArms {
-                spacing: long(setup.spacing),
-                behind: long(arms.behind),
-                ahead: long(arms.ahead),
-                works: match arms
-                    .common_spacing(setup.chainage_unit)
-                    .filter(|&w| w >= 0.1 - 1e-9)
-                {
-                    Some(w) => format!("use a spacing of {} or a whole fraction of it", long(w)),
-                    None => "no spacing of 0.1 m or more divides both; check the arms".to_string(),
-                },
-            }
-        }
-    })?;
+    let (m1, m2) = steps_per_arm(setup)?;
     let d = setup.rail.offset_left(setup.gauge);
     let rail_len = design.offset_length(design.length(), d);
     if rail_len < setup.chord {
@@ -344,6 +321,36 @@ pub fn simulate(design: &Alignment, setup: &SimSetup) -> Result<Simulated, Simul
             has_side_column: false,
         },
         truth,
+    })
+}
+
+/// Marks per arm behind and ahead, or why the spacing does not fit the chord.
+fn steps_per_arm(setup: &SimSetup) -> Result<(usize, usize), SimulateError> {
+    let long = |m: f64| SimLength::long(m, setup.chainage_unit);
+    let arms = setup.arms();
+    setup.steps_per_arm().ok_or_else(|| {
+        let half = 0.5 * setup.chord;
+        if arms.is_symmetric() {
+            SimulateError::SpacingDoesNotFit {
+                spacing: long(setup.spacing),
+                half: long(half),
+                quarter: long(0.5 * half),
+                tenth: long(0.1 * half),
+            }
+        } else {
+            SimulateError::SpacingDoesNotFitArms {
+                spacing: long(setup.spacing),
+                behind: long(arms.behind),
+                ahead: long(arms.ahead),
+                works: match arms
+                    .common_spacing(setup.chainage_unit)
+                    .filter(|&w| w >= 0.1 - 1e-9)
+                {
+                    Some(w) => format!("use a spacing of {} or a whole fraction of it", long(w)),
+                    None => "no spacing of 0.1 m or more divides both; check the arms".to_string(),
+                },
+            }
+        }
     })
 }
 
