@@ -42,6 +42,7 @@ fn main() {
     let ropts = ReadOptions {
         rail: Some(Rail::Left),
         chord,
+        behind: None,
         marking,
     };
     let read = || read_survey_file(path, &ropts).unwrap_or_else(|e| panic!("{e}"));

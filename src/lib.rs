@@ -37,7 +37,7 @@
 //!
 //! # fn main() -> Result<(), Box<dyn std::error::Error>> {
 //! let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-data/eastvale-survey.csv");
-//! let read = ReadOptions { rail: Some(Rail::Left), chord: 20.0, marking: Marking::Taped };
+//! let read = ReadOptions { rail: Some(Rail::Left), chord: 20.0, behind: None, marking: Marking::Taped };
 //! let (survey, _warnings) = read_survey_file(&path, &read)?;
 //!
 //! let setup = Setup::new(20.0, Rail::Left);
@@ -81,5 +81,5 @@ pub use integrate::{IntegrateOptions, Plan};
 pub use pipeline::Options;
 pub use results::Results;
 pub use survey::read::{ReadOptions, SurveyError, read_survey_bytes, read_survey_file};
-pub use survey::{Marking, Rail, Setup, Survey};
-pub use units::{Length, LengthUnit};
+pub use survey::{Arms, Marking, Rail, Setup, Survey};
+pub use units::{ChordLength, Length, LengthUnit};

@@ -350,6 +350,7 @@ pub fn run(
     let ropts = ReadOptions {
         rail: opts.rail_stated.then_some(opts.setup.rail),
         chord: opts.setup.chord,
+        behind: opts.setup.behind,
         marking: opts.setup.marking,
     };
     let (name, bytes) = read_survey_source(survey_path)?;

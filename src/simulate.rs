@@ -40,6 +40,10 @@ pub use error::{SimLength, SimulateError};
 pub struct SimSetup {
     /// Chord length, metres.
     pub chord: f64,
+    /// Arm behind the measuring point (towards decreasing chainage), metres,
+    /// for a chord not read at its middle (`None`: read at its middle); the
+    /// arm ahead is `chord − behind`. See [`crate::survey::Setup::behind`].
+    pub behind: Option<f64>,
     /// Distance between marks along the rail, metres (the half chord for a
     /// classic survey; it must divide the half chord).
     pub spacing: f64,
@@ -73,6 +77,7 @@ impl SimSetup {
     pub fn classic(chord: f64, rail: Rail) -> Self {
         SimSetup {
             chord,
+            behind: None,
             spacing: 0.5 * chord,
             rail,
             gauge: crate::survey::Setup::STANDARD_GAUGE,
@@ -88,12 +93,51 @@ impl SimSetup {
         }
     }
 
+    /// A survey with a chord of arms `behind` + `ahead` metres read every
+    /// `spacing` metres (which must divide both arms), otherwise as [`SimSetup::classic`].
+    pub fn with_arms(behind: f64, ahead: f64, spacing: f64, rail: Rail) -> Self {
+        let mut s = SimSetup::classic(behind + ahead, rail);
+        s.behind = (behind != ahead).then_some(behind);
+        s.spacing = spacing;
+        s
+    }
+
+    /// The chord's two arms.
+    pub fn arms(&self) -> crate::survey::Arms {
+        crate::survey::arms_of(self.chord, self.behind)
+    }
+
     /// Number of mark spacings in the half chord, if the spacing divides it.
     pub fn steps_per_half_chord(&self) -> Option<usize> {
         let m = 0.5 * self.chord / self.spacing;
         let r = m.round();
         (r >= 1.0 && (m - r).abs() < 1e-9).then_some(r as usize)
     }
+
+    /// Number of mark spacings in the arm behind and in the arm ahead, if
+    /// the spacing divides both (the marks must fall on the chord's ends).
+    pub fn steps_per_arm(&self) -> Option<(usize, usize)> {
+        let arms = self.arms();
+        if arms.is_symmetric() {
+            return self.steps_per_half_chord().map(|m| (m, m));
+        }
+        let whole = |len: f64| {
+            let m = len / self.spacing;
+            let r = m.round();
+            (r >= 1.0 && (m - r).abs() < 1e-9 * r.max(1.0)).then_some(r as usize)
+        };
+        Some((whole(arms.behind)?, whole(arms.ahead)?))
+    }
+}
+
+/// The default mark spacing for a chord: the half chord when it is read at
+/// its middle, else the longest spacing (to a thousandth of `unit`) that
+/// divides both arms, so that marks fall on both ends of the chord.
+pub fn default_spacing(arms: crate::survey::Arms, unit: LengthUnit) -> f64 {
+    if arms.is_symmetric() {
+        return 0.5 * arms.chord();
+    }
+    arms.common_spacing(unit).unwrap_or(0.5 * arms.chord())
 }
 
 /// The exact state of the track at one mark.
@@ -151,6 +195,7 @@ impl SimSetup {
     /// stated or not.
     pub fn survey_setup(&self, reading_sd: Option<f64>) -> crate::survey::Setup {
         let mut s = crate::survey::Setup::new(self.chord, self.rail);
+        s.behind = self.behind;
         s.gauge = self.gauge;
         s.marking = self.marking;
         s.reading_sd = reading_sd;
@@ -184,15 +229,8 @@ pub fn simulate(design: &Alignment, setup: &SimSetup) -> Result<Simulated, Simul
     check_setup(setup)?;
     check_limits(design, setup)?;
     let long = |m: f64| SimLength::long(m, setup.chainage_unit);
-    let m = setup.steps_per_half_chord().ok_or_else(|| {
-        let half = 0.5 * setup.chord;
-        SimulateError::SpacingDoesNotFit {
-            spacing: long(setup.spacing),
-            half: long(half),
-            quarter: long(0.5 * half),
-            tenth: long(0.1 * half),
-        }
-    })?;
+    let arms = setup.arms();
+    let (m1, m2) = steps_per_arm(setup)?;
     let d = setup.rail.offset_left(setup.gauge);
     let rail_len = design.offset_length(design.length(), d);
     if rail_len < setup.chord {
@@ -215,20 +253,20 @@ pub fn simulate(design: &Alignment, setup: &SimSetup) -> Result<Simulated, Simul
 
     let mut truth = Vec::with_capacity(n);
     // Wire ends relative to the mark, carried from mark to mark as a start.
-    let mut wire_hint = (-0.5 * setup.chord, 0.5 * setup.chord);
+    let mut wire_hint = (-arms.behind, arms.ahead);
     let pts: Vec<(f64, f64, f64, Pose)> = (0..n)
         .map(|j| rail_point(j as f64 * setup.spacing))
         .collect();
     for (j, &(x, y, s, p)) in pts.iter().enumerate() {
         let r = j as f64 * setup.spacing;
         let versine = match setup.marking {
-            Marking::Taped => (j >= m && j + m < n).then(|| {
-                let (ax, ay, ..) = pts[j - m];
-                let (bx, by, ..) = pts[j + m];
+            Marking::Taped => (j >= m1 && j + m2 < n).then(|| {
+                let (ax, ay, ..) = pts[j - m1];
+                let (bx, by, ..) = pts[j + m2];
                 field_versine((ax, ay), (x, y), (bx, by), setup.rail)
             }),
             Marking::Wire => {
-                if r - 0.5 * setup.chord < -1e-9 || r + 0.5 * setup.chord > rail_len + 1e-9 {
+                if r - arms.behind < -1e-9 || r + arms.ahead > rail_len + 1e-9 {
                     None
                 } else {
                     wire_versine(&rail_point, r, (x, y), setup, rail_len, &mut wire_hint)?
@@ -286,6 +324,36 @@ pub fn simulate(design: &Alignment, setup: &SimSetup) -> Result<Simulated, Simul
     })
 }
 
+/// Marks per arm behind and ahead, or why the spacing does not fit the chord.
+fn steps_per_arm(setup: &SimSetup) -> Result<(usize, usize), SimulateError> {
+    let long = |m: f64| SimLength::long(m, setup.chainage_unit);
+    let arms = setup.arms();
+    setup.steps_per_arm().ok_or_else(|| {
+        let half = 0.5 * setup.chord;
+        if arms.is_symmetric() {
+            SimulateError::SpacingDoesNotFit {
+                spacing: long(setup.spacing),
+                half: long(half),
+                quarter: long(0.5 * half),
+                tenth: long(0.1 * half),
+            }
+        } else {
+            SimulateError::SpacingDoesNotFitArms {
+                spacing: long(setup.spacing),
+                behind: long(arms.behind),
+                ahead: long(arms.ahead),
+                works: match arms
+                    .common_spacing(setup.chainage_unit)
+                    .filter(|&w| w >= 0.1 - 1e-9)
+                {
+                    Some(w) => format!("use a spacing of {} or a whole fraction of it", long(w)),
+                    None => "no spacing of 0.1 m or more divides both; check the arms".to_string(),
+                },
+            }
+        }
+    })
+}
+
 fn check_setup(s: &SimSetup) -> Result<(), SimulateError> {
     let u = s.chainage_unit;
     for (what, value, small) in [
@@ -301,6 +369,21 @@ fn check_setup(s: &SimSetup) -> Result<(), SimulateError> {
             };
             return Err(SimulateError::NotPositive { what, value });
         }
+    }
+    if let Some(b) = s.behind
+        && !(b.is_finite() && b > 0.0 && b < s.chord)
+    {
+        return Err(SimulateError::NotPositive {
+            what: "the arm ahead of or behind the measuring point",
+            value: SimLength::long(
+                if b.is_finite() && b > 0.0 {
+                    s.chord - b
+                } else {
+                    b
+                },
+                u,
+            ),
+        });
     }
     let widest = crate::survey::Setup::GAUGE_RANGE.1;
     if s.gauge > widest {
@@ -408,9 +491,12 @@ pub fn field_versine(a: (f64, f64), p: (f64, f64), b: (f64, f64), rail: Rail) ->
     }
 }
 
-/// Versine read by a rigid wire of the chord length whose middle is abreast
-/// of the mark at rail arc length `r`; `None` when an end of the wire would
-/// rest beyond the surveyed length.
+/// Versine read by a rigid wire of the chord length whose measuring point
+/// (its middle, or `behind` from its rear end for an asymmetric chord) is
+/// abreast of the mark at rail arc length `r`: both ends on the rail, the
+/// perpendicular to the wire at the measuring point through the mark, the
+/// versine read along it. `None` when an end of the wire would rest beyond
+/// the surveyed length.
 fn wire_versine(
     rail_point: &dyn Fn(f64) -> (f64, f64, f64, Pose),
     r: f64,
@@ -425,11 +511,17 @@ fn wire_versine(
         chainage: SimLength::long(setup.start_chainage + r, setup.chainage_unit),
     };
     // Unknowns: arc lengths of the two ends. Equations: |AB| = c, and the
-    // perpendicular to AB through its middle passes through p.
+    // perpendicular to AB through its measuring point passes through p.
+    let arms = setup.arms();
+    let frac = arms.behind / c;
     let f = |ra: f64, rb: f64| {
         let (ax, ay, ..) = rail_point(ra);
         let (bx, by, ..) = rail_point(rb);
-        let (mx, my) = (0.5 * (ax + bx), 0.5 * (ay + by));
+        let (mx, my) = if arms.is_symmetric() {
+            (0.5 * (ax + bx), 0.5 * (ay + by))
+        } else {
+            (ax + frac * (bx - ax), ay + frac * (by - ay))
+        };
         let len = (bx - ax).hypot(by - ay);
         let along = ((p.0 - mx) * (bx - ax) + (p.1 - my) * (by - ay)) / len;
         (len - c, along, (ax, ay), (bx, by))

@@ -165,9 +165,100 @@ pub enum LengthParseError {
     /// A typographic minus sign (U+2212), as word processors write it.
     #[error("'{0}' has a typographic minus sign (U+2212); type the minus as '-' (a hyphen)")]
     UnicodeMinus(String),
+    /// A chord given as two arms, one of them wrong (the text, what is wrong).
+    #[error(
+        "'{0}': {1}; give the chord as one length read at its middle (e.g. 20m) or as its two arms BEHIND+AHEAD of the measuring point (e.g. 4m+6.5m)"
+    )]
+    Arms(String, String),
     /// The next option where a value was expected.
     #[error("'{0}' is an option, not a value: give the value (e.g. 20m) before the next option")]
     OptionNotValue(String),
+}
+
+/// A chord as a user gives it: one length read at its middle (`20m`,
+/// `62ft`), or its two arms `BEHIND+AHEAD` (`4m+6.5m`, `13ft+21ft`): from the
+/// rear end (towards decreasing chainage) to the measuring point, and from
+/// the measuring point to the front end. Equal arms are the symmetric chord.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ChordLength {
+    total: Length,
+    behind: Option<f64>,
+}
+
+/// The largest ratio of the longer arm to the shorter accepted in
+/// [`ChordLength`]: a measuring point nearer one end reads almost nothing of
+/// a curve (the versine is `a₁a₂/2R`). Recording vehicles read well inside
+/// this (common practice, from memory).
+pub const MAX_ARM_RATIO: f64 = 20.0;
+
+impl ChordLength {
+    /// A chord read at its middle.
+    pub fn symmetric(total: Length) -> Self {
+        ChordLength {
+            total,
+            behind: None,
+        }
+    }
+    /// The whole chord, metres.
+    pub fn metres(&self) -> f64 {
+        self.total.metres()
+    }
+    /// The arm behind the measuring point, metres; `None` when the chord is
+    /// read at its middle.
+    pub fn behind(&self) -> Option<f64> {
+        self.behind
+    }
+    /// The unit system the chord was given in (that of the first arm).
+    pub fn unit(&self) -> LengthUnit {
+        self.total.unit()
+    }
+}
+
+impl FromStr for ChordLength {
+    type Err = LengthParseError;
+    fn from_str(s: &str) -> Result<Self, Self::Err> {
+        let t = s.trim();
+        let Some(plus) = t
+            .char_indices()
+            .skip(1)
+            .find(|&(_, c)| c == '+')
+            .map(|(i, _)| i)
+        else {
+            return Ok(ChordLength::symmetric(t.parse()?));
+        };
+        let (b, a) = (&t[..plus], &t[plus + 1..]);
+        let arm = |x: &str, which: &str| -> Result<Length, LengthParseError> {
+            x.parse::<Length>().map_err(|e| {
+                LengthParseError::Arms(
+                    s.to_string(),
+                    format!("the arm {which} the measuring point: {e}"),
+                )
+            })
+        };
+        let behind = arm(b, "behind")?;
+        let ahead = arm(a, "ahead of")?;
+        let (lo, hi) = if behind.metres() <= ahead.metres() {
+            (behind.metres(), ahead.metres())
+        } else {
+            (ahead.metres(), behind.metres())
+        };
+        if hi > MAX_ARM_RATIO * lo {
+            return Err(LengthParseError::Arms(
+                s.to_string(),
+                format!(
+                    "one arm is more than {MAX_ARM_RATIO} times the other, so the chord would read almost nothing of a curve; check the arms"
+                ),
+            ));
+        }
+        let total = behind.metres() + ahead.metres();
+        Ok(ChordLength {
+            total: Length {
+                metres: total,
+                unit: behind.unit(),
+            },
+            behind: (behind.metres() != ahead.metres()).then_some(behind.metres()),
+        })
+    }
 }
 
 /// A length unit as a user types it: its size in metres and the unit system
@@ -230,6 +321,30 @@ impl FromStr for Length {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn parses_chords_with_two_arms() {
+        let c: ChordLength = "20m".parse().unwrap();
+        assert_eq!((c.metres(), c.behind()), (20.0, None));
+        let c: ChordLength = " 4m+6.5m ".parse().unwrap();
+        assert_eq!((c.metres(), c.behind()), (10.5, Some(4.0)));
+        let c: ChordLength = "13ft+21ft".parse().unwrap();
+        assert!((c.metres() - 34.0 * FOOT).abs() < 1e-12);
+        assert!((c.behind().unwrap() - 13.0 * FOOT).abs() < 1e-12);
+        assert_eq!(c.unit(), LengthUnit::Foot);
+        // Equal arms are the symmetric chord, the same as one length.
+        let c: ChordLength = "10m+10m".parse().unwrap();
+        assert_eq!(c, "20m".parse().unwrap());
+        for bad in [
+            "4m+0m", "4m+", "4m+-1m", "4+6m", "0.4m+10m", "4m+6m+1m", "-4m+6m",
+        ] {
+            assert!(bad.parse::<ChordLength>().is_err(), "{bad}");
+        }
+        assert!(matches!(
+            "-20m".parse::<ChordLength>(),
+            Err(LengthParseError::NotPositive(_))
+        ));
+    }
 
     #[test]
     fn parses_lengths_with_units() {

@@ -30,7 +30,10 @@ fn typed_value() -> impl Strategy<Value = String> {
     ];
     prop_oneof![
         (number.clone(), units.clone()).prop_map(|(v, u)| format!("{v}{u}")),
-        (number, units).prop_map(|(v, u)| format!("\u{2212}{}{u}", v.abs())),
+        (number.clone(), units.clone()).prop_map(|(v, u)| format!("\u{2212}{}{u}", v.abs())),
+        // Two arms of a chord not read at its middle (`--chord 4m+6.5m`).
+        (number.clone(), units.clone(), number, units)
+            .prop_map(|(v, u, w, t)| format!("{v}{u}+{w}{t}")),
         "\\PC{0,12}",
         "--[a-z]{1,8}",
     ]
@@ -127,6 +130,7 @@ fn design_text() -> impl Strategy<Value = String> {
         prop::sample::select(vec![
             "chord_m",
             "chord",
+            "chord_behind_m",
             "spacing_m",
             "start_chainage_m",
             "noise_mm",

@@ -25,6 +25,7 @@ fn roundtrip(setup: &SimSetup, route_m: f64, seed: u64) -> Vec<String> {
     let opts = ReadOptions {
         rail: Some(setup.rail),
         chord: setup.chord,
+        behind: None,
         marking: setup.marking,
     };
     let (read, diags) =

@@ -6,7 +6,7 @@ use super::simulate::{MarkingArg, RailArg};
 use chordline::diag::{Diagnostic, Severity};
 use chordline::survey::read::{ReadOptions, SurveyErrorKind, read_survey_input};
 use chordline::survey::{Rail, Survey};
-use chordline::units::{Length, LengthUnit};
+use chordline::units::{ChordLength, LengthUnit};
 use clap::Args;
 use std::fmt::Write as _;
 use std::io::Write as _;
@@ -18,9 +18,10 @@ pub struct CheckArgs {
     /// Survey files (CSV), or - for standard input.
     #[arg(required = true)]
     pub surveys: Vec<PathBuf>,
-    /// Chord length with unit, e.g. 20m or 62ft (default: twice the spacing, readings every half chord).
+    /// Chord length with unit, e.g. 20m or 62ft, or its two arms, e.g. 4m+6.5m
+    /// (default: twice the spacing, readings every half chord).
     #[arg(long, allow_hyphen_values = true)]
-    pub chord: Option<Length>,
+    pub chord: Option<ChordLength>,
     /// Rail measured, facing increasing chainage (checked against a side column).
     #[arg(long, value_enum)]
     pub rail: Option<RailArg>,
@@ -76,6 +77,7 @@ fn check_one(path: &std::path::Path, a: &CheckArgs) -> Result<(String, Vec<Diagn
     let opts = ReadOptions {
         rail: a.rail.map(Rail::from),
         chord,
+        behind: a.chord.and_then(|c| c.behind()),
         marking: a.marking.into(),
     };
     let mut notes = Vec::new();
@@ -98,7 +100,13 @@ fn check_one(path: &std::path::Path, a: &CheckArgs) -> Result<(String, Vec<Diagn
     };
     let (survey, diags) = read.map_err(|e| e.to_string())?;
     Ok((
-        describe(&survey, &diags, chord, a.chord.is_some(), &notes),
+        describe(
+            &survey,
+            &diags,
+            chordline::survey::arms_of(chord, a.chord.and_then(|c| c.behind())),
+            a.chord.is_some(),
+            &notes,
+        ),
         diags,
     ))
 }
@@ -150,7 +158,7 @@ fn guess_chord(path: &std::path::Path) -> Option<f64> {
 fn describe(
     s: &Survey,
     diags: &[Diagnostic],
-    chord: f64,
+    arms: chordline::survey::Arms,
     chord_given: bool,
     notes: &[&str],
 ) -> String {
@@ -169,6 +177,7 @@ fn describe(
         .collect();
     steps.sort_by(f64::total_cmp);
     let spacing = steps.get(steps.len() / 2).copied().unwrap_or(0.0);
+    let chord = arms.chord();
     let per_half = (0.5 * chord / spacing).round().max(1.0);
     let outliers = diags
         .iter()
@@ -193,14 +202,29 @@ fn describe(
         len(last - first),
         missing
     );
-    let pattern = if per_half == 1.0 {
+    let pattern = if !arms.is_symmetric() {
+        format!(
+            "{} behind and {} ahead of the measuring point",
+            trim((arms.behind / spacing).round()),
+            trim((arms.ahead / spacing).round())
+        )
+    } else if per_half == 1.0 {
         "every half chord".to_string()
     } else {
         format!("{} per half chord", trim(per_half))
     };
     let _ = writeln!(t, "spacing  {} ({pattern})", len(spacing));
     if chord_given {
-        let _ = writeln!(t, "chord    {} fits the spacing", len(chord));
+        if arms.is_symmetric() {
+            let _ = writeln!(t, "chord    {} fits the spacing", len(chord));
+        } else {
+            let _ = writeln!(
+                t,
+                "chord    {} + {} (behind + ahead of the measuring point) fits the spacing",
+                len(arms.behind),
+                len(arms.ahead)
+            );
+        }
     } else {
         let _ = writeln!(
             t,

@@ -10,7 +10,7 @@ use chordline::georef::{
 };
 use chordline::pipeline::{self, Options, Outcome};
 use chordline::survey::{Rail, Setup};
-use chordline::units::{Length, LengthUnit};
+use chordline::units::{ChordLength, Length, LengthUnit};
 use clap::Args;
 use std::io::Write;
 use std::path::{Path, PathBuf};
@@ -28,9 +28,10 @@ pub struct RunCommand {
 /// The set-up and output options of `chordline run` (shared with `batch`).
 #[derive(Debug, Args)]
 pub struct RunArgs {
-    /// Chord length with unit, e.g. 20m or 62ft.
+    /// Chord length with unit, e.g. 20m or 62ft, or its two arms behind and
+    /// ahead of the measuring point, e.g. 4m+6.5m (a recording vehicle's chord).
     #[arg(long, allow_hyphen_values = true)]
-    pub chord: Length,
+    pub chord: ChordLength,
     /// Rail measured, facing increasing chainage (needed when the file has no side column).
     #[arg(long, value_enum)]
     pub rail: Option<RailArg>,
@@ -222,6 +223,7 @@ impl RunArgs {
             self.chord.metres(),
             self.rail.map_or(Rail::Left, Rail::from),
         );
+        setup.behind = self.chord.behind();
         setup.gauge = self.gauge;
         setup.marking = self.marking.into();
         setup.reading_sd = self.reading_sd;
@@ -502,6 +504,7 @@ fn survey_unit(survey: &Path, opts: &Options) -> Result<LengthUnit, Failure> {
     let ropts = chordline::survey::read::ReadOptions {
         rail: opts.rail_stated.then_some(opts.setup.rail),
         chord: opts.setup.chord,
+        behind: opts.setup.behind,
         marking: opts.setup.marking,
     };
     Ok(chordline::survey::read::read_survey_file(survey, &ropts)

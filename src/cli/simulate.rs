@@ -6,7 +6,7 @@ use anyhow::Context;
 use chordline::export::staged_file::StagedFile;
 use chordline::simulate::{Design, simulate, write_survey_csv};
 use chordline::survey::{Marking, Rail};
-use chordline::units::{Length, LengthUnit, VersineUnit};
+use chordline::units::{ChordLength, Length, LengthUnit, VersineUnit};
 use clap::{Args, ValueEnum};
 use std::io::Write;
 use std::path::{Path, PathBuf};
@@ -64,10 +64,12 @@ pub struct SimulateArgs {
         required_unless_present = "out_positional"
     )]
     pub out: Option<PathBuf>,
-    /// Chord length with unit, e.g. 20m or 62ft.
+    /// Chord length with unit, e.g. 20m or 62ft, or its two arms behind and
+    /// ahead of the measuring point, e.g. 4m+6.5m (a recording vehicle's chord).
     #[arg(long, allow_hyphen_values = true)]
-    pub chord: Option<Length>,
-    /// Distance between marks along the rail, e.g. 10m (default: half the chord).
+    pub chord: Option<ChordLength>,
+    /// Distance between marks along the rail, e.g. 10m (default: half the chord;
+    /// for two arms the longest spacing dividing both).
     #[arg(long, allow_hyphen_values = true)]
     pub spacing: Option<Length>,
     /// Rail measured, facing increasing chainage.
@@ -113,12 +115,13 @@ pub fn run(a: SimulateArgs) -> Result<(), Failure> {
     let s = &mut design.setup;
     if let Some(c) = a.chord {
         s.chord = c.metres();
-        if a.spacing.is_none() {
-            s.spacing = 0.5 * s.chord;
-        }
+        s.behind = c.behind();
         if c.unit() == LengthUnit::Foot {
             s.chainage_unit = LengthUnit::Foot;
             s.versine_unit = VersineUnit::Inch;
+        }
+        if a.spacing.is_none() {
+            s.spacing = chordline::simulate::default_spacing(s.arms(), s.chainage_unit);
         }
     }
     if let Some(x) = a.spacing {
@@ -247,9 +250,20 @@ fn header_comment(name: &str, s: &chordline::simulate::SimSetup) -> String {
             format!("{} mm", round6(m * 1e3))
         }
     };
+    let arms = s.arms();
+    let chord = if arms.is_symmetric() {
+        len(s.chord)
+    } else {
+        format!(
+            "{} ({} behind the measuring point, {} ahead)",
+            len(s.chord),
+            len(arms.behind),
+            len(arms.ahead)
+        )
+    };
     format!(
         "Simulated survey of {name} (chordline simulate)\nchord {}, marks every {} on the {} rail, {:?} marking, gauge {}\nreading noise sd {}, bias {}, resolution {}, track irregularity {} RMS, seed {}",
-        len(s.chord),
+        chord,
         len(s.spacing),
         s.rail.name(),
         s.marking,

@@ -13,7 +13,8 @@
 //! Optimization*, 2nd ed., 2006, ch. 10.
 
 use super::envelope::Envelope;
-use super::model::{Chain, Level, ramp_versine};
+use super::model::{Chain, Level, finite_angle_length_sq, ramp_versine_arms};
+use crate::survey::Arms;
 use nalgebra::{DMatrix, DVector};
 
 /// One fitted parameter.
@@ -34,8 +35,8 @@ pub struct Data<'a> {
     pub s: &'a [f64],
     /// Chord-side versines (m).
     pub v: &'a [f64],
-    /// Half chord (m).
-    pub a: f64,
+    /// The chord's arms (both the half chord when it is read at its middle).
+    pub arms: Arms,
     /// Finite-angle factor.
     pub eps: f64,
     /// Lowest admissible knot (m).
@@ -128,7 +129,9 @@ pub fn reduce_map(chain: &Chain) -> DMatrix<f64> {
 
 /// Model versines (chord side) at every reading.
 pub fn predict(chain: &Chain, d: &Data) -> Vec<f64> {
-    d.s.iter().map(|&s| chain.versine(s, d.a, d.eps)).collect()
+    d.s.iter()
+        .map(|&s| chain.versine_arms(s, d.arms, d.eps))
+        .collect()
 }
 
 /// Visit every reading with its residual `v − v̂` and the non-zero entries
@@ -145,25 +148,26 @@ fn rows(chain: &Chain, par: &[Param], d: &Data, mut f: impl FnMut(usize, f64, &[
             Param::Level(i) => col_lvl[i] = c,
         }
     }
-    let a = d.a;
-    let half_a2 = 0.5 * a * a;
+    let (a1, a2) = (d.arms.behind, d.arms.ahead);
+    let half_a2 = 0.5 * a1 * a2;
+    let ae2 = finite_angle_length_sq(d.arms);
     let mut dd = vec![0.0; m];
     let mut ent: Vec<(usize, f64)> = Vec::with_capacity(16);
     for (row, (&s, &vo)) in d.s.iter().zip(d.v).enumerate() {
         ent.clear();
         // Ramps wholly behind the chord read a²/2 each and have no
         // derivatives: start at the first ramp the chord still touches.
-        let j_lo = chain.first_ramp_seen(s, a);
+        let j_lo = chain.first_ramp_seen(s, a1);
         let mut v = chain.levels[j_lo].value() * half_a2;
         let mut j_hi = m;
         for j in j_lo..m {
             let b = chain.ramp_start(j);
-            if b - a >= s {
+            if b - a2 >= s {
                 j_hi = j;
                 break;
             }
             let dk = chain.levels[j + 1].value() - chain.levels[j].value();
-            let (dv, dbs, dbe) = ramp_versine(s, b, chain.lens[j], a);
+            let (dv, dbs, dbe) = ramp_versine_arms(s, b, chain.lens[j], d.arms);
             dd[j] = dv;
             v += dk * dv;
             if dbs != 0.0 || dbe != 0.0 {
@@ -186,13 +190,13 @@ fn rows(chain: &Chain, par: &[Param], d: &Data, mut f: impl FnMut(usize, f64, &[
                 ent.push((c, before - after));
             }
         }
-        let g = 1.0 + 3.0 * d.eps * v * v / (a * a);
+        let g = 1.0 + 3.0 * d.eps * v * v / ae2;
         if g != 1.0 {
             for e in ent.iter_mut() {
                 e.1 *= g;
             }
         }
-        let vm = v * (1.0 + d.eps * v * v / (a * a));
+        let vm = v * (1.0 + d.eps * v * v / ae2);
         f(row, vo - vm, &ent);
     }
 }
@@ -502,8 +506,9 @@ pub fn fit_local(
             ),
             other => span(other),
         };
-        r0 = r0.min(lo - d.a - reach);
-        r1 = r1.max(hi + d.a + reach);
+        // A reading at s spans [s − behind, s + ahead].
+        r0 = r0.min(lo - d.arms.ahead - reach);
+        r1 = r1.max(hi + d.arms.behind + reach);
     }
     let i0 = d.s.partition_point(|&x| x < r0);
     let i1 = d.s.partition_point(|&x| x <= r1);
@@ -529,7 +534,7 @@ fn rss_of(chain: &Chain, d: &Data) -> f64 {
     d.s.iter()
         .zip(d.v)
         .map(|(&s, &vo)| {
-            let e = vo - chain.versine(s, d.a, d.eps);
+            let e = vo - chain.versine_arms(s, d.arms, d.eps);
             e * e
         })
         .sum()
@@ -662,7 +667,7 @@ mod tests {
         let d = Data {
             s: &s,
             v: &v,
-            a: 10.0,
+            arms: Arms::symmetric(10.0),
             eps: -1.0 / 3.0,
             lo: -1e9,
             hi: 1e9,
@@ -704,7 +709,7 @@ mod tests {
         let d = Data {
             s: &s,
             v: &v,
-            a: 10.0,
+            arms: Arms::symmetric(10.0),
             eps: -1.0 / 3.0,
             lo: -1e9,
             hi: 1e9,

@@ -175,7 +175,11 @@ struct Input {
     /// Its index in the survey's readings.
     index: Vec<usize>,
     chord: f64,
+    /// Half chord (m; the mean arm `√(a₁a₂)` for a chord not read at its
+    /// middle): the length scale of the curvature estimates.
     a: f64,
+    /// The chord's arms: the forward model.
+    arms: crate::survey::Arms,
     eps: f64,
     /// Offset of the measured rail left of the centreline (m).
     d_off: f64,
@@ -226,7 +230,12 @@ fn prepare(plan: &Plan, diags: &mut Vec<Diagnostic>) -> Result<Input, FitError> 
         v,
         index,
         chord: setup.chord,
-        a: 0.5 * setup.chord,
+        a: if setup.is_symmetric() {
+            0.5 * setup.chord
+        } else {
+            setup.arms().product().sqrt()
+        },
+        arms: setup.arms(),
         eps: model::marking_epsilon(setup.marking),
         d_off: rail.offset_left(setup.gauge),
     })
@@ -364,7 +373,7 @@ fn finish(
     let resid: Vec<f64> = s
         .iter()
         .zip(v)
-        .map(|(&x, &o)| o - chain.versine(x, inp.a, inp.eps))
+        .map(|(&x, &o)| o - chain.versine_arms(x, inp.arms, inp.eps))
         .collect();
     let rss: f64 = resid.iter().map(|r| r * r).sum();
     let h_max = ((GAMMA_CHORDS * inp.chord / inp.spacing).round() as usize).clamp(1, 800);
@@ -617,7 +626,7 @@ fn per_reading(
     let mut design_versine = Vec::with_capacity(n);
     let mut residual = Vec::with_capacity(n);
     for r in &plan.stations {
-        let dv = sr.chain.versine(r.chainage, inp.a, inp.eps) + shift;
+        let dv = sr.chain.versine_arms(r.chainage, inp.arms, inp.eps) + shift;
         chainages.push(r.chainage);
         design_versine.push(r.rail.chord_side(dv));
         residual.push(

@@ -25,6 +25,8 @@
 //! ## Reference
 //! SEGMENTATION.md §5 step 4 (this project's design study); METHODS.md §§1, 2, 6.
 
+use crate::survey::Arms;
+
 /// One plateau level: held at zero (a straight) or free (an arc).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum Level {
@@ -101,6 +103,49 @@ pub fn ramp_versine(s: f64, b_s: f64, l: f64, a: f64) -> (f64, f64, f64) {
         0.5 * (ds1 - 2.0 * ds0 + dsm),
         0.5 * (de1 - 2.0 * de0 + dem),
     )
+}
+
+/// Versine contribution `D` of a unit ramp `[b_s, b_s + l]` at chainage `s`
+/// for a chord with arms `a₁` behind and `a₂` ahead of the measuring point,
+/// with `∂D/∂b_s` and `∂D/∂b_e`: `D(s) = [a₂Q(s − a₁) + a₁Q(s + a₂)]/(a₁ + a₂) − Q(s)`
+/// (the chord through the rail at `s − a₁` and `s + a₂`, read at `s`);
+/// [`ramp_versine`] itself for a symmetric chord.
+#[inline]
+pub fn ramp_versine_arms(s: f64, b_s: f64, l: f64, arms: Arms) -> (f64, f64, f64) {
+    if arms.is_symmetric() {
+        return ramp_versine(s, b_s, l, arms.behind);
+    }
+    let (a1, a2) = (arms.behind, arms.ahead);
+    let u = s - b_s;
+    if u + a2 <= 0.0 {
+        return (0.0, 0.0, 0.0);
+    }
+    if u - a1 >= l {
+        return (0.5 * a1 * a2, 0.0, 0.0);
+    }
+    let (w1, w2) = (a2 / (a1 + a2), a1 / (a1 + a2));
+    let (q1, ds1, de1) = q_and_derivs(u + a2, l);
+    let (q0, ds0, de0) = q_and_derivs(u, l);
+    let (qm, dsm, dem) = q_and_derivs(u - a1, l);
+    (
+        w1 * qm + w2 * q1 - q0,
+        w1 * dsm + w2 * ds1 - ds0,
+        w1 * dem + w2 * de1 - de0,
+    )
+}
+
+/// The squared length `a_e²` of the finite-angle factor `1 + ε v²/a_e²`:
+/// `a²` for a symmetric chord, `2a₁²a₂²/(a₁² + a₂²)` for arms `a₁`, `a₂`
+/// (the next term of `v = (2/k)·sin(ka₁/2)·sin(ka₂/2)` for taped marks and of
+/// `√(R² − t²) − √(R² − c²/4)` for a wire, `crate::chord`; derived in
+/// docs/METHOD.md).
+pub fn finite_angle_length_sq(arms: Arms) -> f64 {
+    let (a1, a2) = (arms.behind, arms.ahead);
+    if arms.is_symmetric() {
+        a1 * a1
+    } else {
+        2.0 * a1 * a1 * a2 * a2 / (a1 * a1 + a2 * a2)
+    }
 }
 
 /// The finite-angle correction factor `ε` for the station marking.
@@ -196,6 +241,44 @@ impl Chain {
             v += dk * d;
         }
         v
+    }
+    /// Linear (small-angle) versine at `s` for a chord with arms `arms`
+    /// ([`Chain::versine_linear`] itself for a symmetric chord).
+    pub fn versine_linear_arms(&self, s: f64, arms: Arms) -> f64 {
+        if arms.is_symmetric() {
+            return self.versine_linear(s, arms.behind);
+        }
+        let (a1, a2) = (arms.behind, arms.ahead);
+        let (mut lo, mut hi) = (0, self.ramps());
+        while lo < hi {
+            let mid = lo + (hi - lo) / 2;
+            if self.ramp_end(mid) + a1 > s {
+                hi = mid;
+            } else {
+                lo = mid + 1;
+            }
+        }
+        let j_lo = lo;
+        let mut v = self.levels[j_lo].value() * 0.5 * a1 * a2;
+        for j in j_lo..self.ramps() {
+            let b = self.ramp_start(j);
+            if b - a2 >= s {
+                break;
+            }
+            let dk = self.levels[j + 1].value() - self.levels[j].value();
+            let (d, _, _) = ramp_versine_arms(s, b, self.lens[j], arms);
+            v += dk * d;
+        }
+        v
+    }
+    /// Versine at `s` for a chord with arms `arms`, including the
+    /// finite-angle term `ε` ([`Chain::versine`] for a symmetric chord).
+    pub fn versine_arms(&self, s: f64, arms: Arms, eps: f64) -> f64 {
+        if arms.is_symmetric() {
+            return self.versine(s, arms.behind, eps);
+        }
+        let v = self.versine_linear_arms(s, arms);
+        v * (1.0 + eps * v * v / finite_angle_length_sq(arms))
     }
     /// Versine at `s` including the finite-angle term `ε`.
     pub fn versine(&self, s: f64, a: f64, eps: f64) -> f64 {

@@ -104,6 +104,7 @@ impl Settings<'_> {
             s,
             v,
             a: self.input.a,
+            arms: self.input.arms,
             eps: self.input.eps,
             chord: self.input.chord,
             rss_tol: RSS_TOL_FRACTION * self.sigma_read * self.sigma_read,
@@ -111,6 +112,19 @@ impl Settings<'_> {
             ln_n: (s.len() as f64).ln() * self.opts.penalty,
             max_iterations: self.opts.max_iterations,
         }
+    }
+    /// Where each reading's curvature estimate `2v/a²` belongs: the reading's
+    /// chainage for a chord read at its middle; for arms `a₁` behind and `a₂`
+    /// ahead, the centroid of the chord's kernel, `(a₂ − a₁)/3` ahead of the
+    /// measuring point (so that the partition's joints start where the
+    /// curvature changes, not shifted by the asymmetry).
+    fn kernel_centres<'s>(&self, s: &'s [f64]) -> std::borrow::Cow<'s, [f64]> {
+        let arms = self.input.arms;
+        if arms.is_symmetric() {
+            return std::borrow::Cow::Borrowed(s);
+        }
+        let t = (arms.ahead - arms.behind) / 3.0;
+        std::borrow::Cow::Owned(s.iter().map(|x| x + t).collect())
     }
     /// Typed partition at penalty noise `sigma_pen`, then the group fits.
     fn search_at(
@@ -124,7 +138,7 @@ impl Settings<'_> {
         let kest: Vec<f64> = v.iter().map(|x| 2.0 * x / (a * a)).collect();
         let sigma_k = 2.0 * sigma_pen / (a * a);
         let o1 = segment::DpOptions { sigma_k, ..*base };
-        let segs = segment::typed_partition(s, &kest, &o1);
+        let segs = segment::typed_partition(&self.kernel_centres(s), &kest, &o1);
         let zero_tol = ZERO_LEVEL_SIGMAS * sigma_k / (chord / self.input.spacing).max(1.0).sqrt();
         let chain = segment::chain_from_segments(&segs, zero_tol, STEP_START_CHORDS * chord);
         let groups = search::split_groups(&chain, chord);
@@ -169,11 +183,11 @@ impl Settings<'_> {
         fits: &[GroupFit],
         coarse: &noise::Straights,
     ) -> (f64, f64, noise::Straights) {
-        let (a, eps) = (self.input.a, self.input.eps);
+        let (arms, eps) = (self.input.arms, self.input.eps);
         let resid: Vec<f64> = s
             .iter()
             .zip(v)
-            .map(|(&x, &o)| o - chain.versine(x, a, eps))
+            .map(|(&x, &o)| o - chain.versine_arms(x, arms, eps))
             .collect();
         let p: usize = fits.iter().map(|g| search::n_params(&g.chain)).sum();
         let raw = noise::residual_sigma(&self.informative(v, &resid), p);
@@ -270,7 +284,7 @@ impl Settings<'_> {
             .iter()
             .map(|x| 2.0 * x / (self.input.a * self.input.a))
             .collect();
-        let segs0 = segment::typed_partition(&s, &kest, &coarse_dp);
+        let segs0 = segment::typed_partition(&self.kernel_centres(&s), &kest, &coarse_dp);
         let runs = noise::runs_from_segments(&segs0, &s, self.input.chord);
         let coarse = noise::on_straights(runs, &v, self.input.chord, self.input.spacing);
         let bias = coarse
@@ -344,7 +358,7 @@ pub(super) fn search_robust(st: &Settings) -> (Searched, Vec<usize>, Vec<usize>)
             .s
             .iter()
             .zip(&inp.v)
-            .map(|(&x, &o)| o - shift - sr.chain.versine(x, inp.a, inp.eps))
+            .map(|(&x, &o)| o - shift - sr.chain.versine_arms(x, inp.arms, inp.eps))
             .collect();
         let flagged = capped(outliers::confirm(&r_all, sr.sigma_res));
         if flagged == excluded || round >= OUTLIER_ROUNDS {
@@ -378,7 +392,7 @@ pub(super) fn describe_outliers(
         .iter()
         .map(|&i| {
             let r = &plan.stations[inp.index[i]];
-            let model = sr.chain.versine(inp.s[i], inp.a, inp.eps) + shift;
+            let model = sr.chain.versine_arms(inp.s[i], inp.arms, inp.eps) + shift;
             let expected = r.rail.chord_side(model);
             let read = r.versine.unwrap_or(f64::NAN);
             let tol = outliers::OUTLIER_Z * 0.5 * sr.sigma_res + 0.5 * step.unwrap_or(0.0);

@@ -183,8 +183,10 @@ pub(super) struct Problem<'a> {
     pub s: &'a [f64],
     /// Chord-side versines (m).
     pub v: &'a [f64],
-    /// Half chord (m).
+    /// Half chord (m; the mean arm `√(a₁a₂)` for a chord not read at its middle).
     pub a: f64,
+    /// The chord's arms.
+    pub arms: crate::survey::Arms,
     /// Finite-angle factor of the marking.
     pub eps: f64,
     /// Chord (m).
@@ -205,7 +207,7 @@ impl Problem<'_> {
         lm::Data {
             s: &self.s[lo_idx..hi_idx],
             v: &self.v[lo_idx..hi_idx],
-            a: self.a,
+            arms: self.arms,
             eps: self.eps,
             lo,
             hi,

@@ -18,8 +18,8 @@
 //! 1998 (from memory); METHODS.md §3.
 
 use super::banded::BandedLsq;
-use crate::chord::curvature_from_versine;
-use crate::survey::Marking;
+use crate::chord::curvature_from_versine_arms;
+use crate::survey::{Arms, Marking};
 use rayon::prelude::*;
 
 /// A knot grid with curvature values.
@@ -56,22 +56,58 @@ impl KnotCurve {
 /// The knot spacing used for readings at median spacing `d` with half chord `a`:
 /// `a/m` with `m = round(a/d)` kept between 2 and 8, so the knots coincide
 /// with the readings when 2 ≤ a/d ≤ 8, and stay at `a/8` for denser readings
-/// (curvature detail shorter than a chord is not observable anyway).
-pub(crate) fn knot_spacing(a: f64, d: f64) -> f64 {
-    let m = (a / d).round().clamp(2.0, 8.0);
-    a / m
+/// (curvature detail shorter than a chord is not observable anyway). For a
+/// chord not read at its middle: the smallest whole number of reading
+/// spacings that is at least an eighth of the mean arm `√(a₁a₂)`, so that the
+/// knots fall on readings (which fall on both chord ends).
+pub(crate) fn knot_spacing(arms: Arms, d: f64) -> f64 {
+    if arms.is_symmetric() {
+        let a = arms.behind;
+        let m = (a / d).round().clamp(2.0, 8.0);
+        return a / m;
+    }
+    d * (mean_arm(arms) / (8.0 * d)).ceil().max(1.0)
+}
+
+/// The length scale of a chord for the penalty weight and the noise
+/// propagation: the half chord, or `√(a₁a₂)` for a chord not read at its middle.
+pub(crate) fn mean_arm(arms: Arms) -> f64 {
+    if arms.is_symmetric() {
+        arms.behind
+    } else {
+        arms.product().sqrt()
+    }
 }
 
 /// Kernel row of the reading at `s`: returns the first knot and fills `out`
 /// with the weights (exact for the piecewise-linear curvature: Simpson's rule
-/// on pieces where the integrand is quadratic).
-fn kernel_row(s: f64, a: f64, t0: f64, h: f64, nk: usize, out: &mut Vec<f64>) -> usize {
+/// on pieces where the integrand is quadratic). The kernel is the triangle
+/// `(a − |u|)/2` on `[−a, a]` for a symmetric chord, and for arms `a₁`
+/// behind and `a₂` ahead the triangle with its apex `a₁a₂/(a₁ + a₂)` at the
+/// measuring point, `a₂(a₁ + u)/(a₁ + a₂)` behind and `a₁(a₂ − u)/(a₁ + a₂)`
+/// ahead (the second difference of `v = [a₂y(s − a₁) + a₁y(s + a₂)]/(a₁ + a₂) − y(s)`).
+fn kernel_row(s: f64, arms: Arms, t0: f64, h: f64, nk: usize, out: &mut Vec<f64>) -> usize {
     out.clear();
-    let (lo, hi) = (s - a, s + a);
+    let (a, a1, a2) = (arms.behind, arms.behind, arms.ahead);
+    let sym = arms.is_symmetric();
+    let (lo, hi) = if sym {
+        (s - a, s + a)
+    } else {
+        (s - a1, s + a2)
+    };
     let jf = (((lo - t0) / h).floor().max(0.0) as usize).min(nk - 1);
     let jl = ((((hi - t0) / h).ceil().max(0.0)) as usize).min(nk - 1);
     out.resize(jl - jf + 1, 0.0);
-    let w = |t: f64| 0.5 * (a - (t - s).abs()).max(0.0);
+    let c = a1 + a2;
+    let w = |t: f64| {
+        if sym {
+            0.5 * (a - (t - s).abs()).max(0.0)
+        } else if t < s {
+            (a2 * (a1 - (s - t)) / c).max(0.0)
+        } else {
+            (a1 * (a2 - (t - s)) / c).max(0.0)
+        }
+    };
     for j in jf..jl {
         let tj = t0 + j as f64 * h;
         let (p0, q0) = (tj.max(lo), (tj + h).min(hi));
@@ -99,19 +135,28 @@ fn kernel_row(s: f64, a: f64, t0: f64, h: f64, nk: usize, out: &mut Vec<f64>) ->
     jf
 }
 
-/// Linearised versines: `κ(v)·a²/2` through the reading's own circle.
+/// Linearised versines: `κ(v)·a²/2` (`κ(v)·a₁a₂/2` for arms `a₁`, `a₂`)
+/// through the reading's own circle.
 /// Errors with the index of a reading too large for its chord.
 pub(crate) fn linearise(
     v: &[Option<f64>],
-    a: f64,
+    arms: Arms,
     marking: Marking,
 ) -> Result<Vec<Option<f64>>, usize> {
+    let (a, a1, a2) = (arms.behind, arms.behind, arms.ahead);
+    let sym = arms.is_symmetric();
     v.iter()
         .enumerate()
         .map(|(i, x)| match x {
             None => Ok(None),
-            Some(x) => curvature_from_versine(*x, a, marking)
-                .map(|k| Some(0.5 * k * a * a))
+            Some(x) => curvature_from_versine_arms(*x, arms, marking)
+                .map(|k| {
+                    Some(if sym {
+                        0.5 * k * a * a
+                    } else {
+                        0.5 * k * a1 * a2
+                    })
+                })
                 .ok_or(i),
         })
         .collect()
@@ -130,16 +175,17 @@ struct Rows {
     y: Vec<f64>,
 }
 
-fn grid(s: &[f64], a: f64, h: f64) -> Option<(f64, usize, usize)> {
+fn grid(s: &[f64], arms: Arms, h: f64) -> Option<(f64, usize, usize)> {
     let (first, last) = (*s.first()?, *s.last()?);
-    let t0 = first - a;
-    let nk = (((last + a - t0) / h) - 1e-9).ceil().max(2.0) as usize + 1;
-    let m = (a / h).ceil() as usize;
-    Some((t0, nk, 2 * m + 3))
+    let (a1, a2) = (arms.behind, arms.ahead);
+    let t0 = first - a1;
+    let nk = (((last + a2 - t0) / h) - 1e-9).ceil().max(2.0) as usize + 1;
+    let w = (a1 / h).ceil() as usize + (a2 / h).ceil() as usize + 3;
+    Some((t0, nk, w))
 }
 
-fn build_rows(s: &[f64], v: &[Option<f64>], a: f64, h: f64, sigma: f64) -> Option<Rows> {
-    let (t0, nk, w) = grid(s, a, h)?;
+fn build_rows(s: &[f64], v: &[Option<f64>], arms: Arms, h: f64, sigma: f64) -> Option<Rows> {
+    let (t0, nk, w) = grid(s, arms, h)?;
     let inv = 1.0 / sigma;
     let mut rows = Rows {
         t0,
@@ -152,7 +198,7 @@ fn build_rows(s: &[f64], v: &[Option<f64>], a: f64, h: f64, sigma: f64) -> Optio
     let mut row = Vec::with_capacity(w);
     for (si, vi) in s.iter().zip(v) {
         let Some(vi) = vi else { continue };
-        let jf = kernel_row(*si, a, t0, h, nk, &mut row);
+        let jf = kernel_row(*si, arms, t0, h, nk, &mut row);
         rows.first.push(jf);
         let base = rows.coef.len();
         rows.coef.resize(base + w, 0.0);
@@ -216,12 +262,12 @@ struct ChunkRows {
 pub(crate) fn solve(
     s: &[f64],
     v: &[Option<f64>],
-    a: f64,
+    arms: Arms,
     h: f64,
     sigma: f64,
     rho: f64,
 ) -> Option<KnotCurve> {
-    let (t0, nk, w) = grid(s, a, h)?;
+    let (t0, nk, w) = grid(s, arms, h)?;
     let mut lsq = BandedLsq::new(nk, w);
     let inv = 1.0 / sigma;
     let mut next = 0;
@@ -231,7 +277,7 @@ pub(crate) fn solve(
         let mut row = Vec::with_capacity(w);
         for (si, vi) in s[lo..hi].iter().zip(&v[lo..hi]) {
             let Some(vi) = vi else { continue };
-            let jf = kernel_row(*si, a, t0, h, nk, &mut row);
+            let jf = kernel_row(*si, arms, t0, h, nk, &mut row);
             for x in row.iter_mut() {
                 *x *= inv;
             }
@@ -271,10 +317,11 @@ pub(crate) fn solve(
 pub(crate) fn fit(
     s: &[f64],
     v: &[Option<f64>],
-    a: f64,
+    arms: Arms,
     h: f64,
     sigma: f64,
 ) -> Option<(KnotCurve, f64)> {
+    let a = mean_arm(arms);
     let n = s.len();
     let windows: Vec<(usize, usize)> = if n <= 12_000 {
         vec![(0, n)]
@@ -290,7 +337,7 @@ pub(crate) fn fit(
     // The windows are independent: on the pool's threads, summed in order.
     let rows: Vec<Rows> = windows
         .par_iter()
-        .map(|&(lo, hi)| build_rows(&s[lo..hi], &v[lo..hi], a, h, sigma))
+        .map(|&(lo, hi)| build_rows(&s[lo..hi], &v[lo..hi], arms, h, sigma))
         .collect::<Option<_>>()?;
     let nvalid: usize = rows.iter().map(|r| r.y.len()).sum();
     let scale = a * h / sigma;
@@ -336,7 +383,7 @@ pub(crate) fn fit(
             k,
         }
     } else {
-        solve(s, v, a, h, sigma, rho)?
+        solve(s, v, arms, h, sigma, rho)?
     };
     Some((curve, p))
 }
@@ -412,7 +459,7 @@ mod tests {
         // METHODS §3: W_{i,i+j} = d(a − |j|d)/2 for 0<|j|<m, a d/2 − d²/6 at j=0, d²/12 at |j|=m.
         let (a, d) = (10.0, 2.0);
         let mut row = Vec::new();
-        let jf = kernel_row(50.0, a, 0.0, d, 200, &mut row);
+        let jf = kernel_row(50.0, Arms::symmetric(a), 0.0, d, 200, &mut row);
         assert_eq!(jf, 20);
         let m = 5usize;
         assert!((row.iter().sum::<f64>() - 0.5 * a * a).abs() < 1e-12);

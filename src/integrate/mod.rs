@@ -422,6 +422,15 @@ fn check_setup(setup: &Setup, opts: &IntegrateOptions) -> Result<(), IntegrateEr
             value: setup.chord,
         });
     }
+    if let Some(b) = setup.behind
+        && !(b.is_finite() && b > 0.0 && b < setup.chord)
+    {
+        return Err(IntegrateError::BadSetup {
+            what: "the arm behind the measuring point",
+            need: "a positive length in metres, shorter than the chord",
+            value: b,
+        });
+    }
     if !(setup.gauge.is_finite() && setup.gauge >= 0.0 && setup.gauge < 0.5 * setup.chord.max(4.0))
     {
         return Err(IntegrateError::BadSetup {

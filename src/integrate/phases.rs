@@ -24,6 +24,8 @@ pub(super) struct Inputs<'a> {
     pub vcs: Vec<Option<f64>>,
     /// Half chord, metres.
     pub a: f64,
+    /// The chord's arms (both `a` for a chord read at its middle).
+    pub arms: crate::survey::Arms,
     /// Steps between consecutive readings, metres.
     pub deltas: Vec<f64>,
     /// Step to the next reading (the last one repeats the step before it).
@@ -54,6 +56,7 @@ impl<'a> Inputs<'a> {
             s,
             vcs: rd.iter().map(|r| r.chord_side()).collect(),
             a,
+            arms: setup.arms(),
             deltas,
             spacing_fwd,
         }
@@ -64,8 +67,12 @@ impl<'a> Inputs<'a> {
         -r.offset_left(self.setup.gauge)
     }
 
-    /// Whether the readings are every half chord (within 5 mm or 0.1 %).
+    /// Whether the readings are every half chord (within 5 mm or 0.1 %) of
+    /// a chord read at its middle.
     pub fn classic_spacing(&self) -> bool {
+        if !self.arms.is_symmetric() {
+            return false;
+        }
         let tol = (5e-3_f64).max(1e-3 * self.a);
         self.deltas.iter().all(|d| (d - self.a).abs() <= tol)
     }
@@ -314,7 +321,8 @@ pub(super) fn dense_nominal(
     sigma: f64,
     diags: &mut Vec<Diagnostic>,
 ) -> Result<Nominal, IntegrateError> {
-    let (survey, setup, s, vcs, a) = (inp.survey, inp.setup, &inp.s, &inp.vcs, inp.a);
+    let (survey, setup, s, vcs, arms) = (inp.survey, inp.setup, &inp.s, &inp.vcs, inp.arms);
+    let a = dense::mean_arm(arms);
     let (rd, n, spacing_fwd) = (&survey.readings, survey.readings.len(), &inp.spacing_fwd);
     let (deltas, src) = (&inp.deltas, survey.source.clone());
     let too_large = |i: usize| inp.too_large(i);
@@ -333,11 +341,11 @@ pub(super) fn dense_nominal(
             chainage: rd[i].chainage,
         });
     }
-    let vlin = dense::linearise(vcs, a, setup.marking).map_err(too_large)?;
+    let vlin = dense::linearise(vcs, arms, setup.marking).map_err(too_large)?;
     let mut ds = deltas.clone();
     let dmed = crate::numeric::median_in_place(&mut ds).unwrap_or(a);
-    let h = dense::knot_spacing(a, dmed);
-    let (curve, p) = dense::fit(s, &vlin, a, h, sigma)
+    let h = dense::knot_spacing(arms, dmed);
+    let (curve, p) = dense::fit(s, &vlin, arms, h, sigma)
         .ok_or_else(|| IntegrateError::CurvatureFit { file: src.clone() })?;
     let (pos, th, ks) = dense::integrate_curve(&curve, s);
     let g = g_of(rd[0].rail);
@@ -378,10 +386,17 @@ pub(super) fn dense_nominal(
         );
     }
     gap_log.finish(diags);
-    diags.push(Diagnostic::note(format!(
+    if arms.is_symmetric() {
+        diags.push(Diagnostic::note(format!(
             "readings closer than the half chord (median spacing {:.3} m): regularised curvature estimate on knots every {:.3} m, penalty weight 10^{:.2} (discrepancy principle)",
             dmed, h, p
         )));
+    } else {
+        diags.push(Diagnostic::note(format!(
+            "chord read {:.3} m from its rear end and {:.3} m from its front end (median spacing {:.3} m): regularised curvature estimate through the asymmetric chord's kernel on knots every {:.3} m, penalty weight 10^{:.2} (discrepancy principle)",
+            arms.behind, arms.ahead, dmed, h, p
+        )));
+    }
     Ok(nom)
 }
 

@@ -190,14 +190,14 @@ fn elements_of_chain(c: &Chain, offset: f64, first: f64, last: f64) -> Vec<Desig
 /// Design versines (field convention) of `chain` at every reading: the
 /// fit's, changed by the model versine difference from the fitted chain.
 fn versines(survey: &Survey, setup: &Setup, fit: &FitResult, base: &Chain, c: &Chain) -> Vec<f64> {
-    let a = setup.half_chord();
+    let a = setup.arms();
     let eps = crate::fit::model::marking_epsilon(setup.marking);
     survey
         .readings
         .iter()
         .zip(&fit.design_versine)
         .map(|(r, &d)| {
-            let dv = c.versine(r.chainage, a, eps) - base.versine(r.chainage, a, eps);
+            let dv = c.versine_arms(r.chainage, a, eps) - base.versine_arms(r.chainage, a, eps);
             d + r.rail.chord_side(dv)
         })
         .collect()

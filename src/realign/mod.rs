@@ -389,6 +389,18 @@ pub enum SlewError {
         /// Spacing at the start, metres.
         expected: f64,
     },
+    /// Slews were asked for on a chord not read at its middle.
+    #[error(
+        "{file}: slews are worked out for a chord read at its middle, and this chord is read {behind:.3} m from its rear end and {ahead:.3} m from its front end; leave out --slews, --fixed, --max-slew, --limit and --design for this survey, or give a survey taken with a symmetric chord"
+    )]
+    AsymmetricChord {
+        /// The survey.
+        file: String,
+        /// Arm behind the measuring point, metres.
+        behind: f64,
+        /// Arm ahead of the measuring point, metres.
+        ahead: f64,
+    },
     /// The half chord is not a whole number of reading spacings.
     #[error(
         "{file}: the half chord {half_chord:.4} m is not a whole number of reading spacings ({spacing:.4} m); check --chord"
@@ -500,6 +512,7 @@ impl SlewError {
         matches!(
             self,
             SlewError::Infeasible { .. }
+                | SlewError::AsymmetricChord { .. }
                 | SlewError::FixedOutside { .. }
                 | SlewError::Option { .. }
         )

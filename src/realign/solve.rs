@@ -271,6 +271,14 @@ fn section(survey: &Survey, opts: &SlewOptions) -> Result<(usize, usize), SlewEr
 
 /// Readings per half chord, after checking the spacing and the length.
 fn half_chord_steps(file: &str, rd: &[Reading], setup: &Setup) -> Result<usize, SlewError> {
+    let arms = setup.arms();
+    if !arms.is_symmetric() {
+        return Err(SlewError::AsymmetricChord {
+            file: file.into(),
+            behind: arms.behind,
+            ahead: arms.ahead,
+        });
+    }
     let n = rd.len();
     if n < 2 {
         return Err(SlewError::TooShort {

@@ -57,8 +57,8 @@ pub fn summary(r: &Results) -> String {
     );
     let _ = writeln!(
         s,
-        "set-up   {} {lu} chord, {} marking, gauge {}",
-        fmt_len(u, r.setup.chord),
+        "set-up   {}, {} marking, gauge {}",
+        chord_words(u, &r.setup),
         match r.setup.marking {
             crate::survey::Marking::Taped => "taped",
             crate::survey::Marking::Wire => "fixed-wire",
@@ -201,8 +201,8 @@ pub fn summary_short(r: &Results) -> String {
     );
     let _ = writeln!(
         s,
-        "set-up   {} {lu} chord, {} rail, reading sd {:.2} {}",
-        fmt_len(u, r.setup.chord),
+        "set-up   {}, {} rail, reading sd {:.2} {}",
+        chord_words(u, &r.setup),
         r.setup.rail.name(),
         vu.from_m(r.plan.reading_sd),
         vu.suffix()
@@ -279,6 +279,23 @@ fn short_fit_lines(s: &mut String, f: &crate::fit::FitResult, u: LengthUnit) {
         u.from_m(st.residual_max.1),
         vs = vu.suffix()
     );
+}
+
+/// The chord as the set-up lines state it: `20 m chord`, or for a chord not
+/// read at its middle `10.5 m chord read 4 m behind and 6.5 m ahead`.
+pub(crate) fn chord_words(u: LengthUnit, setup: &crate::survey::Setup) -> String {
+    let lu = u.suffix();
+    let arms = setup.arms();
+    if arms.is_symmetric() {
+        format!("{} {lu} chord", fmt_len(u, setup.chord))
+    } else {
+        format!(
+            "{} {lu} chord read {} {lu} behind and {} {lu} ahead",
+            fmt_len(u, setup.chord),
+            fmt_len(u, arms.behind),
+            fmt_len(u, arms.ahead)
+        )
+    }
 }
 
 fn fmt_len(u: LengthUnit, m: f64) -> String {

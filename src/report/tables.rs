@@ -49,8 +49,17 @@ pub(super) fn about(r: &Results, rec: &RunRecord) -> String {
     row(
         "set-up",
         format!(
-            "chord {} {lu}; {} rail (facing increasing chainage); {}; gauge {}; reading sd {}",
-            fmt_num(u.from_m(s.chord)),
+            "chord {}; {} rail (facing increasing chainage); {}; gauge {}; reading sd {}",
+            if s.is_symmetric() {
+                format!("{} {lu}", fmt_num(u.from_m(s.chord)))
+            } else {
+                format!(
+                    "{} {lu}, read {} {lu} from its rear end and {} {lu} from its front end",
+                    fmt_num(u.from_m(s.chord)),
+                    fmt_num(u.from_m(s.arms().behind)),
+                    fmt_num(u.from_m(s.arms().ahead))
+                )
+            },
             r.setup.rail.name(),
             match s.marking {
                 Marking::Taped => "marks taped along the rail",

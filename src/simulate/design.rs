@@ -105,6 +105,8 @@ struct DesignKeys {
     resolution_in: Option<IgnoredAny>,
     irregularity_in: Option<IgnoredAny>,
     start_chainage_ft: Option<IgnoredAny>,
+    chord_behind_m: Option<IgnoredAny>,
+    chord_behind_ft: Option<IgnoredAny>,
     /// Free text for the reader of the file.
     description: Option<IgnoredAny>,
 }
@@ -267,7 +269,7 @@ const fn key(
 /// Every set-up length of a design file, in the order [`Reader::setup`]
 /// reads them: long ones in metres or feet, small ones in millimetres or
 /// inches (the gauge in metres, or in inches as the trade writes 4 ft 8½ in).
-const LENGTH_KEYS: [LengthKey; 8] = [
+const LENGTH_KEYS: [LengthKey; 9] = [
     key("chord_m", "chord_ft", 1.0, FOOT),
     key("spacing_m", "spacing_ft", 1.0, FOOT),
     key("gauge_m", "gauge_in", 1.0, INCH),
@@ -276,6 +278,7 @@ const LENGTH_KEYS: [LengthKey; 8] = [
     key("resolution_mm", "resolution_in", 1e-3, INCH),
     key("irregularity_mm", "irregularity_in", 1e-3, INCH),
     key("start_chainage_m", "start_chainage_ft", 1.0, FOOT),
+    key("chord_behind_m", "chord_behind_ft", 1.0, FOOT),
 ];
 
 impl LengthKey {
@@ -418,6 +421,8 @@ impl Reader<'_> {
             Ok(self.num(obj, k.name(units), default_m / f)? * f)
         };
         let chord = len(0, 20.0)?;
+        let behind = self.behind(obj, units, chord)?;
+        let arms = crate::survey::arms_of(chord, behind);
         let rail = match self.word(obj, "rail", ["left", "right"], "rail")? {
             "left" => Rail::Left,
             _ => Rail::Right,
@@ -428,7 +433,8 @@ impl Reader<'_> {
         };
         Ok(SimSetup {
             chord,
-            spacing: len(1, 0.5 * chord)?,
+            behind,
+            spacing: len(1, super::default_spacing(arms, units.long()))?,
             rail,
             gauge: self.gauge(len(2, crate::survey::Setup::STANDARD_GAUGE)?, units)?,
             marking,
@@ -441,6 +447,32 @@ impl Reader<'_> {
             chainage_unit: units.long(),
             versine_unit: units.long().versine_unit(),
         })
+    }
+
+    /// The arm behind the measuring point (`chord_behind_m`/`_ft`), if the
+    /// file gives one: it must lie strictly inside the chord.
+    fn behind(&self, obj: &Obj, units: Units, chord: f64) -> Result<Option<f64>, DesignError> {
+        let k = &LENGTH_KEYS[8];
+        let name = k.name(units);
+        if obj.get(name).is_none_or(|v| v.is_null()) {
+            return Ok(None);
+        }
+        let f = k.metres(units);
+        let b = self.num(obj, name, 0.0)? * f;
+        if !(b > 0.0 && b < chord) {
+            return Err(self.bad(
+                name,
+                format!(
+                    "the arm behind the measuring point must be longer than zero and shorter than the chord ({} {}); e.g. 4 with a chord of 10.5 reads 4 behind and 6.5 ahead",
+                    (chord / f * 1e4).round() / 1e4,
+                    match units {
+                        Units::Metric => "m",
+                        Units::Imperial => "ft",
+                    }
+                ),
+            ));
+        }
+        Ok(Some(b))
     }
 
     /// The gauge (metres) if it is one of real track, else the error naming

@@ -93,6 +93,20 @@ pub enum SimulateError {
         /// A tenth of the half chord, for the message.
         tenth: SimLength,
     },
+    /// The mark spacing does not divide both arms of an asymmetric chord.
+    #[error(
+        "the mark spacing {spacing} does not divide both arms of the chord ({behind} behind the measuring point, {ahead} ahead): the marks must fall on the chord's ends; {works}"
+    )]
+    SpacingDoesNotFitArms {
+        /// Spacing given.
+        spacing: SimLength,
+        /// Arm behind.
+        behind: SimLength,
+        /// Arm ahead.
+        ahead: SimLength,
+        /// What would work, as a sentence.
+        works: String,
+    },
     /// The design is too short for a single chord.
     #[error(
         "the design is {length:.3} long along the rail, shorter than one chord ({chord}): add elements or shorten the chord"

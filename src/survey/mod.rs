@@ -111,11 +111,83 @@ pub struct Survey {
     pub has_side_column: bool,
 }
 
+/// The two arms of a chord: from the rear end to the measuring point
+/// (`behind`, towards decreasing chainage) and from the measuring point to
+/// the front end (`ahead`), metres. A hand survey's chord is read at its
+/// middle (`behind == ahead`); recording vehicles and some trolleys read at
+/// another point of their beam.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Arms {
+    /// Rear end to measuring point, metres (towards decreasing chainage).
+    pub behind: f64,
+    /// Measuring point to front end, metres (towards increasing chainage).
+    pub ahead: f64,
+}
+
+impl Arms {
+    /// The arms of a chord read at its middle: `half` either side.
+    pub fn symmetric(half: f64) -> Self {
+        Arms {
+            behind: half,
+            ahead: half,
+        }
+    }
+
+    /// Whether the measuring point is the middle of the chord (bit-equal arms).
+    pub fn is_symmetric(&self) -> bool {
+        self.behind == self.ahead
+    }
+
+    /// The whole chord, `behind + ahead`, metres.
+    pub fn chord(&self) -> f64 {
+        self.behind + self.ahead
+    }
+
+    /// `behind · ahead` (m²): a circle of curvature `k` gives the small-angle
+    /// versine `k · behind · ahead / 2` (the half chord squared when symmetric).
+    pub fn product(&self) -> f64 {
+        self.behind * self.ahead
+    }
+
+    /// The longest spacing (metres) that divides both arms, as a whole
+    /// number of thousandths of `unit` (`None` when an arm is not a whole
+    /// number of them, or too long to count in them): readings at this
+    /// spacing, or a whole fraction of it, fall on both ends of the chord.
+    pub fn common_spacing(&self, unit: LengthUnit) -> Option<f64> {
+        let milli = 1e-3 * unit.metres();
+        let count = |x: f64| {
+            let t = x / milli;
+            let n = t.round();
+            ((t - n).abs() < 1e-6 && (1.0..1e12).contains(&n)).then_some(n as u64)
+        };
+        let (mut p, mut q) = (count(self.behind)?, count(self.ahead)?);
+        while q != 0 {
+            (p, q) = (q, p % q);
+        }
+        Some(p as f64 * milli)
+    }
+
+    /// The chord of the symmetric chord that reads the same versine on a
+    /// circle (small-angle form): `2 √(behind · ahead)`, metres; the chord
+    /// itself when symmetric.
+    pub fn equivalent_chord(&self) -> f64 {
+        if self.is_symmetric() {
+            self.chord()
+        } else {
+            2.0 * self.product().sqrt()
+        }
+    }
+}
+
 /// What the survey file does not say: chord, gauge, station marking, noise.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Setup {
     /// Nominal chord length, metres (the distance between the wire's ends).
     pub chord: f64,
+    /// Arm behind the measuring point (towards decreasing chainage), metres,
+    /// for a chord not read at its middle; `None` (the usual hand survey)
+    /// for a chord read at its middle. The arm ahead is `chord − behind`.
+    pub behind: Option<f64>,
     /// Track gauge between running edges, metres (standard gauge 1.435 m).
     pub gauge: f64,
     /// How the stations were marked.
@@ -140,6 +212,7 @@ impl Setup {
     pub fn new(chord: f64, rail: Rail) -> Self {
         Setup {
             chord,
+            behind: None,
             gauge: Self::STANDARD_GAUGE,
             marking: Marking::Taped,
             rail,
@@ -147,8 +220,38 @@ impl Setup {
         }
     }
 
+    /// A set-up for a chord read `behind` metres from its rear end and
+    /// `ahead` metres from its front end (standard gauge, taped marks).
+    pub fn with_arms(behind: f64, ahead: f64, rail: Rail) -> Self {
+        let mut s = Setup::new(behind + ahead, rail);
+        s.behind = (behind != ahead).then_some(behind);
+        s
+    }
+
     /// Half the chord: the classic station spacing.
     pub fn half_chord(&self) -> f64 {
         0.5 * self.chord
+    }
+
+    /// The chord's two arms (both the half chord when it is read at its middle).
+    pub fn arms(&self) -> Arms {
+        arms_of(self.chord, self.behind)
+    }
+
+    /// Whether the chord is read at its middle.
+    pub fn is_symmetric(&self) -> bool {
+        self.arms().is_symmetric()
+    }
+}
+
+/// The arms of a chord of length `chord` read `behind` from its rear end
+/// (`None`: at its middle).
+pub fn arms_of(chord: f64, behind: Option<f64>) -> Arms {
+    match behind {
+        Some(b) if b != 0.5 * chord => Arms {
+            behind: b,
+            ahead: chord - b,
+        },
+        _ => Arms::symmetric(0.5 * chord),
     }
 }

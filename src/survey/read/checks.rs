@@ -8,6 +8,8 @@ use crate::diag::{Diagnostic, Location};
 use crate::survey::{Marking, Reading};
 use crate::units::VersineUnit;
 
+mod arms;
+
 /// Smallest curve radius that any railway has, metres. Tramways go down to
 /// about 15–20 m and main lines rarely below 150 m (common practice, from
 /// memory); a versine implying less than this is not a railway reading.
@@ -54,6 +56,8 @@ pub(crate) struct Context<'a> {
     pub file: &'a str,
     pub cols: &'a Columns,
     pub chord: f64,
+    /// The chord's arms (both half the chord when it is read at its middle).
+    pub arms: crate::survey::Arms,
     pub marking: Marking,
     /// Every chainage is written like `1.010` in a file with decimal commas
     /// (the '.' may separate thousands).
@@ -91,6 +95,9 @@ impl Context<'_> {
     /// For feet surveys, the half chord in feet (", that is 32.808 ft,"),
     /// so that a metric chord is not misread; empty for metres.
     fn half_note(&self) -> String {
+        if !self.arms.is_symmetric() {
+            return String::new();
+        }
         match self.cols.chainage_unit {
             crate::units::LengthUnit::Metre => String::new(),
             crate::units::LengthUnit::Foot => format!(", that is {},", self.len(0.5 * self.chord)),
@@ -101,6 +108,9 @@ impl Context<'_> {
     /// for a feet file, feet when the chord is a whole number of thousandths
     /// of a foot (62 ft), else metres with the feet beside ("20 m (65.617 ft)").
     fn chord_text(&self) -> String {
+        if !self.arms.is_symmetric() {
+            return self.arms_text();
+        }
         let m = format!("{} m", fmt_num((self.chord * 1e4).round() / 1e4));
         let u = self.cols.chainage_unit;
         match u {
@@ -114,6 +124,21 @@ impl Context<'_> {
                 }
             }
         }
+    }
+    /// The arms of a chord not read at its middle, `4 m + 6.5 m`, in the
+    /// file's chainage unit.
+    fn arms_text(&self) -> String {
+        format!(
+            "{} + {}",
+            self.len(self.arms.behind),
+            self.len(self.arms.ahead)
+        )
+    }
+    /// The chord whose circle relation the versine checks use: the chord, or
+    /// for arms `a₁`, `a₂` the symmetric chord `2√(a₁a₂)` that reads the
+    /// same versine on a circle.
+    fn versine_chord(&self) -> f64 {
+        self.arms.equivalent_chord()
     }
     /// A radius in the file's chainage unit, rounded to `decimals`.
     fn radius(&self, metres: f64, decimals: i32) -> String {
@@ -138,7 +163,7 @@ pub(crate) fn spacing(
 ) -> Result<(Vec<bool>, f64), SurveyError> {
     let nominal = nominal_spacing(ctx, r)?;
     let (m, s_nom) = (nominal.steps_per_half_chord, nominal.spacing);
-    if ctx.marking == Marking::Taped && m > MAX_TAPED_STEPS {
+    if ctx.marking == Marking::Taped && m > MAX_TAPED_STEPS && ctx.arms.is_symmetric() {
         diags.push(
             Diagnostic::warning(format!(
                 "the readings are {} apart, {} to the half chord of {}: a hand survey with taped marks reads every half chord or a few times more often",
@@ -176,6 +201,12 @@ fn nominal_spacing(ctx: &Context<'_>, r: &[Reading]) -> Result<Nominal, SurveyEr
         .map(|w| w[1].chainage - w[0].chainage)
         .collect();
     let s_med = crate::numeric::median_in_place(&mut steps).unwrap_or(0.0);
+    if s_med < MIN_SPACING {
+        return Err(too_close(ctx, r, s_med));
+    }
+    if !ctx.arms.is_symmetric() {
+        return arms::spacing(ctx, s_med);
+    }
     let half = 0.5 * ctx.chord;
     let ratio = half / s_med;
     let m = ratio.round().max(1.0);
@@ -190,9 +221,6 @@ fn nominal_spacing(ctx: &Context<'_>, r: &[Reading]) -> Result<Nominal, SurveyEr
         );
         SurveyError::file(ctx.file, SurveyErrorKind::SpacingMisfit { what, todo })
     };
-    if s_med < MIN_SPACING {
-        return Err(too_close(ctx, r, s_med));
-    }
     if ratio < 1.0 - FIT_TOL {
         return Err(misfit(format!(
             "the readings are {} apart, more than half the chord of {}{}",
@@ -474,7 +502,7 @@ pub(crate) fn units(
         return Ok(());
     };
     // The column as a whole: a tenth of the readings or more are too large.
-    if p90 > 0.0 && implied_radius(ctx.chord, p90) < MIN_RADIUS {
+    if p90 > 0.0 && implied_radius(ctx.versine_chord(), p90) < MIN_RADIUS {
         return Err(column_implausible(ctx, p90));
     }
     let column_warned = warn_column_sharp(ctx, r, p90, diags);
@@ -508,7 +536,7 @@ fn versine_loc(ctx: &Context<'_>, line: usize) -> Location {
 /// A tenth of the versines mean curves no railway has: the error names the
 /// smaller unit that would make them plausible.
 fn column_implausible(ctx: &Context<'_>, p90: f64) -> SurveyError {
-    let (u, c, col) = (ctx.cols.versine_unit, ctx.chord, ctx.cols.versine);
+    let (u, c, col) = (ctx.cols.versine_unit, ctx.versine_chord(), ctx.cols.versine);
     let alt = smaller_units(u).iter().find_map(|&a| {
         let v = u.from_m(p90) * a.metres();
         let radius = implied_radius(c, v);
@@ -548,7 +576,7 @@ fn warn_column_sharp(
     p90: f64,
     diags: &mut Vec<Diagnostic>,
 ) -> bool {
-    let (u, c) = (ctx.cols.versine_unit, ctx.chord);
+    let (u, c) = (ctx.cols.versine_unit, ctx.versine_chord());
     let ordinary = smaller_units(u).iter().find_map(|&a| {
         let radius = implied_radius(c, u.from_m(p90) * a.metres());
         (radius >= ORDINARY_RADIUS).then_some((a, radius))
@@ -578,7 +606,7 @@ fn warn_column_sharp(
 
 /// The first single reading too large for any railway.
 fn single_reading_impossible(ctx: &Context<'_>, r: &[Reading]) -> Option<SurveyError> {
-    let c = ctx.chord;
+    let c = ctx.versine_chord();
     let (x, v) = r
         .iter()
         .filter_map(|x| x.versine.map(|v| (x, v)))
@@ -604,7 +632,7 @@ fn single_reading_impossible(ctx: &Context<'_>, r: &[Reading]) -> Option<SurveyE
 
 /// The sharpest single reading, possible but found only on tramways.
 fn warn_sharpest(ctx: &Context<'_>, r: &[Reading], diags: &mut Vec<Diagnostic>) {
-    let c = ctx.chord;
+    let c = ctx.versine_chord();
     let sharpest = r
         .iter()
         .filter_map(|x| x.versine.filter(|v| *v != 0.0).map(|v| (x.line, v)))
@@ -649,7 +677,7 @@ fn warn_metres_in_millimetres(
             "every versine in {col_name} is under 1 mm and most are written to {} or more decimals, finer than a tape or gauge reads: these look like metres (as metres the largest, {} m, means a radius of {} m on the chord of {})",
             super::FINE_DECIMALS,
             fmt_num(as_metres),
-            fmt_num(implied_radius(ctx.chord, as_metres).round()),
+            fmt_num(implied_radius(ctx.versine_chord(), as_metres).round()),
             ctx.chord_text()
         ))
         .at(versine_loc(ctx, r[0].line))

@@ -150,6 +150,16 @@ pub enum SurveyErrorKind {
         /// An example path.
         example: String,
     },
+    /// The arm behind the measuring point does not lie inside the chord.
+    #[error(
+        "the arm behind the measuring point, {behind} m, does not lie inside the chord of {chord} m; give the chord's two arms as BEHIND+AHEAD, e.g. --chord 4m+6.5m"
+    )]
+    ArmOutsideChord {
+        /// The arm behind, metres.
+        behind: f64,
+        /// The chord, metres.
+        chord: f64,
+    },
     /// The chord given is zero, negative or not a number.
     #[error(
         "the chord length {chord} m is not a positive length; give the chord the readings were taken with, e.g. --chord 20m or --chord 62ft"

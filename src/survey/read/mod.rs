@@ -62,6 +62,10 @@ pub struct ReadOptions {
     /// Nominal chord length, metres: used to check the reading spacing and
     /// the plausibility of the versines.
     pub chord: f64,
+    /// Arm behind the measuring point, metres, for a chord not read at its
+    /// middle ([`crate::survey::Setup::behind`]); the readings must then fall
+    /// on both ends of the chord.
+    pub behind: Option<f64>,
     /// How the stations were marked (changes the advice in some messages).
     pub marking: Marking,
 }
@@ -72,6 +76,7 @@ impl ReadOptions {
         ReadOptions {
             rail: None,
             chord,
+            behind: None,
             marking: Marking::Taped,
         }
     }
@@ -134,6 +139,17 @@ pub fn read_survey_bytes(
         return Err(SurveyError::file(
             name,
             SurveyErrorKind::ChordNotPositive { chord: opts.chord },
+        ));
+    }
+    if let Some(b) = opts.behind
+        && !(b.is_finite() && b > 0.0 && b < opts.chord)
+    {
+        return Err(SurveyError::file(
+            name,
+            SurveyErrorKind::ArmOutsideChord {
+                behind: b,
+                chord: opts.chord,
+            },
         ));
     }
     if opts.chord > MAX_CHORD {
@@ -249,6 +265,7 @@ impl<'a> Reader<'a> {
             file: self.name,
             cols,
             chord: self.opts.chord,
+            arms: crate::survey::arms_of(self.opts.chord, self.opts.behind),
             marking: self.opts.marking,
             thousands_like: head.decimal_comma() && stats.thousands_like == readings.len(),
         };
