@@ -736,7 +736,7 @@ mod tests {
         let d = Data {
             s: &s,
             v: &v,
-            a: 10.0,
+            arms: Arms::symmetric(10.0),
             eps: -1.0 / 3.0,
             lo: -1e9,
             hi: 1e9,

@@ -604,7 +604,7 @@ mod tests {
         let d = lm::Data {
             s: &s,
             v: &v,
-            a: 10.0,
+            arms: crate::survey::Arms::symmetric(10.0),
             eps: 0.0,
             lo: -1e9,
             hi: 1e9,
