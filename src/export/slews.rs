@@ -55,11 +55,19 @@ fn header_lines(s: &Slews, unit: LengthUnit) -> Vec<String> {
             .to_string(),
     ];
     if let (Some(a), Some(b)) = (s.chainage.first(), s.chainage.last()) {
-        out.push(format!(
-            "Work section {} to {}, held in position and direction at both ends.",
-            ch(*a),
-            ch(*b)
-        ));
+        out.push(if s.onto_placed {
+            format!(
+                "Work section {} to {}, held in position at both ends; slews are the sideways distances from the measured centreline to the placed design (elements.csv placed_*, alignment.xml, alignment.ifc).",
+                ch(*a),
+                ch(*b)
+            )
+        } else {
+            format!(
+                "Work section {} to {}, held in position and direction at both ends.",
+                ch(*a),
+                ch(*b)
+            )
+        });
     }
     if let Some(m) = s.max_slew {
         out.push(format!("Largest slew either way: {}.", len(m)));

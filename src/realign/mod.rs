@@ -79,6 +79,7 @@
 pub mod chord;
 mod design;
 mod limits;
+mod placed;
 mod solve;
 mod text;
 
@@ -88,6 +89,7 @@ pub use design::{
     parse_elements_csv,
 };
 pub use limits::parse_toward;
+pub use placed::slews_onto_placed;
 pub use solve::slews;
 pub use text::{CAUTION, direction_words, summary_line};
 
@@ -259,6 +261,12 @@ pub struct Slews {
     pub survey_len: usize,
     /// The design used when it is not the fitted one (from [`slews_for_fit`]).
     pub design: Option<DesignOutcome>,
+    /// Whether these are the slews onto the placed design
+    /// ([`slews_onto_placed`]: the sideways distances to the design written
+    /// with coordinates, the ends held in position) rather than the
+    /// versine-space solve of [`slews()`] (ends held in position and
+    /// direction).
+    pub onto_placed: bool,
 }
 
 impl Slews {
