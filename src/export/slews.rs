@@ -2,7 +2,9 @@
 //!
 //! It starts with `# ` comment lines: the caution, the work section, the
 //! constraints (largest slew, range limits, fixed points and their
-//! tolerance, the largest design versine change) and the reading sd used.
+//! tolerance, the largest design versine change) and the reading sd used;
+//! onto the placed design the section line says that the slews are the
+//! sideways distances to it and that the ends are held in position.
 //! Then one row per reading of the work section. Columns (metric survey;
 //! an imperial survey has `_ft` for the chainage and `_in` for slews and
 //! versines):

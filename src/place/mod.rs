@@ -21,6 +21,11 @@
 //! sd keeps the design on the measured centreline along the whole survey.
 //! Transitions take their end curvatures from the neighbouring arcs, so the
 //! chain stays continuous in position, heading and curvature.
+//!
+//! [`place_design_held`] adds sideways holds ([`Hold`]): the realignment's
+//! section ends, fixed points and limits, so that the slews are the distances
+//! to the one design placed and written ([`PlacedDesign::slew_at`];
+//! [`crate::realign::slews_onto_placed`]).
 
 use crate::fit::FitResult;
 use crate::geometry::{Alignment, Element, ElementKind, Pose};

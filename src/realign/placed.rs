@@ -307,7 +307,7 @@ fn infeasible(
         .max_by(|x, y| x.1.total_cmp(&y.1));
     let (i, binding, excess, over): (usize, Binding, f64, Vec<bool>) = match limit {
         Some((i, e)) => {
-            let bind = binding_at(b, i, first[i])?;
+            let bind = binding_at(b, i, first[i]).unwrap_or(Binding::VersineTolerance(tau));
             let over = (0..n)
                 .map(|k| {
                     beyond(b, k, first[k]) > LIMIT_TOL
