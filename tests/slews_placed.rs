@@ -12,7 +12,7 @@ use chordline::georef::{LonLat, Placement};
 use chordline::pipeline::{Options, process};
 use chordline::realign::SlewOptions;
 use chordline::simulate::{SimSetup, simulate, synthetic_route};
-use chordline::survey::Rail;
+use chordline::survey::{Marking, Rail};
 use common::{run_demo_to, stderr};
 use std::collections::HashMap;
 use std::path::Path;
@@ -157,12 +157,22 @@ fn a_slew_limit_bends_the_written_design() {
 /// A simulated survey with four control points (sd 10 mm, given as
 /// longitude/latitude, each a few millimetres off the truth).
 fn simulated_with_controls(seed: u64, max_slew: Option<f64>) -> chordline::pipeline::Results {
+    simulated_marked(seed, max_slew, Marking::Taped)
+}
+
+/// [`simulated_with_controls`] with the marks taped or a rigid wire.
+fn simulated_marked(
+    seed: u64,
+    max_slew: Option<f64>,
+    marking: Marking,
+) -> chordline::pipeline::Results {
     let route = Alignment::new(Pose::default(), 0.0, synthetic_route(2500.0, seed));
     let mut ss = SimSetup::classic(20.0, Rail::Left);
     ss.spacing = 5.0;
     ss.noise_sd = 0.0005;
     ss.resolution = 0.0001;
     ss.seed = seed;
+    ss.marking = marking;
     let sim = simulate(&route, &ss).unwrap();
     let pl = Placement::new(LonLat::new(9.1, 48.6).unwrap(), 0.0).unwrap();
     let n = sim.truth.len();
@@ -178,6 +188,7 @@ fn simulated_with_controls(seed: u64, max_slew: Option<f64>) -> chordline::pipel
     let file = dir.path().join("controls.csv");
     std::fs::write(&file, text).unwrap();
     let mut opts = Options::new(20.0, Rail::Left);
+    opts.setup.marking = marking;
     opts.setup.reading_sd = Some(0.0005);
     opts.georef.control = Some(file);
     opts.slew = Some(SlewOptions {
@@ -277,5 +288,52 @@ fn on_simulated_surveys_with_controls_the_slews_are_the_distances_to_the_design(
             l2 >= limit - 1e-4,
             "seed {seed}: the limit binds ({l2} of {limit})"
         );
+    }
+}
+
+/// The design versines written are those of the written design measured as
+/// the survey measured the track: the placed chain read by the independent
+/// simulator (taped marks every 5 m along the surveyed rail, or a rigid
+/// wire, the 20 m chord, no noise) agrees with the design versine of every station to 0.05 mm
+/// (the marks of the placed design sit within millimetres of the surveyed
+/// ones; a versine changes by under 0.01 mm per millimetre along these
+/// curves).
+#[test]
+fn the_design_versines_are_those_of_the_written_design() {
+    for (seed, marking) in [(3, Marking::Taped), (8, Marking::Taped), (3, Marking::Wire)] {
+        let res = simulated_marked(seed, None, marking);
+        let (al, at) = res.design.as_ref().expect("a design");
+        let mut ss = SimSetup::classic(20.0, Rail::Left);
+        ss.marking = marking;
+        ss.spacing = 5.0;
+        ss.noise_sd = 0.0;
+        ss.resolution = 0.0;
+        // The design starts at the first reading with a versine.
+        ss.start_chainage = al.start_chainage();
+        let k0 = at
+            .iter()
+            .position(|d| (d.chainage - al.start_chainage()).abs() < 1e-6)
+            .unwrap();
+        let read = simulate(al, &ss).unwrap();
+        let mut compared = 0;
+        let mut worst = 0.0f64;
+        for (t, d) in read.truth.iter().zip(&at[k0..]) {
+            let Some(v) = t.versine else { continue };
+            assert!(
+                (v - d.design_versine).abs() < 5e-5,
+                "seed {seed} at {}: the placed chain reads {:.3} mm, stations.csv has {:.3} mm",
+                d.chainage,
+                v * 1e3,
+                d.design_versine * 1e3
+            );
+            worst = worst.max((v - d.design_versine).abs());
+            compared += 1;
+        }
+        eprintln!(
+            "{marking:?} seed {seed}: design versines within {:.4} mm of the placed chain read by the simulator",
+            worst * 1e3
+        );
+        assert!(compared + 10 > at.len(), "{compared} of {}", at.len());
+        assert!(compared > 500);
     }
 }

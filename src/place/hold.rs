@@ -8,7 +8,7 @@ use super::{PlacedDesign, Target};
 use crate::fit::{FitResult, StationDesign};
 use crate::geometry::{Alignment, Pose};
 use crate::integrate::Plan;
-use crate::survey::{Rail, Setup};
+use crate::survey::{Marking, Rail, Setup};
 use nalgebra::{DMatrix, DVector};
 
 /// Standard deviation of a [`Hold`] (m): a hold is a requirement (a section
@@ -104,15 +104,36 @@ fn distance_to(al: &Alignment, mut u: f64, x: f64, y: f64) -> f64 {
     (q.x - x) * -q.heading.sin() + (q.y - y) * q.heading.cos()
 }
 
-/// Field versine of the offset line `d` of `al` at centreline distance `u`
-/// with a chord of half length `a` marked along the offset line (the marks
-/// `a` either side along the rail), read on `rail`.
-fn taped_versine(al: &Alignment, u: f64, d: f64, a: f64, rail: Rail) -> f64 {
+/// Field versine of the offset line `d` of `al` (the surveyed rail) at
+/// centreline distance `u`, read on `rail` with a chord of length `2a`:
+/// between the marks `a` either side along the rail (taped), or by a rigid
+/// wire of length `2a` whose middle is abreast of the mark (its ends found by
+/// Newton's method: the wire's length and the mark's distance along it from
+/// the middle to 1e-12 m).
+fn rail_versine(al: &Alignment, u: f64, d: f64, a: f64, rail: Rail, wire: bool) -> f64 {
     let r = al.offset_length(u, d);
-    let pt = |s: f64| al.pose_at(s).offset_left(d);
-    let p = pt(u);
-    let pa = pt(al.centreline_distance(r - a, d));
-    let pb = pt(al.centreline_distance(r + a, d));
+    let pt = |rr: f64| al.pose_at(al.centreline_distance(rr, d)).offset_left(d);
+    let p = al.pose_at(u).offset_left(d);
+    let (mut ra, mut rb) = (r - a, r + a);
+    let (mut pa, mut pb) = (pt(ra), pt(rb));
+    if wire {
+        for _ in 0..30 {
+            let (wx, wy) = (pb.0 - pa.0, pb.1 - pa.1);
+            let len = wx.hypot(wy);
+            let (mx, my) = (0.5 * (pa.0 + pb.0), 0.5 * (pa.1 + pb.1));
+            let f1 = len - 2.0 * a;
+            let f2 = ((p.0 - mx) * wx + (p.1 - my) * wy) / len;
+            // Moving an end by δ along the rail changes the length by ±δ and
+            // moves the middle by δ/2.
+            ra += f2 + 0.5 * f1;
+            rb += f2 - 0.5 * f1;
+            pa = pt(ra);
+            pb = pt(rb);
+            if f1.abs() < 1e-12 && f2.abs() < 1e-12 {
+                break;
+            }
+        }
+    }
     let (wx, wy) = (pb.0 - pa.0, pb.1 - pa.1);
     let left = (wx * (p.1 - pa.1) - wy * (p.0 - pa.0)) / wx.hypot(wy);
     // On the left rail, bowing away from the wire is bowing to the left.
@@ -132,24 +153,23 @@ impl PlacedDesign {
     }
 
     /// The design versine (field convention, m) of the placed design at
-    /// every plan station, read on the station's rail with the survey's
-    /// chord: the fit's design versine changed by the geometric versine of
-    /// the placed chain minus that of the fitted chain, so that the fit's
-    /// reading-bias and finite-angle terms carry over (for a rigid wire the
-    /// change is taken with marks along the rail, which differs from the
-    /// wire's by the square of the chord's angle, below 10⁻⁴ of it).
+    /// every plan station, measured as the survey measured the track: on the
+    /// station's rail, with the survey's chord and marking (taped marks or a
+    /// rigid wire), plus the reading bias when the fit subtracted one.
     pub fn design_versines(&self, fit: &FitResult, plan: &Plan, setup: &Setup) -> Vec<f64> {
         let a = setup.half_chord();
+        let wire = setup.marking == Marking::Wire;
+        let shift = match fit.stats.bias {
+            Some((b, _)) if fit.stats.bias_removed => b,
+            _ => 0.0,
+        };
         plan.stations
             .iter()
-            .zip(&fit.design_versine)
-            .map(|(s, &dv)| {
+            .map(|s| {
                 let d = s.rail.offset_left(setup.gauge);
                 let u0 = fit.centre_distance(s.chainage);
                 let u = distance_of(&self.alignment, self.locator.locate(u0));
-                let placed = taped_versine(&self.alignment, u, d, a, s.rail);
-                let fitted = taped_versine(&fit.design, u0, d, a, s.rail);
-                dv + placed - fitted
+                rail_versine(&self.alignment, u, d, a, s.rail, wire) + s.rail.chord_side(shift)
             })
             .collect()
     }

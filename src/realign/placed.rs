@@ -13,7 +13,8 @@
 //! limit would be broken, added round by round until none is), and the slew
 //! at every reading is the signed perpendicular distance from the measured
 //! centreline to that design. The design versines are those of the same
-//! design on the surveyed rail with the survey's chord; the change they make
+//! design on the surveyed rail with the survey's chord and marking
+//! ([`PlacedDesign::design_versines`]); the change they make
 //! to the fitted design versines is what holding the held points and the
 //! limits costs, and must stay within the versine tolerance as in the
 //! versine-space solve (otherwise [`SlewError::Infeasible`] names the
