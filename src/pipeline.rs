@@ -187,7 +187,7 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
         diagnostics.append(&mut d);
         control_checks = checks;
     }
-    let (mut fitted, mut design) = (None, None);
+    let (mut fitted, mut design, mut slews) = (None, None, None);
     if let Some(fopts) = &opts.fit {
         // One reading-noise figure: the plan's, which the fit reads from it.
         match fit(&plan, fopts) {
@@ -196,10 +196,19 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
                 if f.outliers.iter().any(|o| o.excluded) {
                     plan = bridge_outliers(&survey, &setup, &iopts, &f, plan, &mut diagnostics)?;
                 }
-                let placed = crate::place::place_design(&f, &plan, &iopts.position_obs);
+                let ctx = Stage {
+                    survey: &survey,
+                    setup: &setup,
+                    opts,
+                    fit: &f,
+                    plan: &plan,
+                    controls: &iopts.position_obs,
+                };
+                let (placed, s) = place_and_realign(&ctx, &mut diagnostics)?;
                 diagnostics.extend(crate::place::notes(&placed));
-                let at = placed.station_design(&f);
+                let at = placed.station_design(&f, &plan, &setup);
                 design = Some((placed.alignment, at));
+                slews = s;
                 fitted = Some(f);
             }
             // The plan is still useful without elements: say why they are missing.
@@ -209,7 +218,9 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
             ),
         }
     }
-    let slews = realign_stage(&survey, &setup, opts, fitted.as_ref(), &mut diagnostics)?;
+    if slews.is_none() && !slews_onto_placed(opts) {
+        slews = realign_stage(&survey, &setup, opts, fitted.as_ref(), &mut diagnostics)?;
+    }
     let advice = match (&opts.advice, &fitted) {
         (Some(a), Some(f)) => Some(crate::advice::advise(f, a)),
         (Some(_), None) => {
@@ -233,6 +244,88 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
         control_checks,
         diagnostics,
     })
+}
+
+/// What the placement and the realignment of a fitted design work on.
+struct Stage<'a> {
+    survey: &'a Survey,
+    setup: &'a Setup,
+    opts: &'a Options,
+    fit: &'a FitResult,
+    plan: &'a Plan,
+    controls: &'a [crate::integrate::PositionObs],
+}
+
+/// Whether the slews asked for are onto the fitted design, which is then
+/// the placed one ([`crate::realign::slews_onto_placed`]); slews onto the
+/// engineer's or an optimised design stay in versine space.
+fn slews_onto_placed(opts: &Options) -> bool {
+    opts.slew
+        .as_ref()
+        .is_some_and(|s| s.design == crate::realign::DesignChoice::Fitted)
+}
+
+/// The placed design and, with slews onto it, the slews: one design for
+/// both (the realignment places it with its holds). A realignment that
+/// cannot be done as asked ends the run; one the data cannot support leaves
+/// the slews out with a warning and the design placed without holds.
+fn place_and_realign(
+    c: &Stage,
+    diagnostics: &mut Vec<Diagnostic>,
+) -> Result<(crate::place::PlacedDesign, Option<crate::realign::Slews>), RunError> {
+    let place = || crate::place::place_design(c.fit, c.plan, c.controls);
+    let Some(sopts) = c.opts.slew.as_ref().filter(|_| slews_onto_placed(c.opts)) else {
+        return Ok((place(), None));
+    };
+    let sopts = sopts.in_metres(c.survey.chainage_unit.metres());
+    match crate::realign::slews_onto_placed(c.survey, c.setup, c.fit, c.plan, c.controls, &sopts) {
+        Ok((s, placed, mut d)) => {
+            diagnostics.append(&mut d);
+            Ok((placed, Some(s)))
+        }
+        Err(why @ crate::realign::SlewError::Infeasible { .. }) => {
+            // The element chain cannot meet the limits: the versine-space
+            // solve, whose design may change reading by reading, may.
+            let placed = place();
+            let s = realign_stage(c.survey, c.setup, c.opts, Some(c.fit), diagnostics)?;
+            if let Some(s) = &s {
+                diagnostics.push(versine_space_note(s, &placed, c, &why));
+            }
+            Ok((placed, s))
+        }
+        Err(e) if e.is_request() || matches!(e, crate::realign::SlewError::Solver { .. }) => {
+            Err(e.into())
+        }
+        Err(e) => {
+            diagnostics.push(
+                Diagnostic::warning(format!("no slews: {e}"))
+                    .hint("stations.csv is written without the slew columns"),
+            );
+            Ok((place(), None))
+        }
+    }
+}
+
+/// The note of slews solved in versine space because the placed design
+/// cannot meet the limits: why, and how far they are from the distances to
+/// the written design.
+fn versine_space_note(
+    s: &crate::realign::Slews,
+    placed: &crate::place::PlacedDesign,
+    c: &Stage,
+    why: &crate::realign::SlewError,
+) -> Diagnostic {
+    let gap = s
+        .slew
+        .iter()
+        .zip(&c.plan.stations[s.first..])
+        .map(|(v, st)| (v - placed.slew_at(c.fit, st)).abs())
+        .fold(0.0, f64::max);
+    Diagnostic::warning(format!(
+        "the placed design (the one written with coordinates) cannot meet the slew limits ({why}); the slews are onto the fitted design changed reading by reading in versine space, and differ from the sideways distances to the written design by up to {:.1} mm",
+        gap * 1e3
+    ))
+    .hint("the slews hold; the coordinates, alignment.xml and alignment.ifc are not the design they move the track onto")
 }
 
 /// Slews onto the design asked for (`None` without `opts.slew` or a fit).

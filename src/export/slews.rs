@@ -2,7 +2,9 @@
 //!
 //! It starts with `# ` comment lines: the caution, the work section, the
 //! constraints (largest slew, range limits, fixed points and their
-//! tolerance, the largest design versine change) and the reading sd used.
+//! tolerance, the largest design versine change) and the reading sd used;
+//! onto the placed design the section line says that the slews are the
+//! sideways distances to it and that the ends are held in position.
 //! Then one row per reading of the work section. Columns (metric survey;
 //! an imperial survey has `_ft` for the chainage and `_in` for slews and
 //! versines):
@@ -55,11 +57,19 @@ fn header_lines(s: &Slews, unit: LengthUnit) -> Vec<String> {
             .to_string(),
     ];
     if let (Some(a), Some(b)) = (s.chainage.first(), s.chainage.last()) {
-        out.push(format!(
-            "Work section {} to {}, held in position and direction at both ends.",
-            ch(*a),
-            ch(*b)
-        ));
+        out.push(if s.onto_placed {
+            format!(
+                "Work section {} to {}, held in position at both ends; slews are the sideways distances from the measured centreline to the placed design (elements.csv placed_*, alignment.xml, alignment.ifc).",
+                ch(*a),
+                ch(*b)
+            )
+        } else {
+            format!(
+                "Work section {} to {}, held in position and direction at both ends.",
+                ch(*a),
+                ch(*b)
+            )
+        });
     }
     if let Some(m) = s.max_slew {
         out.push(format!("Largest slew either way: {}.", len(m)));

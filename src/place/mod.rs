@@ -21,14 +21,20 @@
 //! sd keeps the design on the measured centreline along the whole survey.
 //! Transitions take their end curvatures from the neighbouring arcs, so the
 //! chain stays continuous in position, heading and curvature.
+//!
+//! [`place_design_held`] adds sideways holds ([`Hold`]): the realignment's
+//! section ends, fixed points and limits, so that the slews are the distances
+//! to the one design placed and written ([`PlacedDesign::slew_at`];
+//! [`crate::realign::slews_onto_placed`]).
 
 use crate::fit::FitResult;
-use crate::fit::StationDesign;
 use crate::geometry::{Alignment, Element, ElementKind, Pose};
 use crate::integrate::{Plan, PositionObs};
 use nalgebra::{DMatrix, DVector};
 
+mod hold;
 mod locate;
+pub use hold::{HOLD_SD, Hold};
 use locate::{Loc, Locator};
 
 /// Standard deviation of a tie between the design and the measured
@@ -247,11 +253,25 @@ struct Target {
     x: f64,
     y: f64,
     sd: f64,
+    /// Only the distance along this unit vector counts (a sideways hold);
+    /// `None`: both coordinates.
+    normal: Option<(f64, f64)>,
 }
 
 /// Place the design of `fit` on `plan`, through `controls` (the plan's
 /// position observations, local frame). See the module documentation.
 pub fn place_design(fit: &FitResult, plan: &Plan, controls: &[PositionObs]) -> PlacedDesign {
+    place_design_held(fit, plan, controls, &[])
+}
+
+/// [`place_design`] with the design also held sideways at plan stations
+/// ([`Hold`]: the realignment's held readings, fixed points and limits).
+pub fn place_design_held(
+    fit: &FitResult,
+    plan: &Plan,
+    controls: &[PositionObs],
+    holds: &[Hold],
+) -> PlacedDesign {
     let points: Vec<(f64, f64, f64)> = plan
         .stations
         .iter()
@@ -261,7 +281,9 @@ pub fn place_design(fit: &FitResult, plan: &Plan, controls: &[PositionObs]) -> P
     let locator = Locator::new(fit);
     let template = rigid.elements().to_vec();
     let params = Params::new(&template, 0);
-    let targets = targets(fit, plan, controls, &locator);
+    let mut targets = targets(fit, plan, controls, &locator);
+    targets.extend(hold::targets(fit, plan, holds, &locator));
+    targets.sort_by_key(|t| t.loc.element);
     let (alignment, iterations) = match adjust_in_blocks(fit, &template, &targets, &rigid) {
         Some((al, k)) => (al, Some(k)),
         None => (rigid.clone(), None),
@@ -310,23 +332,17 @@ pub fn place_design(fit: &FitResult, plan: &Plan, controls: &[PositionObs]) -> P
             }
         })
         .collect();
-    let offsets = plan
-        .stations
-        .iter()
-        .map(|s| {
-            let q = locator.point(&alignment, locator.locate(fit.centre_distance(s.chainage)));
-            // Left normal of the design: (−sin h, cos h).
-            (s.x - q.x) * -q.heading.sin() + (s.y - q.y) * q.heading.cos()
-        })
-        .collect();
-    PlacedDesign {
+    let mut out = PlacedDesign {
         alignment,
         controls,
         changes,
-        offsets,
+        offsets: Vec::new(),
         iterations,
         locator,
-    }
+    };
+    // The measured track left of the design: minus the slew onto it.
+    out.offsets = plan.stations.iter().map(|s| -out.slew_at(fit, s)).collect();
+    out
 }
 
 /// The ties (plan stations nearest every joint and element middle) and the
@@ -367,6 +383,7 @@ fn targets(
             x: st[i].x,
             y: st[i].y,
             sd: TIE_SD,
+            normal: None,
         })
         .collect();
     out.extend(
@@ -378,6 +395,7 @@ fn targets(
                 x: c.x,
                 y: c.y,
                 sd: c.sd,
+                normal: None,
             }),
     );
     out.sort_by_key(|t| t.loc.element);
@@ -471,12 +489,13 @@ fn adjust(
     for it in 1..=MAX_ITER {
         let al = params.alignment(&p, start_chainage);
         let pts: Vec<Pose> = targets.iter().map(|t| locator.point(&al, t.loc)).collect();
-        let jac = jacobian(params, &p, &al, targets, &pts, &locator);
+        let mut jac = jacobian(params, &p, &al, targets, &pts, &locator);
         let mut r = DVector::zeros(2 * targets.len());
         for (k, (t, q)) in targets.iter().zip(&pts).enumerate() {
             r[2 * k] = (q.x - t.x) / t.sd;
             r[2 * k + 1] = (q.y - t.y) / t.sd;
         }
+        hold::sideways_only(targets, &mut jac, &mut r);
         let mut n = jac.tr_mul(&jac);
         let mut g = jac.tr_mul(&r);
         for (j, &(v, se)) in priors.iter().enumerate() {
@@ -581,29 +600,6 @@ fn jacobian(
 }
 
 impl PlacedDesign {
-    /// The design columns of `stations.csv`, one per survey reading (the
-    /// versine columns are the fit's).
-    pub fn station_design(&self, fit: &FitResult) -> Vec<StationDesign> {
-        fit.chainages
-            .iter()
-            .zip(&fit.design_versine)
-            .zip(&fit.residual)
-            .map(|((&ch, &dv), &r)| {
-                let q = self.locator.point(
-                    &self.alignment,
-                    self.locator.locate(fit.centre_distance(ch)),
-                );
-                StationDesign {
-                    chainage: ch,
-                    design_versine: dv,
-                    residual: r,
-                    x: q.x,
-                    y: q.y,
-                }
-            })
-            .collect()
-    }
-
     /// Largest |distance| from the design to the measured centreline (m) and
     /// the index of its station.
     pub fn max_offset(&self) -> Option<(f64, usize)> {

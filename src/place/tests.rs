@@ -24,6 +24,7 @@ fn targets_along(al: &Alignment, loc: &Locator) -> Vec<Target> {
             x: 0.0,
             y: 0.0,
             sd: 0.5,
+            normal: None,
         })
         .filter(|t| t.loc.element < al.elements().len())
         .collect()

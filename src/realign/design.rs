@@ -405,7 +405,7 @@ fn sqp_step(
     scale: f64,
 ) -> Result<(Chain, f64), SlewError> {
     let d0 = versines(ctx.survey, ctx.setup, ctx.fit, ctx.base, c);
-    let sys = super::solve::system(ctx.survey, ctx.setup, &d0, ctx.reading_sd, ctx.opts)?;
+    let sys = super::solve::system(ctx.survey, ctx.setup, &d0, ctx.reading_sd, ctx.opts, 2)?;
     let section = sys.first..sys.first + sys.chainage.len();
     // Central differences; parameters that change no versine of the work
     // section cannot change a slew and are left alone.

@@ -64,6 +64,15 @@
 //! arc moves the middle of the arc by about 15 mm) show up as slews too, and
 //! are not in the sd.
 //!
+//! # Onto the placed design
+//! Onto the fitted design the pipeline calls [`slews_onto_placed`]: the
+//! same held readings and limits, met by placing the design itself
+//! ([`crate::place::place_design_held`]), and the slews are the signed
+//! perpendicular distances from the measured centreline to it, so that the
+//! design of the slews is the one written with coordinates. The ends are then
+//! held in position only; the sd is that of the banded solve. Where the element
+//! chain cannot meet the limits the pipeline falls back to [`slews_for_fit`].
+//!
 //! # Sign convention
 //! A slew is **positive to the left** facing increasing chainage. In a curve,
 //! [`Slews::towards_centre`] gives the same move as positive towards the
@@ -79,6 +88,7 @@
 pub mod chord;
 mod design;
 mod limits;
+mod placed;
 mod solve;
 mod text;
 
@@ -88,6 +98,7 @@ pub use design::{
     parse_elements_csv,
 };
 pub use limits::parse_toward;
+pub use placed::slews_onto_placed;
 pub use solve::slews;
 pub use text::{CAUTION, direction_words, summary_line};
 
@@ -259,6 +270,12 @@ pub struct Slews {
     pub survey_len: usize,
     /// The design used when it is not the fitted one (from [`slews_for_fit`]).
     pub design: Option<DesignOutcome>,
+    /// Whether these are the slews onto the placed design
+    /// ([`slews_onto_placed`]: the sideways distances to the design written
+    /// with coordinates, the ends held in position) rather than the
+    /// versine-space solve of [`slews()`] (ends held in position and
+    /// direction).
+    pub onto_placed: bool,
 }
 
 impl Slews {

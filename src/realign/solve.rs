@@ -60,7 +60,7 @@ pub fn slews(
     opts: &SlewOptions,
 ) -> Result<(Slews, Vec<Diagnostic>), SlewError> {
     let file = survey.source.as_str();
-    let sys = system(survey, setup, design_versine, reading_sd, opts)?;
+    let sys = system(survey, setup, design_versine, reading_sd, opts, 2)?;
     let mut chord_slew = sys.banded.clone();
     let rd = &survey.readings[sys.first..sys.first + sys.chainage.len()];
     let design = &design_versine[sys.first..sys.first + sys.chainage.len()];
@@ -123,6 +123,7 @@ pub fn slews(
         first: lo,
         survey_len: survey.readings.len(),
         design: None,
+        onto_placed: false,
     };
     let diags = diagnostics(survey, &out);
     Ok((out, diags))
@@ -148,15 +149,20 @@ pub(super) struct System {
     pub sd: Vec<f64>,
     /// Chord slews without limits (banded least squares).
     pub banded: Vec<f64>,
+    /// Each fixed point's chainage and readings.
+    pub fixed_pts: Vec<(f64, Vec<usize>)>,
 }
 
-/// Build the [`System`] of the work section of `opts`.
+/// Build the [`System`] of the work section of `opts`, its ends held at
+/// `per_chain` readings of every interleaved chain (2: position and
+/// direction; 1: position).
 pub(super) fn system(
     survey: &Survey,
     setup: &Setup,
     design_versine: &[f64],
     reading_sd: f64,
     opts: &SlewOptions,
+    per_chain: usize,
 ) -> Result<System, SlewError> {
     let file = survey.source.as_str();
     check_inputs(survey, design_versine, reading_sd)?;
@@ -165,7 +171,7 @@ pub(super) fn system(
     let design = &design_versine[lo..hi];
     let m = half_chord_steps(file, rd, setup)?;
     let n = rd.len();
-    let (ends, fixed_at) = held_readings(file, rd, m, &opts.fixed)?;
+    let (ends, fixed_at) = held_readings(file, rd, m, per_chain, &opts.fixed)?;
     let mut held = ends.clone();
     fixed_at.iter().flatten().for_each(|&i| held[i] = true);
     let at_fixed: Vec<bool> = (0..n).map(|i| held[i] && !ends[i]).collect();
@@ -205,6 +211,7 @@ pub(super) fn system(
         sd,
         chainage,
         banded: chains.slew,
+        fixed_pts,
     })
 }
 
@@ -321,18 +328,21 @@ fn half_chord_steps(file: &str, rd: &[Reading], setup: &Setup) -> Result<usize, 
     Ok(m)
 }
 
-/// Held readings at the section ends (two per chain at each end), and the
-/// readings held by each fixed point (one per chain).
+/// Held readings at the section ends (`per_chain` per chain at each end),
+/// and the readings held by each fixed point (one per chain).
 fn held_readings(
     file: &str,
     rd: &[Reading],
     m: usize,
+    per_chain: usize,
     fixed: &[f64],
 ) -> Result<(Vec<bool>, Vec<Vec<usize>>), SlewError> {
     let n = rd.len();
     let mut held = vec![false; n];
-    held.iter_mut().take(2 * m).for_each(|h| *h = true);
-    held.iter_mut().skip(n - 2 * m).for_each(|h| *h = true);
+    held.iter_mut().take(per_chain * m).for_each(|h| *h = true);
+    held.iter_mut()
+        .skip(n - per_chain * m)
+        .for_each(|h| *h = true);
     let (first, last) = (rd[0].chainage, rd[n - 1].chainage);
     let d = (last - first) / (n - 1) as f64;
     let mut at = Vec::new();
@@ -507,7 +517,7 @@ fn average(
 }
 
 /// Realised versines and design change, reading by reading (rails may differ).
-fn realised(
+pub(super) fn realised(
     rd: &[Reading],
     design: &[f64],
     slew: &[f64],
@@ -529,7 +539,7 @@ fn realised(
 }
 
 /// Which side the curve centre is on, from the design versine.
-fn curve_sides(rd: &[Reading], design: &[f64], setup: &Setup) -> Vec<i8> {
+pub(super) fn curve_sides(rd: &[Reading], design: &[f64], setup: &Setup) -> Vec<i8> {
     let straight = 1e-6 * setup.chord * setup.chord / 8.0; // R > 1000 km
     rd.iter()
         .zip(design)

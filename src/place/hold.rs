@@ -1,0 +1,206 @@
+//! Holding the placed design sideways at plan stations, and measuring the
+//! placed design the way the survey measured the track: the sideways
+//! distance from the measured centreline (the slew onto it) and its versines
+//! on the surveyed rail with the survey's chord.
+
+use super::locate::{Loc, Locator};
+use super::{PlacedDesign, Target};
+use crate::fit::{FitResult, StationDesign};
+use crate::geometry::{Alignment, Pose};
+use crate::integrate::Plan;
+use crate::survey::{Marking, Rail, Setup};
+use nalgebra::{DMatrix, DVector};
+
+/// Standard deviation of a [`Hold`] (m): a hold is a requirement (a section
+/// end, a fixed point, a slew limit), not a measurement. 0.1 mm weighs it
+/// 4·10⁴ times a tie while the Gauss–Newton steps stay well conditioned
+/// (with 0.01 mm the placement of a simulated survey went astray by 60 mm);
+/// what a hold still misses is taken out by moving its target
+/// (`realign::slews_onto_placed` meets every hold to 1 µm that way).
+pub const HOLD_SD: f64 = 1e-4;
+
+/// The design held sideways at one plan station: the design must lie
+/// `offset` metres to the left of the measured centreline there (facing
+/// increasing chainage; the slew onto the design), within `sd`. Only the
+/// sideways distance is held: the design may slide along the track.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Hold {
+    /// Index of the station in the plan.
+    pub station: usize,
+    /// Where the design must lie, metres left of the measured centreline.
+    pub offset: f64,
+    /// Standard deviation, metres.
+    pub sd: f64,
+}
+
+/// The targets of `holds` (stations without a position left out).
+pub(super) fn targets(
+    fit: &FitResult,
+    plan: &Plan,
+    holds: &[Hold],
+    locator: &Locator,
+) -> Vec<Target> {
+    holds
+        .iter()
+        .filter_map(|h| {
+            let s = plan.stations.get(h.station)?;
+            if !(s.x.is_finite() && s.y.is_finite() && h.sd > 0.0) {
+                return None;
+            }
+            let n = (-s.heading.sin(), s.heading.cos());
+            Some(Target {
+                loc: locator.locate(fit.centre_distance(s.chainage)),
+                x: s.x + h.offset * n.0,
+                y: s.y + h.offset * n.1,
+                sd: h.sd,
+                normal: Some(n),
+            })
+        })
+        .collect()
+}
+
+/// Rows of sideways-only targets reduced to the distance along their normal
+/// (the second row of the pair zeroed): residual and Jacobian alike.
+pub(super) fn sideways_only(targets: &[Target], jac: &mut DMatrix<f64>, r: &mut DVector<f64>) {
+    for (k, t) in targets.iter().enumerate() {
+        let Some((nx, ny)) = t.normal else { continue };
+        let (a, b) = (2 * k, 2 * k + 1);
+        r[a] = nx * r[a] + ny * r[b];
+        r[b] = 0.0;
+        for j in 0..jac.ncols() {
+            jac[(a, j)] = nx * jac[(a, j)] + ny * jac[(b, j)];
+            jac[(b, j)] = 0.0;
+        }
+    }
+}
+
+/// Centreline distance along `al` of a located point.
+fn distance_of(al: &Alignment, loc: Loc) -> f64 {
+    match al.elements().get(loc.element) {
+        Some(e) => al.element_start(loc.element) + loc.t * e.length + loc.extra,
+        None => loc.extra,
+    }
+}
+
+/// Signed perpendicular distance from the point `(x, y)` to `al`, positive
+/// when the design lies to the left of the point (facing along `al`),
+/// starting the search for the foot at distance `u` (Newton's method on
+/// `(p − P(u))·T(u) = 0`, to 1e-10 m).
+fn distance_to(al: &Alignment, mut u: f64, x: f64, y: f64) -> f64 {
+    let mut q = al.pose_at(u);
+    for _ in 0..30 {
+        let (c, s) = (q.heading.cos(), q.heading.sin());
+        let (ex, ey) = (x - q.x, y - q.y);
+        let along = ex * c + ey * s;
+        let side = -ex * s + ey * c;
+        let denom = (1.0 - al.curvature_at(u) * side).max(0.1);
+        u += along / denom;
+        q = al.pose_at(u);
+        if along.abs() < 1e-10 {
+            break;
+        }
+    }
+    // The design's left normal at the foot: (−sin h, cos h).
+    (q.x - x) * -q.heading.sin() + (q.y - y) * q.heading.cos()
+}
+
+/// Field versine of the offset line `d` of `al` (the surveyed rail) at
+/// centreline distance `u`, read on `rail` with a chord of length `2a`:
+/// between the marks `a` either side along the rail (taped), or by a rigid
+/// wire of length `2a` whose middle is abreast of the mark (its ends found by
+/// Newton's method: the wire's length and the mark's distance along it from
+/// the middle to 1e-12 m).
+fn rail_versine(al: &Alignment, u: f64, d: f64, a: f64, rail: Rail, wire: bool) -> f64 {
+    let r = al.offset_length(u, d);
+    let pt = |rr: f64| al.pose_at(al.centreline_distance(rr, d)).offset_left(d);
+    let p = al.pose_at(u).offset_left(d);
+    let (mut ra, mut rb) = (r - a, r + a);
+    let (mut pa, mut pb) = (pt(ra), pt(rb));
+    if wire {
+        for _ in 0..30 {
+            let (wx, wy) = (pb.0 - pa.0, pb.1 - pa.1);
+            let len = wx.hypot(wy);
+            let (mx, my) = (0.5 * (pa.0 + pb.0), 0.5 * (pa.1 + pb.1));
+            let f1 = len - 2.0 * a;
+            let f2 = ((p.0 - mx) * wx + (p.1 - my) * wy) / len;
+            // Moving an end by δ along the rail changes the length by ±δ and
+            // moves the middle by δ/2.
+            ra += f2 + 0.5 * f1;
+            rb += f2 - 0.5 * f1;
+            pa = pt(ra);
+            pb = pt(rb);
+            if f1.abs() < 1e-12 && f2.abs() < 1e-12 {
+                break;
+            }
+        }
+    }
+    let (wx, wy) = (pb.0 - pa.0, pb.1 - pa.1);
+    let left = (wx * (p.1 - pa.1) - wy * (p.0 - pa.0)) / wx.hypot(wy);
+    // On the left rail, bowing away from the wire is bowing to the left.
+    match rail {
+        Rail::Left => left,
+        Rail::Right => -left,
+    }
+}
+
+impl PlacedDesign {
+    /// The slew onto the placed design at plan station `s`: the signed
+    /// perpendicular distance (in the plan) from the measured centreline
+    /// point to the design, positive when the design lies to the left.
+    pub fn slew_at(&self, fit: &FitResult, s: &crate::integrate::Station) -> f64 {
+        let loc = self.locator.locate(fit.centre_distance(s.chainage));
+        distance_to(&self.alignment, distance_of(&self.alignment, loc), s.x, s.y)
+    }
+
+    /// The design versine (field convention, m) of the placed design at
+    /// every plan station, measured as the survey measured the track: on the
+    /// station's rail, with the survey's chord and marking (taped marks or a
+    /// rigid wire), plus the reading bias when the fit subtracted one.
+    pub fn design_versines(&self, fit: &FitResult, plan: &Plan, setup: &Setup) -> Vec<f64> {
+        let a = setup.half_chord();
+        let wire = setup.marking == Marking::Wire;
+        let shift = match fit.stats.bias {
+            Some((b, _)) if fit.stats.bias_removed => b,
+            _ => 0.0,
+        };
+        plan.stations
+            .iter()
+            .map(|s| {
+                let d = s.rail.offset_left(setup.gauge);
+                let u0 = fit.centre_distance(s.chainage);
+                let u = distance_of(&self.alignment, self.locator.locate(u0));
+                rail_versine(&self.alignment, u, d, a, s.rail, wire) + s.rail.chord_side(shift)
+            })
+            .collect()
+    }
+
+    /// The design columns of `stations.csv`, one per survey reading: the
+    /// placed design's position, its versine ([`Self::design_versines`]) and
+    /// the reading minus it.
+    pub fn station_design(
+        &self,
+        fit: &FitResult,
+        plan: &Plan,
+        setup: &Setup,
+    ) -> Vec<StationDesign> {
+        let dv = self.design_versines(fit, plan, setup);
+        fit.chainages
+            .iter()
+            .zip(dv.iter().zip(&fit.design_versine))
+            .zip(&fit.residual)
+            .map(|((&ch, (&d, &d0)), &r)| {
+                let q: Pose = self.locator.point(
+                    &self.alignment,
+                    self.locator.locate(fit.centre_distance(ch)),
+                );
+                StationDesign {
+                    chainage: ch,
+                    design_versine: d,
+                    residual: r.map(|r| r - (d - d0)),
+                    x: q.x,
+                    y: q.y,
+                }
+            })
+            .collect()
+    }
+}
