@@ -8,7 +8,7 @@
 mod common;
 
 use chordline::geometry::{Alignment, Pose};
-use chordline::georef::{LonLat, Placement};
+use chordline::georef::{ControlFile, LonLat, Placement};
 use chordline::pipeline::{Options, process};
 use chordline::realign::SlewOptions;
 use chordline::simulate::{SimSetup, simulate, synthetic_route};
@@ -184,13 +184,10 @@ fn simulated_marked(
         let (lon, lat) = pl.to_lonlat(t.centre.x + off, t.centre.y - 0.5 * off);
         text.push_str(&format!("C{k},{},{lon:.12},{lat:.12},0.01\n", t.chainage));
     }
-    let dir = tempfile::tempdir().unwrap();
-    let file = dir.path().join("controls.csv");
-    std::fs::write(&file, text).unwrap();
     let mut opts = Options::new(20.0, Rail::Left);
     opts.setup.marking = marking;
     opts.setup.reading_sd = Some(0.0005);
-    opts.georef.control = Some(file);
+    opts.georef.control = Some(ControlFile::from_text("controls.csv", &text));
     opts.slew = Some(SlewOptions {
         max_slew,
         ..SlewOptions::default()

@@ -8,7 +8,7 @@ use super::{PlacedDesign, Target};
 use crate::fit::{FitResult, StationDesign};
 use crate::geometry::{Alignment, Pose};
 use crate::integrate::Plan;
-use crate::survey::{Marking, Rail, Setup};
+use crate::survey::{Arms, Marking, Rail, Setup};
 use nalgebra::{DMatrix, DVector};
 
 /// Standard deviation of a [`Hold`] (m): a hold is a requirement (a section
@@ -105,28 +105,36 @@ fn distance_to(al: &Alignment, mut u: f64, x: f64, y: f64) -> f64 {
 }
 
 /// Field versine of the offset line `d` of `al` (the surveyed rail) at
-/// centreline distance `u`, read on `rail` with a chord of length `2a`:
-/// between the marks `a` either side along the rail (taped), or by a rigid
-/// wire of length `2a` whose middle is abreast of the mark (its ends found by
+/// centreline distance `u`, read on `rail` with a chord of arms `arms`:
+/// between the marks `behind` and `ahead` of it along the rail (taped), or by
+/// a rigid wire of the chord's length whose measuring point (its middle, or
+/// `behind` from its rear end) is abreast of the mark (its ends found by
 /// Newton's method: the wire's length and the mark's distance along it from
-/// the middle to 1e-12 m).
-fn rail_versine(al: &Alignment, u: f64, d: f64, a: f64, rail: Rail, wire: bool) -> f64 {
+/// the measuring point to 1e-12 m).
+fn rail_versine(al: &Alignment, u: f64, d: f64, arms: Arms, rail: Rail, wire: bool) -> f64 {
     let r = al.offset_length(u, d);
     let pt = |rr: f64| al.pose_at(al.centreline_distance(rr, d)).offset_left(d);
     let p = al.pose_at(u).offset_left(d);
-    let (mut ra, mut rb) = (r - a, r + a);
+    let (mut ra, mut rb) = (r - arms.behind, r + arms.ahead);
     let (mut pa, mut pb) = (pt(ra), pt(rb));
+    let chord = arms.chord();
+    let frac = arms.behind / chord;
     if wire {
         for _ in 0..30 {
             let (wx, wy) = (pb.0 - pa.0, pb.1 - pa.1);
             let len = wx.hypot(wy);
-            let (mx, my) = (0.5 * (pa.0 + pb.0), 0.5 * (pa.1 + pb.1));
-            let f1 = len - 2.0 * a;
+            let (mx, my) = if arms.is_symmetric() {
+                (0.5 * (pa.0 + pb.0), 0.5 * (pa.1 + pb.1))
+            } else {
+                (pa.0 + frac * wx, pa.1 + frac * wy)
+            };
+            let f1 = len - chord;
             let f2 = ((p.0 - mx) * wx + (p.1 - my) * wy) / len;
-            // Moving an end by δ along the rail changes the length by ±δ and
-            // moves the middle by δ/2.
-            ra += f2 + 0.5 * f1;
-            rb += f2 - 0.5 * f1;
+            // Moving the rear end by x and the front end by y along the rail
+            // changes the length by y − x and moves the measuring point by
+            // x + frac·(y − x): solve for a shift f2 and a length change −f1.
+            ra += f2 + frac * f1;
+            rb += f2 - (1.0 - frac) * f1;
             pa = pt(ra);
             pb = pt(rb);
             if f1.abs() < 1e-12 && f2.abs() < 1e-12 {
@@ -157,7 +165,7 @@ impl PlacedDesign {
     /// station's rail, with the survey's chord and marking (taped marks or a
     /// rigid wire), plus the reading bias when the fit subtracted one.
     pub fn design_versines(&self, fit: &FitResult, plan: &Plan, setup: &Setup) -> Vec<f64> {
-        let a = setup.half_chord();
+        let arms = setup.arms();
         let wire = setup.marking == Marking::Wire;
         let shift = match fit.stats.bias {
             Some((b, _)) if fit.stats.bias_removed => b,
@@ -169,7 +177,7 @@ impl PlacedDesign {
                 let d = s.rail.offset_left(setup.gauge);
                 let u0 = fit.centre_distance(s.chainage);
                 let u = distance_of(&self.alignment, self.locator.locate(u0));
-                rail_versine(&self.alignment, u, d, a, s.rail, wire) + s.rail.chord_side(shift)
+                rail_versine(&self.alignment, u, d, arms, s.rail, wire) + s.rail.chord_side(shift)
             })
             .collect()
     }
