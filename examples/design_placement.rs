@@ -34,7 +34,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     let placed: Vec<f64> = at
         .iter()
         .enumerate()
-        .map(|(i, d)| dist(d.x, d.y, i))
+        .map(|(i, &(x, y))| dist(x, y, i))
         .collect();
     let pts: Vec<(f64, f64, f64)> = st.iter().map(|s| (s.chainage, s.x, s.y)).collect();
     let rigid = fit.place(&pts);

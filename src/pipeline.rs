@@ -11,15 +11,18 @@ use crate::export::elements::{ElementPlacement, write_elements_csv_placed};
 use crate::export::geojson::{ElementProps, GeoJsonInput, build_layers, write_layer};
 use crate::export::landxml::{LandXmlError, LandXmlFrame, LandXmlOptions, write_landxml};
 use crate::export::output_dir::{OutputDir, OutputError};
-use crate::export::stations::{GeoAtStation, GridCoords, StationExtras, write_stations_with};
+use crate::export::stations::{
+    DesignColumns, GeoAtStation, GridCoords, StationExtras, write_stations_with,
+};
 use crate::fit::{FitOptions, FitResult, fit};
 use crate::geometry::{Pose, bearing_to_heading};
 use crate::georef::{Georef, GeorefArgs, GeorefError, leave_one_out, prepare};
 use crate::integrate::{IntegrateError, IntegrateOptions, Plan, integrate};
-pub use crate::results::Results;
+pub use crate::results::{Results, StageTimes};
 use crate::survey::read::{ReadOptions, SurveyError, read_survey_bytes, read_survey_source};
 use crate::survey::{Rail, Setup, Survey};
 use std::path::{Path, PathBuf};
+use std::time::Instant;
 
 /// Everything a run needs besides the survey itself.
 #[derive(Debug, Clone, PartialEq)]
@@ -134,6 +137,12 @@ impl RunError {
 /// # Errors
 /// [`RunError`] from the stage that failed.
 pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
+    let mut times = StageTimes::default();
+    let mut clock = Instant::now();
+    let mut lap = |times: &mut StageTimes, stage| {
+        times.push(stage, clock.elapsed().as_secs_f64());
+        clock = Instant::now();
+    };
     let mut setup = opts.setup.clone();
     if let Some(r) = survey.readings.first()
         && (!opts.rail_stated || survey.has_side_column)
@@ -159,6 +168,7 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
         },
     };
     let (mut plan, mut d) = integrate(&survey, &setup, &iopts)?;
+    lap(&mut times, "integrate");
     if !iopts.position_obs.is_empty() {
         // The control-point verdicts come from `assess` below, which singles
         // out the culprit; the integrator's per-point warnings would blame all.
@@ -190,15 +200,20 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
     let (mut fitted, mut design) = (None, None);
     if let Some(fopts) = &opts.fit {
         // One reading-noise figure: the plan's, which the fit reads from it.
-        match fit(&plan, fopts) {
+        let fitted_now = fit(&plan, fopts);
+        lap(&mut times, "fit");
+        match fitted_now {
             Ok((f, mut d)) => {
                 diagnostics.append(&mut d);
                 if f.outliers.iter().any(|o| o.excluded) {
                     plan = bridge_outliers(&survey, &setup, &iopts, &f, plan, &mut diagnostics)?;
+                    lap(&mut times, "integrate, bridged");
                 }
                 let placed = crate::place::place_design(&f, &plan, &iopts.position_obs);
                 diagnostics.extend(crate::place::notes(&placed));
-                let at = placed.station_design(&f);
+                lap(&mut times, "place");
+                let at = placed.station_xy(&f);
+                lap(&mut times, "design at stations");
                 design = Some((placed.alignment, at));
                 fitted = Some(f);
             }
@@ -210,6 +225,9 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
         }
     }
     let slews = realign_stage(&survey, &setup, opts, fitted.as_ref(), &mut diagnostics)?;
+    if slews.is_some() {
+        lap(&mut times, "slews");
+    }
     let advice = match (&opts.advice, &fitted) {
         (Some(a), Some(f)) => Some(crate::advice::advise(f, a)),
         (Some(_), None) => {
@@ -232,6 +250,7 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
         georef,
         control_checks,
         diagnostics,
+        stage_times: times,
     })
 }
 
@@ -347,6 +366,7 @@ pub fn run(
     let mut inputs = vec![survey_path];
     inputs.extend(opts.georef.control.as_deref());
     let mut dir = OutputDir::create_for_inputs(out, force, &inputs)?;
+    let clock = Instant::now();
     let ropts = ReadOptions {
         rail: opts.rail_stated.then_some(opts.setup.rail),
         chord: opts.setup.chord,
@@ -365,18 +385,32 @@ pub fn run(
     };
     // The file's text is not needed again: free it before the stages.
     drop(bytes);
+    let read_secs = clock.elapsed().as_secs_f64();
     let unit = survey.chainage_unit;
     let mut results = process(survey, opts).map_err(|e| e.in_survey_units(unit))?;
+    results
+        .stage_times
+        .stages
+        .insert(0, ("read", read_secs, None));
+    let mut clock = Instant::now();
+    let mut lap = |results: &mut Results, stage| {
+        results
+            .stage_times
+            .push(stage, clock.elapsed().as_secs_f64());
+        clock = Instant::now();
+    };
     // The stages word their figures in SI; the reader already in the file's units.
     crate::report::localise_diagnostics(&mut results.diagnostics, unit);
     diags.extend(dir.notes().iter().map(Diagnostic::note));
     diags.append(&mut results.diagnostics);
     results.diagnostics = diags;
     write_tables(&mut dir, &results)?;
+    lap(&mut results, "write tables");
     // Written as it is drawn (a long survey's report is hundreds of MB).
     dir.write_file("report.html", |w| {
         crate::report::write_html_report(w, &results, &record)
     })?;
+    lap(&mut results, "write report");
     let props: Vec<ElementProps> = results
         .fit
         .iter()
@@ -393,8 +427,10 @@ pub fn run(
         };
         write_design_exchange(&mut dir, &results, placed, &props, &lopts)?;
     }
+    lap(&mut results, "write map and exchange");
     let files = dir.files().to_vec();
     let folder = dir.commit()?;
+    lap(&mut results, "commit folder");
     Ok(Outcome {
         results,
         folder,
@@ -427,7 +463,10 @@ fn write_tables(dir: &mut OutputDir, results: &Results) -> Result<(), RunError> 
     let unit = results.survey.chainage_unit;
     let geo = geo_columns(results);
     let slew_cols = results.slews.as_ref().map(|s| s.at_stations());
-    let design = results.design.as_ref().map(|(_, d)| d.as_slice());
+    let design = match (&results.fit, &results.design) {
+        (Some(fit), Some((_, xy))) => Some(DesignColumns::Fit { fit, xy }),
+        _ => None,
+    };
     let grid = match &results.georef {
         Some(g) => GridCoords::of(g, &results.plan, design).map_err(GeorefError::from)?,
         None => None,

@@ -584,22 +584,37 @@ impl PlacedDesign {
     /// The design columns of `stations.csv`, one per survey reading (the
     /// versine columns are the fit's).
     pub fn station_design(&self, fit: &FitResult) -> Vec<StationDesign> {
+        let xy = self.station_xy(fit);
         fit.chainages
             .iter()
             .zip(&fit.design_versine)
             .zip(&fit.residual)
-            .map(|((&ch, &dv), &r)| {
+            .zip(xy)
+            .map(|(((&ch, &dv), &r), (x, y))| StationDesign {
+                chainage: ch,
+                design_versine: dv,
+                residual: r,
+                x,
+                y,
+            })
+            .collect()
+    }
+
+    /// The design centreline abreast of every survey reading (easting,
+    /// northing): the one part of [`PlacedDesign::station_design`] the fit
+    /// does not hold already, which is what a run keeps (a long survey has
+    /// millions of stations). Evaluated on the pool's threads, in order.
+    pub fn station_xy(&self, fit: &FitResult) -> Vec<(f64, f64)> {
+        use rayon::prelude::*;
+        fit.chainages
+            .par_iter()
+            .with_min_len(4096)
+            .map(|&ch| {
                 let q = self.locator.point(
                     &self.alignment,
                     self.locator.locate(fit.centre_distance(ch)),
                 );
-                StationDesign {
-                    chainage: ch,
-                    design_versine: dv,
-                    residual: r,
-                    x: q.x,
-                    y: q.y,
-                }
+                (q.x, q.y)
             })
             .collect()
     }
