@@ -81,7 +81,8 @@ fn push_fixed(out: &mut String, mut xi: u64, dp: usize) {
         xi /= 10;
         written += 1;
     }
-    out.extend(buf[i..].iter().map(|&b| char::from(b)));
+    // ASCII digits and a point: appended as one slice, not char by char.
+    out.push_str(std::str::from_utf8(&buf[i..]).unwrap_or_default());
 }
 
 /// Write `stations.csv` for `plan` in `unit` (metres or feet; versines in mm
