@@ -385,13 +385,12 @@ pub fn run(
     };
     // The file's text is not needed again: free it before the stages.
     drop(bytes);
-    let read_secs = clock.elapsed().as_secs_f64();
+    let mut read_time = StageTimes::default();
+    read_time.push("read", clock.elapsed().as_secs_f64());
     let unit = survey.chainage_unit;
     let mut results = process(survey, opts).map_err(|e| e.in_survey_units(unit))?;
-    results
-        .stage_times
-        .stages
-        .insert(0, ("read", read_secs, None));
+    read_time.stages.append(&mut results.stage_times.stages);
+    results.stage_times = read_time;
     let mut clock = Instant::now();
     let mut lap = |results: &mut Results, stage| {
         results
