@@ -26,7 +26,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     let t = std::time::Instant::now();
     let res = process(sim.survey, &opts)?;
     let secs = t.elapsed().as_secs_f64();
-    let (Some((_, at)), Some(fit)) = (&res.design, &res.fit) else {
+    let (Some((_, at, _)), Some(fit)) = (&res.design, &res.fit) else {
         return Err("no fitted design".into());
     };
     let st = &res.plan.stations;
@@ -34,7 +34,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     let placed: Vec<f64> = at
         .iter()
         .enumerate()
-        .map(|(i, d)| dist(d.x, d.y, i))
+        .map(|(i, &(x, y))| dist(x, y, i))
         .collect();
     let pts: Vec<(f64, f64, f64)> = st.iter().map(|s| (s.chainage, s.x, s.y)).collect();
     let rigid = fit.place(&pts);

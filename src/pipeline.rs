@@ -11,15 +11,18 @@ use crate::export::elements::{ElementPlacement, write_elements_csv_placed};
 use crate::export::geojson::{ElementProps, GeoJsonInput, build_layers, write_layer};
 use crate::export::landxml::{LandXmlError, LandXmlFrame, LandXmlOptions, write_landxml};
 use crate::export::output_dir::{OutputDir, OutputError};
-use crate::export::stations::{GeoAtStation, GridCoords, StationExtras, write_stations_with};
+use crate::export::stations::{
+    DesignColumns, GeoAtStation, GridCoords, StationExtras, write_stations_with,
+};
 use crate::fit::{FitOptions, FitResult, fit};
 use crate::geometry::{Pose, bearing_to_heading};
 use crate::georef::{Georef, GeorefArgs, GeorefError, leave_one_out, prepare};
 use crate::integrate::{IntegrateError, IntegrateOptions, Plan, integrate};
-pub use crate::results::Results;
+pub use crate::results::{Results, StageTimes};
 use crate::survey::read::{ReadOptions, SurveyError, read_survey_bytes, read_survey_source};
 use crate::survey::{Rail, Setup, Survey};
 use std::path::{Path, PathBuf};
+use std::time::Instant;
 
 /// Everything a run needs besides the survey itself.
 #[derive(Debug, Clone, PartialEq)]
@@ -134,6 +137,12 @@ impl RunError {
 /// # Errors
 /// [`RunError`] from the stage that failed.
 pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
+    let mut times = StageTimes::default();
+    let mut clock = Instant::now();
+    let mut lap = |times: &mut StageTimes, stage| {
+        times.push(stage, clock.elapsed().as_secs_f64());
+        clock = Instant::now();
+    };
     let mut setup = opts.setup.clone();
     if let Some(r) = survey.readings.first()
         && (!opts.rail_stated || survey.has_side_column)
@@ -159,6 +168,7 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
         },
     };
     let (mut plan, mut d) = integrate(&survey, &setup, &iopts)?;
+    lap(&mut times, "integrate");
     if !iopts.position_obs.is_empty() {
         // The control-point verdicts come from `assess` below, which singles
         // out the culprit; the integrator's per-point warnings would blame all.
@@ -190,11 +200,14 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
     let (mut fitted, mut design, mut slews) = (None, None, None);
     if let Some(fopts) = &opts.fit {
         // One reading-noise figure: the plan's, which the fit reads from it.
-        match fit(&plan, fopts) {
+        let fitted_now = fit(&plan, fopts);
+        lap(&mut times, "fit");
+        match fitted_now {
             Ok((f, mut d)) => {
                 diagnostics.append(&mut d);
                 if f.outliers.iter().any(|o| o.excluded) {
                     plan = bridge_outliers(&survey, &setup, &iopts, &f, plan, &mut diagnostics)?;
+                    lap(&mut times, "integrate, bridged");
                 }
                 let ctx = Stage {
                     survey: &survey,
@@ -206,8 +219,11 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
                 };
                 let (placed, s) = place_and_realign(&ctx, &mut diagnostics)?;
                 diagnostics.extend(crate::place::notes(&placed));
-                let at = placed.station_design(&f, &plan, &setup);
-                design = Some((placed.alignment, at));
+                lap(&mut times, "place");
+                let xy = placed.station_xy(&f);
+                let versine = placed.design_versines(&f, &plan, &setup);
+                lap(&mut times, "design at stations");
+                design = Some((placed.alignment, xy, versine));
                 slews = s;
                 fitted = Some(f);
             }
@@ -220,6 +236,9 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
     }
     if slews.is_none() && !slews_onto_placed(opts) {
         slews = realign_stage(&survey, &setup, opts, fitted.as_ref(), &mut diagnostics)?;
+    }
+    if slews.is_some() {
+        lap(&mut times, "slews");
     }
     let advice = match (&opts.advice, &fitted) {
         (Some(a), Some(f)) => Some(crate::advice::advise(f, a)),
@@ -243,6 +262,7 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
         georef,
         control_checks,
         diagnostics,
+        stage_times: times,
     })
 }
 
@@ -440,6 +460,7 @@ pub fn run(
     let mut inputs = vec![survey_path];
     inputs.extend(opts.georef.control.as_ref().and_then(|c| c.path.as_deref()));
     let mut dir = OutputDir::create_for_inputs(out, force, &inputs)?;
+    let clock = Instant::now();
     let ropts = ReadOptions {
         rail: opts.rail_stated.then_some(opts.setup.rail),
         chord: opts.setup.chord,
@@ -459,25 +480,38 @@ pub fn run(
     };
     // The file's text is not needed again: free it before the stages.
     drop(bytes);
+    let mut read_time = StageTimes::default();
+    read_time.push("read", clock.elapsed().as_secs_f64());
     let unit = survey.chainage_unit;
     let mut results = process(survey, opts).map_err(|e| e.in_survey_units(unit))?;
+    read_time.stages.append(&mut results.stage_times.stages);
+    results.stage_times = read_time;
+    let mut clock = Instant::now();
+    let mut lap = |results: &mut Results, stage| {
+        results
+            .stage_times
+            .push(stage, clock.elapsed().as_secs_f64());
+        clock = Instant::now();
+    };
     // The stages word their figures in SI; the reader already in the file's units.
     crate::report::localise_diagnostics(&mut results.diagnostics, unit);
     diags.extend(dir.notes().iter().map(Diagnostic::note));
     diags.append(&mut results.diagnostics);
     results.diagnostics = diags;
     write_tables(&mut dir, &results)?;
+    lap(&mut results, "write tables");
     // Written as it is drawn (a long survey's report is hundreds of MB).
     dir.write_file("report.html", |w| {
         crate::report::write_html_report(w, &results, &record)
     })?;
+    lap(&mut results, "write report");
     let props: Vec<ElementProps> = results
         .fit
         .iter()
         .flat_map(|f| f.elements.iter().map(ElementProps::from_fitted))
         .collect();
     write_map_layers(&mut dir, &results, &props)?;
-    if let Some((placed, _)) = &results.design {
+    if let Some((placed, ..)) = &results.design {
         let lopts = LandXmlOptions {
             name: survey_path
                 .file_stem()
@@ -487,8 +521,10 @@ pub fn run(
         };
         write_design_exchange(&mut dir, &results, placed, &props, &lopts)?;
     }
+    lap(&mut results, "write map and exchange");
     let files = dir.files().to_vec();
     let folder = dir.commit()?;
+    lap(&mut results, "commit folder");
     Ok(Outcome {
         results,
         folder,
@@ -521,7 +557,10 @@ fn write_tables(dir: &mut OutputDir, results: &Results) -> Result<(), RunError> 
     let unit = results.survey.chainage_unit;
     let geo = geo_columns(results);
     let slew_cols = results.slews.as_ref().map(|s| s.at_stations());
-    let design = results.design.as_ref().map(|(_, d)| d.as_slice());
+    let design = match (&results.fit, &results.design) {
+        (Some(fit), Some((_, xy, versine))) => Some(DesignColumns::Fit { fit, xy, versine }),
+        _ => None,
+    };
     let grid = match &results.georef {
         Some(g) => GridCoords::of(g, &results.plan, design).map_err(GeorefError::from)?,
         None => None,
@@ -537,7 +576,7 @@ fn write_tables(dir: &mut OutputDir, results: &Results) -> Result<(), RunError> 
     })?;
     if let Some(f) = &results.fit {
         let placed = match &results.design {
-            Some((al, _)) => Some(
+            Some((al, ..)) => Some(
                 ElementPlacement::of(al, results.georef.as_ref(), unit)
                     .map_err(GeorefError::from)?,
             ),
@@ -576,7 +615,7 @@ fn write_map_layers(
     let input = GeoJsonInput {
         placement: &g.placement,
         stations: &results.plan.stations,
-        design: results.design.as_ref().map(|(a, _)| (a, props)),
+        design: results.design.as_ref().map(|(a, ..)| (a, props)),
         controls: g
             .controls
             .as_ref()

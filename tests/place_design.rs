@@ -114,11 +114,11 @@ fn on_a_long_survey_the_design_follows_the_measured_centreline() {
     let mut opts = Options::new(10.0, Rail::Left);
     opts.setup.marking = Marking::Wire;
     let res = process(sim.survey, &opts).unwrap();
-    let (_, at) = res.design.as_ref().expect("a fitted design");
+    let (_, at, _) = res.design.as_ref().expect("a fitted design");
     assert_eq!(at.len(), res.plan.stations.len());
     let mut worst = (0.0f64, 0.0);
-    for (d, s) in at.iter().zip(&res.plan.stations) {
-        let off = (d.x - s.x).hypot(d.y - s.y);
+    for (&(x, y), s) in at.iter().zip(&res.plan.stations) {
+        let off = (x - s.x).hypot(y - s.y);
         if off > worst.0 {
             worst = (off, s.chainage);
         }
@@ -129,6 +129,6 @@ fn on_a_long_survey_the_design_follows_the_measured_centreline() {
         worst.0,
         worst.1
     );
-    let first = (at[0].x - res.plan.stations[0].x).hypot(at[0].y - res.plan.stations[0].y);
+    let first = (at[0].0 - res.plan.stations[0].x).hypot(at[0].1 - res.plan.stations[0].y);
     assert!(first <= 0.05, "{first:.3} m at the first station");
 }

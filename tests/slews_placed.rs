@@ -224,7 +224,7 @@ fn check_simulated(res: &chordline::pipeline::Results, max_slew: Option<f64>) ->
             .map(|d| &d.message)
             .collect::<Vec<_>>()
     );
-    let (al, at) = res.design.as_ref().expect("a design");
+    let (al, at) = design_rows(res);
     let st = &res.plan.stations;
     let mut largest = 0.0f64;
     for (k, &slew) in s.slew.iter().enumerate() {
@@ -295,11 +295,22 @@ fn on_simulated_surveys_with_controls_the_slews_are_the_distances_to_the_design(
 /// (the marks of the placed design sit within millimetres of the surveyed
 /// ones; a versine changes by under 0.01 mm per millimetre along these
 /// curves).
+/// The placed design and its rows per station, as `stations.csv` gets them.
+fn design_rows(
+    res: &chordline::results::Results,
+) -> (&Alignment, Vec<chordline::fit::StationDesign>) {
+    let (al, xy, _) = res.design.as_ref().expect("a design");
+    let rows = (0..xy.len())
+        .map(|i| res.station_design(i).unwrap())
+        .collect();
+    (al, rows)
+}
+
 #[test]
 fn the_design_versines_are_those_of_the_written_design() {
     for (seed, marking) in [(3, Marking::Taped), (8, Marking::Taped), (3, Marking::Wire)] {
         let res = simulated_marked(seed, None, marking);
-        let (al, at) = res.design.as_ref().expect("a design");
+        let (al, at) = design_rows(&res);
         let mut ss = SimSetup::classic(20.0, Rail::Left);
         ss.marking = marking;
         ss.spacing = 5.0;

@@ -513,13 +513,18 @@ fn survey_unit(survey: &Path, opts: &Options) -> Result<LengthUnit, Failure> {
 
 /// Run the pipeline, mapping its error to an exit class.
 pub fn execute(survey: &Path, opts: &Options, out: &Path, force: bool) -> Result<Outcome, Failure> {
-    pipeline::run(survey, opts, out, force).map_err(|e| {
+    let outcome = pipeline::run(survey, opts, out, force).map_err(|e| {
         if e.is_internal() {
             Failure::Internal(e.into())
         } else {
             Failure::Input(e.into())
         }
-    })
+    })?;
+    // A profile for developers (DEVELOPERS.md, "Profiling"): stage times on stderr.
+    if std::env::var_os("CHORDLINE_STAGE_TIMES").is_some_and(|v| !v.is_empty() && v != "0") {
+        eprint!("{}", outcome.results.stage_times.lines());
+    }
+    Ok(outcome)
 }
 
 /// Print the warnings to standard error, and the results (the summary, the

@@ -81,7 +81,8 @@ fn push_fixed(out: &mut String, mut xi: u64, dp: usize) {
         xi /= 10;
         written += 1;
     }
-    out.extend(buf[i..].iter().map(|&b| char::from(b)));
+    // ASCII digits and a point: appended as one slice, not char by char.
+    out.push_str(std::str::from_utf8(&buf[i..]).unwrap_or_default());
 }
 
 /// Write `stations.csv` for `plan` in `unit` (metres or feet; versines in mm
@@ -121,7 +122,7 @@ pub fn write_stations(
         plan,
         unit,
         &StationExtras {
-            design,
+            design: design.map(DesignColumns::Rows),
             ..StationExtras::default()
         },
     )
@@ -151,6 +152,63 @@ pub struct GridColumns<'a> {
     pub design: Option<&'a [(f64, f64)]>,
 }
 
+/// The design columns of `stations.csv` (`design_versine`, `residual`,
+/// `design_easting`, `design_northing`), one entry per station.
+#[derive(Debug, Clone, Copy)]
+pub enum DesignColumns<'a> {
+    /// A row per station, as [`crate::place::PlacedDesign::station_design`] gives them.
+    Rows(&'a [StationDesign]),
+    /// The placed design's centreline and versine at each station with the
+    /// fit's residuals moved onto it (what a run holds: no copy of the fit's
+    /// per-reading columns).
+    Fit {
+        /// The fit (its `chainages`, `design_versine` and `residual`).
+        fit: &'a crate::fit::FitResult,
+        /// The design centreline (easting, northing) at each station.
+        xy: &'a [(f64, f64)],
+        /// The placed design's versine at each station (field convention, m).
+        versine: &'a [f64],
+    },
+}
+
+impl DesignColumns<'_> {
+    /// Stations covered (the shortest of the columns).
+    pub fn len(&self) -> usize {
+        match self {
+            DesignColumns::Rows(r) => r.len(),
+            DesignColumns::Fit { fit, xy, versine } => xy
+                .len()
+                .min(versine.len())
+                .min(fit.chainages.len())
+                .min(fit.design_versine.len())
+                .min(fit.residual.len()),
+        }
+    }
+
+    /// Whether there are no stations.
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+
+    /// The values at station `i` (`i < len()`).
+    fn at(&self, i: usize) -> StationDesign {
+        match self {
+            DesignColumns::Rows(r) => r[i],
+            DesignColumns::Fit { fit, xy, versine } => StationDesign {
+                chainage: fit.chainages[i],
+                design_versine: versine[i],
+                residual: crate::results::placed_residual(
+                    fit.residual[i],
+                    versine[i],
+                    fit.design_versine[i],
+                ),
+                x: xy[i].0,
+                y: xy[i].1,
+            },
+        }
+    }
+}
+
 /// Optional column groups of `stations.csv`, one entry per station each.
 #[derive(Debug, Clone, Copy, Default)]
 pub struct StationExtras<'a> {
@@ -158,7 +216,7 @@ pub struct StationExtras<'a> {
     /// (the local frame then goes to `local_easting`, `local_northing`).
     pub grid: Option<GridColumns<'a>>,
     /// The fitted design: `design_versine`, `residual`, `design_easting`, `design_northing`.
-    pub design: Option<&'a [StationDesign]>,
+    pub design: Option<DesignColumns<'a>>,
     /// A placed survey: `bearing_deg` becomes the true bearing, and
     /// `longitude_deg`, `latitude_deg` are added.
     pub geo: Option<&'a [GeoAtStation]>,
@@ -178,7 +236,7 @@ pub fn write_stations_with(
 ) -> io::Result<()> {
     let n = plan.stations.len();
     for (what, len) in [
-        ("design", extras.design.map(<[_]>::len)),
+        ("design", extras.design.map(|d| d.len())),
         ("geographic", extras.geo.map(<[_]>::len)),
         ("slew", extras.slews.map(<[_]>::len)),
         ("grid", extras.grid.map(|g| g.centre.len())),
@@ -314,7 +372,7 @@ impl Rows<'_> {
             }
         }
         if let Some(d) = design {
-            let d = d[i];
+            let d = d.at(i);
             row.push(',');
             num(row, vu.from_m(d.design_versine), v_dp, "design_versine", c)?;
             row.push(',');
@@ -415,7 +473,7 @@ impl GridCoords {
     pub fn of(
         g: &crate::georef::Georef,
         plan: &Plan,
-        design: Option<&[StationDesign]>,
+        design: Option<DesignColumns>,
     ) -> Result<Option<GridCoords>, crate::georef::CrsError> {
         let Some(crs) = &g.crs else { return Ok(None) };
         let to_grid = |x: f64, y: f64| {
@@ -436,7 +494,8 @@ impl GridCoords {
         }
         let design = design
             .map(|d| {
-                d.iter()
+                (0..d.len())
+                    .map(|i| d.at(i))
                     .map(|p| to_grid(p.x, p.y))
                     .collect::<Result<Vec<_>, _>>()
             })

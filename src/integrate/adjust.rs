@@ -335,16 +335,17 @@ fn iterate(
 /// Run the adjustment. `d[0]` is the variance of the start heading, `d[l]`
 /// (l ≥ 1) that of the turn at station `l`.
 pub(crate) fn adjust(
-    c_in: &[(f64, f64)],
-    theta_in: &[f64],
-    d: &[f64],
+    c: Vec<(f64, f64)>,
+    theta: Vec<f64>,
+    d: Vec<f64>,
     ctrl: &[Ctrl],
     mode: StartMode,
 ) -> Option<Adjusted> {
-    let n = c_in.len();
+    let n = c.len();
+    // The nominal plan's arrays are adjusted in place (no copies of a long survey's).
     let mut st = State {
-        c: c_in.to_vec(),
-        theta: theta_in.to_vec(),
+        c,
+        theta,
         acc: vec![0.0; n],
     };
     let p_fixed = match mode {
@@ -353,7 +354,7 @@ pub(crate) fn adjust(
         StartMode::TranslateRotate => 3,
     };
     // Random-effect variances: the start heading is a fixed effect when free.
-    let mut dr = d.to_vec();
+    let mut dr = d;
     if mode == StartMode::TranslateRotate {
         dr[0] = 0.0;
     }

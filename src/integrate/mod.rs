@@ -332,7 +332,7 @@ pub fn integrate(
     let mut diags = Vec::new();
     check_setup(setup, opts)?;
     phases::check_readings(survey)?;
-    let inp = phases::Inputs::new(survey, setup);
+    let mut inp = phases::Inputs::new(survey, setup);
     if inp.vcs.iter().all(Option::is_none) {
         return Err(IntegrateError::NoValidReadings {
             file: survey.source.clone(),
@@ -344,6 +344,8 @@ pub fn integrate(
     } else {
         phases::dense_nominal(&inp, opts.start, sigma, &mut diags)?
     };
+    // The versines are read from the survey from here on: free their copy.
+    inp.vcs = Vec::new();
     let phases::Nominal {
         rail_xy,
         mut theta,
@@ -352,14 +354,13 @@ pub fn integrate(
     } = nominal;
     let n = rail_xy.len();
 
-    // Centreline.
-    let goff: Vec<f64> = survey.readings.iter().map(|r| inp.g_of(r.rail)).collect();
-    let mut centre: Vec<(f64, f64)> = (0..n)
-        .map(|i| {
-            let (sn, cs) = theta[i].sin_cos();
-            (rail_xy[i].0 - goff[i] * sn, rail_xy[i].1 + goff[i] * cs)
-        })
-        .collect();
+    // Centreline, in place of the rail points (a long survey's memory).
+    let mut centre = rail_xy;
+    for ((p, th), r) in centre.iter_mut().zip(&theta).zip(&survey.readings) {
+        let (sn, cs) = th.sin_cos();
+        let g = inp.g_of(r.rail);
+        *p = (p.0 - g * sn, p.1 + g * cs);
+    }
 
     // Control points, then the joint adjustment.
     let ctrl = phases::control_rows(opts, &inp.s)?;
@@ -374,8 +375,7 @@ pub fn integrate(
             mode == adjust::StartMode::TranslateRotate,
         );
     }
-    let adj =
-        adjust::adjust(&centre, &theta, &dvar, &ctrl, mode).ok_or(IntegrateError::Singular)?;
+    let adj = adjust::adjust(centre, theta, dvar, &ctrl, mode).ok_or(IntegrateError::Singular)?;
     if adj.stride > 1 {
         diags.push(Diagnostic::note(format!(
             "with {} control points on {} stations, standard deviations were computed exactly at every {}th station, at the control points and between them, and interpolated linearly elsewhere",
@@ -385,7 +385,7 @@ pub fn integrate(
         )));
     }
 
-    let stations = phases::build_stations(&inp, &k_rail, &goff, &adj, mode);
+    let stations = phases::build_stations(&inp, &k_rail, &adj, mode);
     let position_residuals = phases::control_residuals(opts, &adj, &mut diags);
     Ok((
         Plan {

@@ -26,39 +26,37 @@ pub(super) struct Inputs<'a> {
     pub a: f64,
     /// The chord's arms (both `a` for a chord read at its middle).
     pub arms: crate::survey::Arms,
-    /// Steps between consecutive readings, metres.
-    pub deltas: Vec<f64>,
-    /// Step to the next reading (the last one repeats the step before it).
-    pub spacing_fwd: Vec<f64>,
 }
 
 impl<'a> Inputs<'a> {
     pub fn new(survey: &'a Survey, setup: &'a Setup) -> Self {
         let rd = &survey.readings;
-        let n = rd.len();
-        let s: Vec<f64> = rd.iter().map(|r| r.chainage).collect();
-        let a = setup.half_chord();
-        let deltas: Vec<f64> = s.windows(2).map(|w| w[1] - w[0]).collect();
-        let spacing_fwd = (0..n)
-            .map(|i| {
-                if i + 1 < n {
-                    deltas[i]
-                } else if n > 1 {
-                    deltas[n - 2]
-                } else {
-                    a
-                }
-            })
-            .collect();
         Inputs {
             survey,
             setup,
-            s,
+            s: rd.iter().map(|r| r.chainage).collect(),
             vcs: rd.iter().map(|r| r.chord_side()).collect(),
-            a,
+            a: setup.half_chord(),
             arms: setup.arms(),
-            deltas,
-            spacing_fwd,
+        }
+    }
+
+    /// Steps between consecutive readings, metres (computed where needed
+    /// rather than held: a long survey has millions).
+    pub fn deltas(&self) -> impl Iterator<Item = f64> + '_ {
+        self.s.windows(2).map(|w| w[1] - w[0])
+    }
+
+    /// Step from reading `i` to the next one (the last one repeats the step
+    /// before it; a single reading takes the half chord).
+    pub fn spacing_fwd(&self, i: usize) -> f64 {
+        let (s, n) = (&self.s, self.s.len());
+        if i + 1 < n {
+            s[i + 1] - s[i]
+        } else if n > 1 {
+            s[n - 1] - s[n - 2]
+        } else {
+            self.a
         }
     }
 
@@ -74,7 +72,7 @@ impl<'a> Inputs<'a> {
             return false;
         }
         let tol = (5e-3_f64).max(1e-3 * self.a);
-        self.deltas.iter().all(|d| (d - self.a).abs() <= tol)
+        self.deltas().all(|d| (d - self.a).abs() <= tol)
     }
 
     fn too_large(&self, i: usize) -> IntegrateError {
@@ -223,7 +221,7 @@ pub(super) fn classic_nominal(
     diags: &mut Vec<Diagnostic>,
 ) -> Result<Nominal, IntegrateError> {
     let (survey, setup, s, vcs, a) = (inp.survey, inp.setup, &inp.s, &inp.vcs, inp.a);
-    let (rd, n, spacing_fwd) = (&survey.readings, survey.readings.len(), &inp.spacing_fwd);
+    let (rd, n) = (&survey.readings, survey.readings.len());
     let too_large = |i: usize| inp.too_large(i);
     let g_of = |r: Rail| inp.g_of(r);
     let mut nom = Nominal::zeros(n);
@@ -245,7 +243,8 @@ pub(super) fn classic_nominal(
     }
     let mut pose = (start.x, start.y, start.heading);
     for (ri, &(p, q)) in runs.iter().enumerate() {
-        let geo = polygon::polygon_run(&vf[p..q], &spacing_fwd[p..q], a, setup.marking)
+        let spacing_fwd: Vec<f64> = (p..q).map(|i| inp.spacing_fwd(i)).collect();
+        let geo = polygon::polygon_run(&vf[p..q], &spacing_fwd, a, setup.marking)
             .map_err(|i| too_large(p + i))?;
         let g = g_of(rd[p].rail);
         let (cx, cy, th0) = pose;
@@ -323,17 +322,10 @@ pub(super) fn dense_nominal(
 ) -> Result<Nominal, IntegrateError> {
     let (survey, setup, s, vcs, arms) = (inp.survey, inp.setup, &inp.s, &inp.vcs, inp.arms);
     let a = dense::mean_arm(arms);
-    let (rd, n, spacing_fwd) = (&survey.readings, survey.readings.len(), &inp.spacing_fwd);
-    let (deltas, src) = (&inp.deltas, survey.source.clone());
+    let (rd, n) = (&survey.readings, survey.readings.len());
+    let src = survey.source.clone();
     let too_large = |i: usize| inp.too_large(i);
     let g_of = |r: Rail| inp.g_of(r);
-    let mut nom = Nominal::zeros(n);
-    let Nominal {
-        rail_xy,
-        theta,
-        k_rail,
-        dvar,
-    } = &mut nom;
     if let Some(i) = (1..n).find(|&i| rd[i].rail != rd[0].rail) {
         return Err(IntegrateError::RailChangeInDenseSurvey {
             file: src,
@@ -342,28 +334,36 @@ pub(super) fn dense_nominal(
         });
     }
     let vlin = dense::linearise(vcs, arms, setup.marking).map_err(too_large)?;
-    let mut ds = deltas.clone();
-    let dmed = crate::numeric::median_in_place(&mut ds).unwrap_or(a);
+    let dmed = {
+        let mut ds: Vec<f64> = inp.deltas().collect();
+        crate::numeric::median_in_place(&mut ds).unwrap_or(a)
+    };
     let h = dense::knot_spacing(arms, dmed);
     let (curve, p) = dense::fit(s, &vlin, arms, h, sigma)
         .ok_or_else(|| IntegrateError::CurvatureFit { file: src.clone() })?;
-    let (pos, th, ks) = dense::integrate_curve(&curve, s);
+    // Freed before the plan's arrays are made: a long survey's peak memory.
+    drop(vlin);
+    // The integrated arrays become the nominal plan's in place (no copies).
+    let (mut rail_xy, mut theta, k_rail) = dense::integrate_curve(&curve, s);
     let g = g_of(rd[0].rail);
     let (cx, cy, th0) = (start.x, start.y, start.heading);
     let (sn, cs) = th0.sin_cos();
     let (rx0, ry0) = (cx + g * sn, cy - g * cs);
     let q_unit = 4.0 * sigma * sigma * dmed / a.powi(4);
-    for i in 0..n {
-        let (x, y) = pos[i];
-        rail_xy[i] = (rx0 + cs * x - sn * y, ry0 + sn * x + cs * y);
-        theta[i] = th0 + th[i];
-        k_rail[i] = ks[i];
-        dvar[i] = if i == 0 {
-            0.25 * q_unit * spacing_fwd[0]
-        } else {
-            0.5 * q_unit * (spacing_fwd[i - 1] + spacing_fwd[i])
-        };
+    for (xy, th) in rail_xy.iter_mut().zip(theta.iter_mut()) {
+        let (x, y) = *xy;
+        *xy = (rx0 + cs * x - sn * y, ry0 + sn * x + cs * y);
+        *th += th0;
     }
+    let mut dvar: Vec<f64> = (0..n)
+        .map(|i| {
+            if i == 0 {
+                0.25 * q_unit * inp.spacing_fwd(0)
+            } else {
+                0.5 * q_unit * (inp.spacing_fwd(i - 1) + inp.spacing_fwd(i))
+            }
+        })
+        .collect();
     let mut cache = std::collections::HashMap::new();
     let mut gap_log = GapLog::default();
     for gp in gaps_of(vcs) {
@@ -397,7 +397,12 @@ pub(super) fn dense_nominal(
             arms.behind, arms.ahead, dmed, h, p
         )));
     }
-    Ok(nom)
+    Ok(Nominal {
+        rail_xy,
+        theta,
+        k_rail,
+        dvar,
+    })
 }
 
 /// The control points as observation rows of the adjustment, each between
@@ -490,21 +495,20 @@ pub(super) fn start_mode(
 pub(super) fn build_stations(
     inp: &Inputs,
     k_rail: &[f64],
-    goff: &[f64],
     adj: &Adjusted,
     mode: StartMode,
 ) -> Vec<Station> {
-    let (s, spacing_fwd, rd) = (&inp.s, &inp.spacing_fwd, &inp.survey.readings);
+    let (s, rd) = (&inp.s, &inp.survey.readings);
     let n = rd.len();
     let mut stations = Vec::with_capacity(n);
     for i in 0..n {
         let th = adj.theta[i];
         let (sn, cs) = th.sin_cos();
         let (cx, cy) = adj.c[i];
-        let g = goff[i];
+        let g = inp.g_of(rd[i].rail);
         let mut kr = k_rail[i];
         if i > 0 && mode != StartMode::Fixed {
-            let span = 0.5 * (spacing_fwd[i - 1] + spacing_fwd[i]);
+            let span = 0.5 * (inp.spacing_fwd(i - 1) + inp.spacing_fwd(i));
             kr += adj.turn[i] / span;
         }
         let denom = 1.0 - g * kr;

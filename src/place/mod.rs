@@ -600,6 +600,25 @@ fn jacobian(
 }
 
 impl PlacedDesign {
+    /// The design centreline abreast of every survey reading (easting,
+    /// northing): with [`PlacedDesign::design_versines`] what a run keeps of
+    /// [`PlacedDesign::station_design`] (a long survey has
+    /// millions of stations). Evaluated on the pool's threads, in order.
+    pub fn station_xy(&self, fit: &FitResult) -> Vec<(f64, f64)> {
+        use rayon::prelude::*;
+        fit.chainages
+            .par_iter()
+            .with_min_len(4096)
+            .map(|&ch| {
+                let q = self.locator.point(
+                    &self.alignment,
+                    self.locator.locate(fit.centre_distance(ch)),
+                );
+                (q.x, q.y)
+            })
+            .collect()
+    }
+
     /// Largest |distance| from the design to the measured centreline (m) and
     /// the index of its station.
     pub fn max_offset(&self) -> Option<(f64, usize)> {

@@ -131,13 +131,13 @@ impl<'a> Diagrams<'a> {
                 .collect(),
             style: MEASURED,
         });
-        if let Some((_, d)) = self.r.design.as_ref().filter(|_| !overview) {
+        if let Some((_, _, dv)) = self.r.design.as_ref().filter(|_| !overview) {
             c.series.push(Series {
                 name: "design (fitted elements)".into(),
                 points: st
                     .iter()
-                    .zip(&d[w.clone()])
-                    .map(|(s, d)| (self.ch(s.chainage), self.v(d.design_versine)))
+                    .zip(&dv[w.clone()])
+                    .map(|(s, &dv)| (self.ch(s.chainage), self.v(dv)))
                     .collect(),
                 style: DESIGN,
             });
@@ -173,7 +173,7 @@ impl<'a> Diagrams<'a> {
                 style: MEASURED,
             });
         }
-        if let (Some(f), Some((placed, _))) = (&self.r.fit, &self.r.design) {
+        if let (Some(f), Some((placed, ..))) = (&self.r.fit, &self.r.design) {
             c.series.push(Series {
                 name: "fitted elements".into(),
                 points: st
@@ -195,7 +195,7 @@ impl<'a> Diagrams<'a> {
 
     /// Residuals (measured − design) with ± 2 reading sd.
     pub(super) fn residuals(&self, range: Range) -> Option<String> {
-        let (_, d) = self.r.design.as_ref()?;
+        let (f, (_, _, dv)) = (self.r.fit.as_ref()?, self.r.design.as_ref()?);
         let w = self.stations_in(range);
         let st = &self.r.plan.stations[w.clone()];
         let mut c = self.chart(
@@ -208,13 +208,10 @@ impl<'a> Diagrams<'a> {
             name: "residual".into(),
             points: st
                 .iter()
-                .zip(&d[w])
-                .map(|(s, d)| {
-                    (
-                        self.ch(s.chainage),
-                        d.residual.map_or(f64::NAN, |r| self.v(r)),
-                    )
-                })
+                .zip(w.map(|i| {
+                    crate::results::placed_residual(f.residual[i], dv[i], f.design_versine[i])
+                }))
+                .map(|(s, r)| (self.ch(s.chainage), r.map_or(f64::NAN, |r| self.v(r))))
                 .collect(),
             style: Style::new(BLUE, Pattern::Solid, 1.0),
         });
@@ -405,10 +402,10 @@ impl<'a> Diagrams<'a> {
             points: st.iter().map(|s| (self.ch(s.x), self.ch(s.y))).collect(),
             style: MEASURED,
         });
-        if let Some((_, d)) = &self.r.design {
+        if let Some((_, d, _)) = &self.r.design {
             c.series.push(Series {
                 name: "fitted design".into(),
-                points: d.iter().map(|d| (self.ch(d.x), self.ch(d.y))).collect(),
+                points: d.iter().map(|&(x, y)| (self.ch(x), self.ch(y))).collect(),
                 style: DESIGN,
             });
         }

@@ -80,8 +80,9 @@ pub struct Reading {
     pub versine: Option<f64>,
     /// The rail the reading was taken on.
     pub rail: Rail,
-    /// Free text from the `note` column, if any.
-    pub note: Option<String>,
+    /// Free text from the `note` column, if any (a boxed `str`: 8 bytes less per
+    /// reading than a `String`, and most readings have none).
+    pub note: Option<Box<str>>,
     /// 1-based line in the source file (0 when the survey was not read from a file).
     /// A missing station the reader put into a gap of the chainages (lines
     /// deleted from the file) carries the line of the reading after the gap.

@@ -120,16 +120,16 @@ fn decimate(p: &[(f64, f64)], max: usize) -> Vec<(f64, f64)> {
 
 /// The points whose x lies in `[x0, x1]`, plus one neighbour on each side so
 /// that lines run to the plot edge (the clip path cuts them there).
-fn in_range<T: Copy>(p: &[T], x: impl Fn(&T) -> f64, x0: f64, x1: f64) -> Vec<T> {
+fn in_range<T: Copy>(p: &[T], x: impl Fn(&T) -> f64, x0: f64, x1: f64) -> &[T] {
     let first = p.iter().position(|q| x(q) >= x0);
     let last = p.iter().rposition(|q| x(q) <= x1);
     match (first, last) {
         (Some(a), Some(b)) if a <= b => {
             let a = a.saturating_sub(1);
             let b = (b + 1).min(p.len() - 1);
-            p[a..=b].to_vec()
+            &p[a..=b]
         }
-        _ => Vec::new(),
+        _ => &[],
     }
 }
 
@@ -244,11 +244,12 @@ impl Chart<'_> {
         self.series
             .iter()
             .map(|s| {
+                // A slice, not a copy: an overview series has a point per reading.
                 let p = match self.x_range {
                     Some((a, b)) => in_range(&s.points, |q| q.0, a, b),
-                    None => s.points.clone(),
+                    None => &s.points[..],
                 };
-                decimate(&p, 1600)
+                decimate(p, 1600)
             })
             .collect()
     }
@@ -545,7 +546,7 @@ impl Chart<'_> {
         for b in &self.bands {
             let pts = match self.x_range {
                 Some((a, c)) => in_range(&b.points, |q| q.0, a, c),
-                None => b.points.clone(),
+                None => &b.points[..],
             };
             for run in pts
                 .split(|q| !(q.0.is_finite() && q.1.is_finite() && q.2.is_finite()))

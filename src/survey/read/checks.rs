@@ -443,6 +443,14 @@ pub(crate) fn fill_gaps(
     regular: Vec<bool>,
     s_nom: f64,
 ) -> (Vec<Reading>, Vec<bool>) {
+    // Most surveys skip no station: keep their readings where they are (a
+    // copy would double a long survey's memory while it is read).
+    let skips = |(w, &reg): (&[Reading], &bool)| {
+        !reg && ((w[1].chainage - w[0].chainage) / s_nom).round() >= 2.0
+    };
+    if !r.windows(2).zip(regular.iter().skip(1)).any(skips) {
+        return (r, regular);
+    }
     let mut out = Vec::with_capacity(r.len());
     let mut flags = Vec::with_capacity(r.len());
     let mut prev: Option<(f64, crate::survey::Rail)> = None;

@@ -57,7 +57,7 @@ impl Reader<'_> {
             let note = (cols.note)
                 .and_then(|i| cells.get(i))
                 .filter(|c| !c.is_empty())
-                .map(|c| c.to_string());
+                .map(|c| Box::from(c.as_ref()));
             prev_prev_chainage = readings.last().map(|r| r.chainage);
             readings.push(Reading {
                 chainage,
