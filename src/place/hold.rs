@@ -104,6 +104,41 @@ fn distance_to(al: &Alignment, mut u: f64, x: f64, y: f64) -> f64 {
     (q.x - x) * -q.heading.sin() + (q.y - y) * q.heading.cos()
 }
 
+/// The field versine of [`rail_versine`] in closed form where the whole chord
+/// (with room for a wire's ends) lies on one straight or one arc of `al`: the
+/// rail there is a line or a circle of curvature `k / (1 − k d)`, read by the
+/// chord relations of [`crate::chord`]. `None` where the chord meets a
+/// transition or a joint (most stations of a route are on one element, and
+/// the numerical reading costs a hundred poses).
+fn versine_within_one_element(
+    al: &Alignment,
+    u: f64,
+    d: f64,
+    arms: Arms,
+    rail: Rail,
+    marking: Marking,
+) -> Option<f64> {
+    let i = al.locate(u);
+    let e = al.elements().get(i)?;
+    if e.k_start != e.k_end {
+        return None;
+    }
+    let k = e.k_start;
+    let stretch = 1.0 / (1.0 - k * d);
+    // A wire's ends lie within a few per cent of the chord of the marks'.
+    let margin = 0.05 * arms.chord() + 0.01;
+    let (s0, s1) = (al.element_start(i), al.element_start(i) + e.length);
+    let (back, ahead) = (
+        (arms.behind + margin) * stretch.abs(),
+        (arms.ahead + margin) * stretch.abs(),
+    );
+    if !(stretch.is_finite() && u - back > s0 && u + ahead < s1) {
+        return None;
+    }
+    let chord_side = crate::chord::versine_from_curvature_arms(k * stretch, arms, marking);
+    Some(rail.chord_side(chord_side))
+}
+
 /// Field versine of the offset line `d` of `al` (the surveyed rail) at
 /// centreline distance `u`, read on `rail` with a chord of arms `arms`:
 /// between the marks `behind` and `ahead` of it along the rail (taped), or by
@@ -171,13 +206,18 @@ impl PlacedDesign {
             Some((b, _)) if fit.stats.bias_removed => b,
             _ => 0.0,
         };
+        use rayon::prelude::*;
         plan.stations
-            .iter()
+            .par_iter()
+            .with_min_len(4096)
             .map(|s| {
                 let d = s.rail.offset_left(setup.gauge);
                 let u0 = fit.centre_distance(s.chainage);
                 let u = distance_of(&self.alignment, self.locator.locate(u0));
-                rail_versine(&self.alignment, u, d, arms, s.rail, wire) + s.rail.chord_side(shift)
+                let v =
+                    versine_within_one_element(&self.alignment, u, d, arms, s.rail, setup.marking)
+                        .unwrap_or_else(|| rail_versine(&self.alignment, u, d, arms, s.rail, wire));
+                v + s.rail.chord_side(shift)
             })
             .collect()
     }
@@ -210,5 +250,66 @@ impl PlacedDesign {
                 }
             })
             .collect()
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::geometry::Element;
+
+    /// The closed form on one element agrees with the numerical reading of
+    /// the rail (marks or a wire found by Newton's method) on straights and
+    /// arcs of either hand, on either rail, for symmetric and asymmetric
+    /// chords, and it declines where the chord meets a transition.
+    #[test]
+    fn closed_form_on_one_element_matches_the_rail_read_numerically() {
+        let al = Alignment::new(
+            Pose::default(),
+            0.0,
+            vec![
+                Element::straight(100.0),
+                Element::transition(40.0, 0.0, 1.0 / 300.0),
+                Element::arc(120.0, 300.0),
+                Element::transition(40.0, 1.0 / 300.0, -1.0 / 180.0),
+                Element::arc(100.0, -180.0),
+            ],
+        );
+        let chords = [
+            Arms::symmetric(10.0),
+            Arms {
+                behind: 4.0,
+                ahead: 6.5,
+            },
+        ];
+        let (mut fast, mut slow) = (0, 0);
+        for arms in chords {
+            for rail in [Rail::Left, Rail::Right] {
+                let d = rail.offset_left(1.435);
+                for marking in [Marking::Taped, Marking::Wire] {
+                    let wire = marking == Marking::Wire;
+                    for step in 3..80 {
+                        let u = 5.0 * step as f64;
+                        let exact = rail_versine(&al, u, d, arms, rail, wire);
+                        match versine_within_one_element(&al, u, d, arms, rail, marking) {
+                            Some(v) => {
+                                fast += 1;
+                                assert!(
+                                    (v - exact).abs() < 1e-9,
+                                    "{arms:?} {rail:?} {marking:?} at {u}: {v} vs {exact}"
+                                );
+                            }
+                            None => slow += 1,
+                        }
+                    }
+                }
+            }
+        }
+        // Both paths were taken: the transitions (100–140 m, 260–300 m) and
+        // a chord's length around them go the numerical way.
+        assert!(
+            fast > 400 && slow > 50,
+            "{fast} closed-form, {slow} numerical"
+        );
     }
 }
