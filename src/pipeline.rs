@@ -175,28 +175,10 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
         d.retain(|x| !(x.location.is_none() && x.message.starts_with("control point '")));
     }
     diagnostics.append(&mut d);
-    let mut control_checks = Vec::new();
-    if let Some(g) = &georef {
-        // Leave-one-out costs one integration per point: skip it on long routes.
-        let affordable = iopts.position_obs.len() * survey.readings.len() <= 2_000_000;
-        if !affordable {
-            diagnostics.push(Diagnostic::note(format!(
-                "the leave-one-out check of the {} control points was skipped on this long survey; their residuals are still reported",
-                iopts.position_obs.len()
-            )));
-        }
-        let obs_for_loo: &[_] = if affordable { &iopts.position_obs } else { &[] };
-        let loo = leave_one_out(obs_for_loo, |obs| {
-            let o = IntegrateOptions {
-                start: iopts.start,
-                position_obs: obs.to_vec(),
-            };
-            integrate(&survey, &setup, &o).map(|(p, _)| p)
-        })?;
-        let (checks, mut d) = g.assess(&plan.position_residuals, &loo);
-        diagnostics.append(&mut d);
-        control_checks = checks;
-    }
+    let control_checks = match &georef {
+        Some(g) => judge_controls(g, &survey, &setup, &iopts, &plan, &mut diagnostics)?,
+        None => Vec::new(),
+    };
     let (mut fitted, mut design, mut slews) = (None, None, None);
     if let Some(fopts) = &opts.fit {
         // One reading-noise figure: the plan's, which the fit reads from it.
@@ -264,6 +246,37 @@ pub fn process(survey: Survey, opts: &Options) -> Result<Results, RunError> {
         diagnostics,
         stage_times: times,
     })
+}
+
+/// The verdict on each control point: its residual and, where affordable,
+/// the leave-one-out check of it.
+fn judge_controls(
+    g: &Georef,
+    survey: &Survey,
+    setup: &Setup,
+    iopts: &IntegrateOptions,
+    plan: &Plan,
+    diagnostics: &mut Vec<Diagnostic>,
+) -> Result<Vec<crate::georef::ControlCheck>, RunError> {
+    // Leave-one-out costs one integration per point: skip it on long routes.
+    let affordable = iopts.position_obs.len() * survey.readings.len() <= 2_000_000;
+    if !affordable {
+        diagnostics.push(Diagnostic::note(format!(
+            "the leave-one-out check of the {} control points was skipped on this long survey; their residuals are still reported",
+            iopts.position_obs.len()
+        )));
+    }
+    let obs_for_loo: &[_] = if affordable { &iopts.position_obs } else { &[] };
+    let loo = leave_one_out(obs_for_loo, |obs| {
+        let o = IntegrateOptions {
+            start: iopts.start,
+            position_obs: obs.to_vec(),
+        };
+        integrate(survey, setup, &o).map(|(p, _)| p)
+    })?;
+    let (checks, mut d) = g.assess(&plan.position_residuals, &loo);
+    diagnostics.append(&mut d);
+    Ok(checks)
 }
 
 /// What the placement and the realignment of a fitted design work on.
