@@ -2,7 +2,7 @@
 //! normal equations of the chord-space fit, whose parameters each reach only
 //! the readings within about a chord of their element.
 
-use nalgebra::DVector;
+use nalgebra::{DMatrix, DVector};
 
 /// A symmetric matrix stored by rows of its lower triangle, each row from its
 /// first non-zero column to the diagonal (the envelope, or profile). The
@@ -60,6 +60,20 @@ impl Envelope {
         self.data[at] += x;
     }
 
+    /// The whole symmetric matrix.
+    pub(super) fn to_dense(&self) -> DMatrix<f64> {
+        let n = self.len();
+        let mut m = DMatrix::zeros(n, n);
+        for i in 0..n {
+            for k in self.first[i]..=i {
+                let x = self.data[self.at(i, k)];
+                m[(i, k)] = x;
+                m[(k, i)] = x;
+            }
+        }
+        m
+    }
+
     /// The Cholesky factor `L` (`A = L Lᵀ`) in the same envelope, or `None`
     /// when the matrix is not positive definite.
     pub(super) fn cholesky(mut self) -> Option<Envelope> {
@@ -112,7 +126,6 @@ impl Envelope {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use nalgebra::DMatrix;
 
     #[test]
     fn envelope_solve_matches_the_dense_cholesky() {
@@ -137,6 +150,7 @@ mod tests {
         let b = DVector::from_iterator(n, (0..n).map(|i| 1.0 - 0.25 * i as f64));
         let want = dense.clone().cholesky().unwrap().solve(&b);
         let got = env.clone().cholesky().unwrap().solve(&b);
+        assert_eq!(env.to_dense(), dense);
         assert!((want - got).amax() < 1e-12);
         // Not positive definite: refused, as the dense factor refuses it.
         let mut bad = env;

@@ -267,13 +267,17 @@ fn normal_equations(
     (jtj, jtr, rss)
 }
 
-/// The reduced (free) parameters in chainage order: each column of
+/// The reduced (free) parameters in chainage order (with `chainage_order`;
+/// otherwise in the order of [`reduce_map`]): each column of
 /// [`reduce_map`] is given the position of the element it belongs to (a
 /// plateau's level before its ramp's mid-point and length), so that the
 /// normal equations are banded. Returns, per full parameter, its non-zero
 /// entries `(reduced column, coefficient)`, and the parameter of each
 /// reduced column.
-pub(super) fn reduced_columns(chain: &Chain) -> (Vec<Vec<(usize, f64)>>, Vec<Param>) {
+pub(super) fn reduced_columns(
+    chain: &Chain,
+    chainage_order: bool,
+) -> (Vec<Vec<(usize, f64)>>, Vec<Param>) {
     let tm = reduce_map(chain);
     let np = tm.ncols();
     let key = |p: Param| match p {
@@ -282,8 +286,11 @@ pub(super) fn reduced_columns(chain: &Chain) -> (Vec<Vec<(usize, f64)>>, Vec<Par
         Param::Len(j) => 3 * j + 2,
     };
     let free = free_params(chain);
-    let mut order: Vec<(usize, usize)> =
-        free.iter().enumerate().map(|(c, &p)| (key(p), c)).collect();
+    let mut order: Vec<(usize, usize)> = free
+        .iter()
+        .enumerate()
+        .map(|(c, &p)| (if chainage_order { key(p) } else { c }, c))
+        .collect();
     order.sort_unstable();
     let mut new_of = vec![0; np];
     for (new, &(_, old)) in order.iter().enumerate() {
@@ -427,7 +434,10 @@ const STEP_TOL: f64 = 1e-6;
 /// Fit `chain` to the data in place, respecting its holds.
 pub fn fit(chain: &mut Chain, d: &Data, max_iter: usize) -> Outcome {
     let par = full_params(chain);
-    let (tcols, free) = reduced_columns(chain);
+    // A small system is solved densely in the parameters' own order (as
+    // fast, and the same to the last bit as before the envelope existed).
+    let banded = free_params(chain).len() > DENSE_MAX;
+    let (tcols, free) = reduced_columns(chain, banded);
     project(chain, d.lo, d.hi);
     iterate(chain, d, max_iter, &par, &tcols, free.len())
 }
@@ -446,7 +456,7 @@ pub fn fit_local(
     reach: f64,
 ) -> Outcome {
     let par = full_params(chain);
-    let (tcols, free) = reduced_columns(chain);
+    let (tcols, free) = reduced_columns(chain, true);
     project(chain, d.lo, d.hi);
     let m = chain.ramps();
     let (w0, w1) = (x0 - reach, x1 + reach);
@@ -540,6 +550,35 @@ fn rss_of(chain: &Chain, d: &Data) -> f64 {
         .sum()
 }
 
+/// Systems of up to this many parameters are factorised densely: below it a
+/// dense Cholesky factor costs no more than the envelope's bookkeeping.
+const DENSE_MAX: usize = 48;
+
+/// A factorised system `A = L Lᵀ`: dense for small systems, in envelope
+/// storage for large ones.
+enum Factor {
+    Dense(nalgebra::Cholesky<f64, nalgebra::Dyn>),
+    Envelope(Envelope),
+}
+
+impl Factor {
+    /// The factor of `a`, or `None` when it is not positive definite.
+    fn of(a: Envelope) -> Option<Factor> {
+        if a.len() <= DENSE_MAX {
+            a.to_dense().cholesky().map(Factor::Dense)
+        } else {
+            a.cholesky().map(Factor::Envelope)
+        }
+    }
+
+    fn solve(&self, b: &DVector<f64>) -> DVector<f64> {
+        match self {
+            Factor::Dense(c) => c.solve(b),
+            Factor::Envelope(e) => e.solve(b),
+        }
+    }
+}
+
 /// The Levenberg–Marquardt iterations on the reduced parameters `tcols`
 /// (`np` of them) from a feasible chain.
 fn iterate(
@@ -576,7 +615,7 @@ fn iterate(
             ridge.add_diag(i, DECREMENT_RIDGE * maxd);
         }
         let mut dec = f64::INFINITY;
-        if let Some(ch) = ridge.cholesky() {
+        if let Some(ch) = Factor::of(ridge) {
             dec = g.dot(&ch.solve(&g));
             if dec < d.rss_tol {
                 termination = Termination::Converged;
@@ -590,7 +629,7 @@ fn iterate(
             for i in 0..np {
                 a.add_diag(i, lambda * jtj.diag(i).max(1e-9 * maxd));
             }
-            let Some(ch) = a.cholesky() else {
+            let Some(ch) = Factor::of(a) else {
                 lambda *= LAMBDA_UP;
                 continue;
             };
@@ -743,7 +782,7 @@ mod tests {
             rss_tol: 0.0,
         };
         let par = full_params(&c);
-        let (tcols, free) = reduced_columns(&c);
+        let (tcols, free) = reduced_columns(&c, true);
         let np = free.len();
         let (env, jtr, _) = normal_equations(&c, &par, &tcols, np, &d);
         let (r, jf) = jacobian(&c, &par, &d);
@@ -771,6 +810,47 @@ mod tests {
                     jtj[(i, k)]
                 );
             }
+        }
+    }
+
+    #[test]
+    fn a_fit_of_many_elements_goes_through_the_envelope_and_converges() {
+        // 16 arcs between straights: 64 ramp parameters and 16 levels, more
+        // than DENSE_MAX, so the banded factor is used.
+        let mut levels = vec![Level::Zero];
+        let (mut mids, mut lens) = (Vec::new(), Vec::new());
+        for k in 0..16 {
+            let x0 = 100.0 + 160.0 * k as f64;
+            levels.push(Level::Free(if k % 2 == 0 { 2e-3 } else { -1.5e-3 }));
+            levels.push(Level::Zero);
+            mids.extend([x0, x0 + 70.0]);
+            lens.extend([30.0, 20.0]);
+        }
+        let truth = Chain::new(levels, mids, lens);
+        assert!(free_params(&truth).len() > DENSE_MAX);
+        let s: Vec<f64> = (0..560).map(|i| 5.0 * i as f64).collect();
+        let v = predict_with(&truth, &s);
+        let d = Data {
+            s: &s,
+            v: &v,
+            arms: Arms::symmetric(10.0),
+            eps: -1.0 / 3.0,
+            lo: -1e9,
+            hi: 1e9,
+            rss_tol: 1e-16,
+        };
+        let mut c = truth.clone();
+        for j in (0..c.ramps()).step_by(3) {
+            c.mids[j] += 2.0;
+        }
+        let out = fit(&mut c, &d, 100);
+        assert_eq!(out.termination, Termination::Converged);
+        for j in 0..c.ramps() {
+            assert!(
+                (c.mids[j] - truth.mids[j]).abs() < 1e-3,
+                "ramp {j}: {}",
+                c.mids[j]
+            );
         }
     }
 

@@ -17,8 +17,9 @@ fn candidates(unit: VersineUnit) -> &'static [f64] {
 
 /// The step the readings were rounded to, in metres, if every reading is a
 /// whole multiple of one of the usual steps (5, 2, 1, 0.5, 0.1 … mm; 1/4, 1/8,
-/// 1/16, 1/32, 0.1, 0.01 in; 0.01 ft …). Needs at least 8 readings, some
-/// not zero. `None` for readings with no visible rounding.
+/// 1/16, 1/32, 0.1, 0.01 in; 0.01 ft …), but for at most one in
+/// 16 of the non-zero readings (typing slips). Needs at least
+/// 8 readings, some not zero. `None` for readings with no visible rounding.
 ///
 /// # Examples
 /// ```
@@ -40,18 +41,29 @@ pub fn detect_resolution(readings_m: &[f64], unit: VersineUnit) -> Option<f64> {
         VersineUnit::Metre => 1e-3,
         u => u.metres(),
     };
-    'cand: for &q in candidates(unit) {
+    // A few readings off the step are typing slips, not a finer step.
+    let allowed = readings_m.iter().filter(|v| **v != 0.0).count() / OFF_STEP_SHARE;
+    for &q in candidates(unit) {
         let step = q * scale;
-        for &v in readings_m {
-            let n = v / step;
-            if (n - n.round()).abs() > 1e-6 {
-                continue 'cand;
-            }
+        let off = readings_m
+            .iter()
+            .filter(|&&v| {
+                let n = v / step;
+                (n - n.round()).abs() > 1e-6
+            })
+            .count();
+        if off <= allowed {
+            return Some(step);
         }
-        return Some(step);
     }
     None
 }
+
+/// At most one non-zero reading in this many may be off the step (typing
+/// slips, which a field book writes in whatever digits were typed): slips
+/// do not make the step look finer. Counted among the non-zero readings, as
+/// zero is on every step.
+const OFF_STEP_SHARE: usize = 16;
 
 /// Robust estimate of the reading standard deviation from third differences
 /// of consecutive readings at (nearly) equal spacing: `Δ³v` removes a versine
@@ -178,6 +190,22 @@ mod tests {
         }
         let dirty = trimmed_sigma(&x).unwrap();
         assert!((dirty - 1.0).abs() < 0.1, "{dirty}");
+    }
+
+    #[test]
+    fn a_few_typing_slips_leave_the_step_found() {
+        // 40 readings in eighths of an inch, two of them typed in other
+        // digits (2.735 for 2.375): the step is still 1/8 in; with a fifth of
+        // the readings off it, it is not.
+        let inch = 0.0254;
+        let mut v: Vec<f64> = (0..40).map(|i| (1 + i % 23) as f64 / 8.0 * inch).collect();
+        v[7] = 2.735 * inch;
+        v[30] = 1.53 * inch;
+        assert_eq!(detect_resolution(&v, VersineUnit::Inch), Some(0.125 * inch));
+        for k in (0..40).step_by(5) {
+            v[k] = (0.37 + k as f64 * 0.011) * inch;
+        }
+        assert_eq!(detect_resolution(&v, VersineUnit::Inch), Some(0.001 * inch));
     }
 
     #[test]
