@@ -9,29 +9,8 @@ use chordline::geometry::{Alignment, Pose};
 use chordline::pipeline::{Options, process};
 use chordline::simulate::{SimSetup, simulate, synthetic_route};
 use chordline::survey::{Marking, Rail};
-use common::{run_demo_to, stderr};
-use std::collections::HashMap;
+use common::{csv_rows as rows, run_demo_to, stderr};
 use std::path::Path;
-
-fn rows(p: &Path) -> Vec<HashMap<String, f64>> {
-    let text = std::fs::read_to_string(p).unwrap();
-    let body: String = text
-        .lines()
-        .filter(|l| !l.starts_with('#'))
-        .map(|l| format!("{l}\n"))
-        .collect();
-    let mut rd = csv::Reader::from_reader(body.as_bytes());
-    let h: Vec<String> = rd.headers().unwrap().iter().map(str::to_string).collect();
-    rd.records()
-        .map(|r| {
-            let r = r.unwrap();
-            h.iter()
-                .cloned()
-                .zip(r.iter().map(|v| v.parse().unwrap_or(f64::NAN)))
-                .collect()
-        })
-        .collect()
-}
 
 /// The placed demo's design (grid coordinates in stations.csv) against each
 /// control point of the file (grid coordinates as given): within two standard

@@ -13,32 +13,11 @@ use chordline::pipeline::{Options, process};
 use chordline::realign::SlewOptions;
 use chordline::simulate::{SimSetup, simulate, synthetic_route};
 use chordline::survey::{Marking, Rail};
-use common::{run_demo_to, stderr};
-use std::collections::HashMap;
+use common::{csv_rows as rows, run_demo_to, stderr};
 use std::path::Path;
 
 /// How far the slew may be from the distance to the written design (m).
 const AGREE: f64 = 0.001;
-
-fn rows(p: &Path) -> Vec<HashMap<String, f64>> {
-    let text = std::fs::read_to_string(p).unwrap();
-    let body: String = text
-        .lines()
-        .filter(|l| !l.starts_with('#'))
-        .map(|l| format!("{l}\n"))
-        .collect();
-    let mut rd = csv::Reader::from_reader(body.as_bytes());
-    let h: Vec<String> = rd.headers().unwrap().iter().map(str::to_string).collect();
-    rd.records()
-        .map(|r| {
-            let r = r.unwrap();
-            h.iter()
-                .cloned()
-                .zip(r.iter().map(|v| v.parse().unwrap_or(f64::NAN)))
-                .collect()
-        })
-        .collect()
-}
 
 /// Signed distance from `q` to the curve through the design points `a`,
 /// `p`, `b` (in order along the track), positive when the curve lies to the

@@ -687,6 +687,19 @@ fn iterate(
 mod tests {
     use super::*;
 
+    /// The test surveys' data: a 20 m chord, taped marks, no bounds.
+    fn test_data<'a>(s: &'a [f64], v: &'a [f64], rss_tol: f64) -> Data<'a> {
+        Data {
+            s,
+            v,
+            arms: Arms::symmetric(10.0),
+            eps: -1.0 / 3.0,
+            lo: -1e9,
+            hi: 1e9,
+            rss_tol,
+        }
+    }
+
     /// A straight, a 40 m ramp to an arc, a 15 m ramp back (finite-angle
     /// term on), and readings every 5 m with a 20 m chord.
     fn case() -> (Chain, Vec<f64>) {
@@ -703,15 +716,7 @@ mod tests {
     fn analytic_jacobian_matches_central_differences() {
         let (c, s) = case();
         let v = vec![0.0; s.len()];
-        let d = Data {
-            s: &s,
-            v: &v,
-            arms: Arms::symmetric(10.0),
-            eps: -1.0 / 3.0,
-            lo: -1e9,
-            hi: 1e9,
-            rss_tol: 0.0,
-        };
+        let d = test_data(&s, &v, 0.0);
         let par = full_params(&c);
         let (_, jm) = jacobian(&c, &par, &d);
         for (k, p) in par.iter().enumerate() {
@@ -745,15 +750,7 @@ mod tests {
     fn a_fit_from_a_shifted_start_converges_to_the_truth() {
         let (truth, s) = case();
         let v = predict_with(&truth, &s);
-        let d = Data {
-            s: &s,
-            v: &v,
-            arms: Arms::symmetric(10.0),
-            eps: -1.0 / 3.0,
-            lo: -1e9,
-            hi: 1e9,
-            rss_tol: 1e-16,
-        };
+        let d = test_data(&s, &v, 1e-16);
         let mut c = truth.clone();
         c.mids[0] += 4.0;
         c.lens[1] += 6.0;
@@ -772,15 +769,7 @@ mod tests {
     fn normal_equations_match_the_dense_jacobian() {
         let (c, s) = case();
         let v: Vec<f64> = s.iter().map(|x| 1e-3 * (x / 37.0).sin()).collect();
-        let d = Data {
-            s: &s,
-            v: &v,
-            arms: Arms::symmetric(10.0),
-            eps: -1.0 / 3.0,
-            lo: -1e9,
-            hi: 1e9,
-            rss_tol: 0.0,
-        };
+        let d = test_data(&s, &v, 0.0);
         let par = full_params(&c);
         let (tcols, free) = reduced_columns(&c, true);
         let np = free.len();
@@ -830,15 +819,7 @@ mod tests {
         assert!(free_params(&truth).len() > DENSE_MAX);
         let s: Vec<f64> = (0..560).map(|i| 5.0 * i as f64).collect();
         let v = predict_with(&truth, &s);
-        let d = Data {
-            s: &s,
-            v: &v,
-            arms: Arms::symmetric(10.0),
-            eps: -1.0 / 3.0,
-            lo: -1e9,
-            hi: 1e9,
-            rss_tol: 1e-16,
-        };
+        let d = test_data(&s, &v, 1e-16);
         let mut c = truth.clone();
         for j in (0..c.ramps()).step_by(3) {
             c.mids[j] += 2.0;

@@ -91,3 +91,25 @@ pub fn plan_of(
         .expect("integrate")
         .0
 }
+
+/// The rows of a CSV table the program wrote (comment lines skipped), each
+/// as column name → number (NaN where the cell is not a number).
+pub fn csv_rows(p: &Path) -> Vec<std::collections::HashMap<String, f64>> {
+    let text = std::fs::read_to_string(p).unwrap();
+    let body: String = text
+        .lines()
+        .filter(|l| !l.starts_with('#'))
+        .map(|l| format!("{l}\n"))
+        .collect();
+    let mut rd = csv::Reader::from_reader(body.as_bytes());
+    let h: Vec<String> = rd.headers().unwrap().iter().map(str::to_string).collect();
+    rd.records()
+        .map(|r| {
+            let r = r.unwrap();
+            h.iter()
+                .cloned()
+                .zip(r.iter().map(|v| v.parse().unwrap_or(f64::NAN)))
+                .collect()
+        })
+        .collect()
+}
