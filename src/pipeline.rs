@@ -326,17 +326,28 @@ fn place_and_realign(
             }
             Ok((placed, s))
         }
-        Err(e) if e.is_request() || matches!(e, crate::realign::SlewError::Solver { .. }) => {
-            Err(e.into())
-        }
         Err(e) => {
-            diagnostics.push(
-                Diagnostic::warning(format!("no slews: {e}"))
-                    .hint("stations.csv is written without the slew columns"),
-            );
+            leave_slews_out(e, diagnostics)?;
             Ok((place(), None))
         }
     }
+}
+
+/// A realignment that failed: the error itself when it cannot be done as
+/// asked (a request the data cannot meet, or a solver fault), else a warning
+/// that the slews are left out and the run goes on.
+fn leave_slews_out(
+    e: crate::realign::SlewError,
+    diagnostics: &mut Vec<Diagnostic>,
+) -> Result<(), RunError> {
+    if e.is_request() || matches!(e, crate::realign::SlewError::Solver { .. }) {
+        return Err(e.into());
+    }
+    diagnostics.push(
+        Diagnostic::warning(format!("no slews: {e}"))
+            .hint("stations.csv is written without the slew columns"),
+    );
+    Ok(())
 }
 
 /// The note of slews solved in versine space because the placed design
@@ -380,14 +391,8 @@ fn realign_stage(
             diagnostics.append(&mut d);
             Ok(Some(s))
         }
-        Err(e) if e.is_request() || matches!(e, crate::realign::SlewError::Solver { .. }) => {
-            Err(e.into())
-        }
         Err(e) => {
-            diagnostics.push(
-                Diagnostic::warning(format!("no slews: {e}"))
-                    .hint("stations.csv is written without the slew columns"),
-            );
+            leave_slews_out(e, diagnostics)?;
             Ok(None)
         }
     }

@@ -249,16 +249,7 @@ impl Chain {
             return self.versine_linear(s, arms.behind);
         }
         let (a1, a2) = (arms.behind, arms.ahead);
-        let (mut lo, mut hi) = (0, self.ramps());
-        while lo < hi {
-            let mid = lo + (hi - lo) / 2;
-            if self.ramp_end(mid) + a1 > s {
-                hi = mid;
-            } else {
-                lo = mid + 1;
-            }
-        }
-        let j_lo = lo;
+        let j_lo = self.first_ramp_seen(s, a1);
         let mut v = self.levels[j_lo].value() * 0.5 * a1 * a2;
         for j in j_lo..self.ramps() {
             let b = self.ramp_start(j);
